@@ -1,0 +1,70 @@
+"""Declarative base, naming convention and column types shared by every model."""
+from __future__ import annotations
+
+import enum
+from datetime import datetime, timezone
+
+import sqlalchemy as sa
+from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
+
+# Named constraints make migrations portable between SQLite and PostgreSQL.
+NAMING_CONVENTION = {
+    "ix": "ix_%(column_0_label)s",
+    "uq": "uq_%(table_name)s_%(column_0_name)s",
+    "ck": "ck_%(table_name)s_%(constraint_name)s",
+    "fk": "fk_%(table_name)s_%(column_0_name)s_%(referred_table_name)s",
+    "pk": "pk_%(table_name)s",
+}
+
+
+def utcnow() -> datetime:
+    """Return the current time as an aware UTC datetime."""
+    return datetime.now(timezone.utc)
+
+
+class UTCDateTime(sa.TypeDecorator):
+    """Store aware datetimes as naive UTC; read them back as aware UTC."""
+
+    impl = sa.DateTime
+    cache_ok = True
+
+    def process_bind_param(self, value, dialect):
+        if value is None:
+            return None
+        if value.tzinfo is None:
+            raise ValueError("naive datetime given where UTC is required")
+        return value.astimezone(timezone.utc).replace(tzinfo=None)
+
+    def process_result_value(self, value, dialect):
+        if value is None:
+            return None
+        return value.replace(tzinfo=timezone.utc)
+
+
+def enum_column(enum_cls: type[enum.Enum], name: str | None = None) -> sa.Enum:
+    """A portable (VARCHAR + CHECK) enum column storing the members' values.
+
+    `name` names its CHECK constraint; give one when a table has two columns of the same enum.
+    """
+    return sa.Enum(
+        enum_cls,
+        native_enum=False,
+        create_constraint=True,
+        length=32,
+        name=name or enum_cls.__name__.lower(),
+        values_callable=lambda members: [m.value for m in members],
+        validate_strings=True,
+    )
+
+
+class Base(DeclarativeBase):
+    """Base of every model: shared metadata with the naming convention."""
+
+    metadata = sa.MetaData(naming_convention=NAMING_CONVENTION)
+    type_annotation_map = {datetime: UTCDateTime()}
+
+
+class IdMixin:
+    """Integer surrogate primary key."""
+
+    id: Mapped[int] = mapped_column(primary_key=True)

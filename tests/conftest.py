@@ -1,0 +1,277 @@
+"""Shared fixtures: the app on SQLite and PostgreSQL, factories, SMTP and a live server."""
+from __future__ import annotations
+
+import os
+import shutil
+import socket
+import threading
+import uuid
+from datetime import date, timedelta
+
+import psycopg
+import pytest
+import sqlalchemy as sa
+from werkzeug.security import generate_password_hash
+from werkzeug.serving import make_server
+
+from models import Base
+from models.dose_codes import WorkerCategory
+from models.instruments import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind, save_instrument
+from models.people import Role, add_person
+from webapp import create_app
+from webapp.extensions import db
+
+PASSWORD = "correct horse battery"
+# A cheap hash keeps tests fast; the app itself hashes with scrypt.
+PASSWORD_HASH = generate_password_hash(PASSWORD, method="pbkdf2:sha256:1000")
+PG_ADMIN_URL = os.environ.get("TEST_POSTGRES_URL", "postgresql://postgres@127.0.0.1:5432/test")
+BACKENDS = [b for b in os.environ.get("TEST_BACKENDS", "sqlite,postgresql").split(",") if b]
+
+
+def _flag(name: str) -> bool:
+    """True when an environment switch is on."""
+    return os.environ.get(name, "") in {"1", "true", "yes"}
+
+
+def base_config(database_url: str, **extra) -> dict:
+    """Configuration for a test app."""
+    return {"TESTING": True, "SECRET_KEY": "test", "SQLALCHEMY_DATABASE_URI": database_url,
+            "WTF_CSRF_ENABLED": False, "RATELIMIT_ENABLED": False, "MAIL_SERVER": "", **extra}
+
+
+def migrate_to_head(database_url: str) -> None:
+    """Build a database's schema the way production does: by running the migrations."""
+    from flask_migrate import upgrade
+
+    app = create_app(base_config(database_url))
+    with app.app_context():
+        upgrade()
+        db.engine.dispose()
+
+
+@pytest.fixture(scope="session")
+def sqlite_template(tmp_path_factory) -> str:
+    """A migrated SQLite file, copied for each test."""
+    path = tmp_path_factory.mktemp("template") / "template.sqlite"
+    migrate_to_head(f"sqlite:///{path}")
+    return str(path)
+
+
+@pytest.fixture(scope="session")
+def postgres_database():
+    """A fresh, migrated PostgreSQL database for this run, dropped at the end."""
+    try:
+        admin = psycopg.connect(PG_ADMIN_URL, autocommit=True, connect_timeout=3)
+    except psycopg.OperationalError as error:
+        if _flag("REQUIRE_POSTGRES"):
+            pytest.fail(f"PostgreSQL is required (REQUIRE_POSTGRES=1) but unreachable: {error}")
+        pytest.skip(f"PostgreSQL unreachable at {PG_ADMIN_URL}: {error}")
+    name = f"logbook_test_{uuid.uuid4().hex[:12]}"
+    admin.execute(f'CREATE DATABASE "{name}"')
+    url = PG_ADMIN_URL.rsplit("/", 1)[0].replace("postgresql://", "postgresql+psycopg://") + f"/{name}"
+    try:
+        migrate_to_head(url)
+        yield url
+    finally:
+        admin.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
+        admin.close()
+
+
+@pytest.fixture(params=BACKENDS)
+def database_url(request, tmp_path) -> str:
+    """An empty, migrated database on each backend in turn."""
+    if request.param == "sqlite":
+        path = tmp_path / "test.sqlite"
+        shutil.copy(request.getfixturevalue("sqlite_template"), path)
+        return f"sqlite:///{path}"
+    url = request.getfixturevalue("postgres_database")
+    tables = ", ".join(f'"{t.name}"' for t in Base.metadata.sorted_tables)
+    engine = sa.create_engine(url)
+    with engine.begin() as conn:
+        conn.execute(sa.text(f"TRUNCATE {tables} RESTART IDENTITY CASCADE"))
+    engine.dispose()
+    return url
+
+
+@pytest.fixture
+def app_config() -> dict:
+    """Extra configuration a test module can override."""
+    return {}
+
+
+@pytest.fixture
+def app(database_url, app_config):
+    """The app bound to a fresh database, inside an app context."""
+    app = create_app(base_config(database_url, **app_config))
+    with app.app_context():
+        yield app
+        db.session.remove()
+        db.engine.dispose()
+
+
+@pytest.fixture
+def session(app):
+    """The app's database session."""
+    return db.session
+
+
+@pytest.fixture
+def client(app):
+    """A test client."""
+    return app.test_client()
+
+
+@pytest.fixture
+def make_person(app):
+    """Factory: a committed person who can log in with PASSWORD."""
+    counter = iter(range(1, 10_000))
+
+    def make(login: str | None = None, *, roles=(Role.OPERATOR,), name: str | None = None,
+             category=WorkerCategory.ADULT_WORKER, email: str | None = None):
+        n = next(counter)
+        login = login or f"person{n}"
+        person = add_person(db.session, login=login, name=name or f"Person {login}",
+                            email=email or f"{login}@example.org", roles=set(roles),
+                            category=category, password_hash=PASSWORD_HASH)
+        db.session.commit()
+        return person
+
+    return make
+
+
+@pytest.fixture
+def make_instrument(app):
+    """Factory: a committed instrument (a Cu powder diffractometer unless told otherwise)."""
+    counter = iter(range(1, 10_000))
+
+    def make(**values):
+        n = next(counter)
+        defaults = {"name": f"Instrument {n}", "kind": InstrumentKind.POWDER_XRD, "room": "B1",
+                    "registration_number": f"REG-{n}", "anode": "Cu", "max_kv": 60.0,
+                    "max_ma": 60.0, "max_power_w": 2200.0, "enclosure": Enclosure.ENCLOSED,
+                    "check_interval_days": 30, "survey_interval_days": 365,
+                    "surface_action_level_usv_h": 2.5, "housing_action_level_usv_h": 25.0}
+        instrument = save_instrument(db.session, {**defaults, **values})
+        db.session.commit()
+        return instrument
+
+    return make
+
+
+@pytest.fixture
+def authorise(app):
+    """Factory: authorise a person on an instrument, trained today, refresher in a year."""
+
+    def make(person, instrument, *, level=AuthorisationLevel.INDEPENDENT,
+             trained_on: date | None = None, refresher_due: date | None = None):
+        trained_on = trained_on or date.today()
+        auth = Authorisation(person_id=person.id, instrument_id=instrument.id, level=level,
+                             trained_on=trained_on,
+                             refresher_due=refresher_due or trained_on + timedelta(days=365))
+        db.session.add(auth)
+        db.session.commit()
+        return auth
+
+    return make
+
+
+@pytest.fixture
+def login(client):
+    """Log the test client in as a person."""
+
+    def log_in(person):
+        response = client.post("/login", data={"login": person.login, "password": PASSWORD})
+        assert response.status_code == 302, "login failed"
+        return client
+
+    return log_in
+
+
+class Mailbox:
+    """Messages received by the test SMTP server."""
+
+    def __init__(self):
+        self.messages = []
+
+    async def handle_DATA(self, server, session, envelope):  # noqa: N802 (aiosmtpd's name)
+        from email import message_from_bytes
+        from email.policy import default
+
+        self.messages.append(message_from_bytes(envelope.content, policy=default))
+        return "250 OK"
+
+
+def free_port() -> int:
+    """A free TCP port on loopback."""
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        return sock.getsockname()[1]
+
+
+@pytest.fixture
+def smtp_server():
+    """A real SMTP server on loopback; yields (port, mailbox)."""
+    from aiosmtpd.controller import Controller
+
+    mailbox = Mailbox()
+    port = free_port()
+    controller = Controller(mailbox, hostname="127.0.0.1", port=port)
+    controller.start()
+    try:
+        yield port, mailbox
+    finally:
+        controller.stop()
+
+
+@pytest.fixture
+def mail_app_config(smtp_server) -> dict:
+    """Configuration that sends mail to the test SMTP server."""
+    port, _ = smtp_server
+    return {"MAIL_SERVER": "127.0.0.1", "MAIL_PORT": port}
+
+
+@pytest.fixture
+def live_server(tmp_path, sqlite_template):
+    """The app served on a free loopback port over a fresh SQLite file; yields (url, app)."""
+    path = tmp_path / "live.sqlite"
+    shutil.copy(sqlite_template, path)
+    app = create_app(base_config(f"sqlite:///{path}", TESTING=False, WTF_CSRF_ENABLED=True))
+    server = make_server("127.0.0.1", free_port(), app, threaded=True)
+    thread = threading.Thread(target=server.serve_forever, daemon=True)
+    thread.start()
+    try:
+        yield f"http://127.0.0.1:{server.server_port}", app
+    finally:
+        server.shutdown()
+        with app.app_context():
+            db.engine.dispose()
+
+
+CHROMIUM = "/usr/bin/chromium"
+CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                 "--disable-component-update", "--disable-sync", "--no-first-run", "--disable-quic"]
+
+
+@pytest.fixture(scope="session")
+def browser():
+    """Debian's Chromium driven by Playwright; skipped when absent unless REQUIRE_BROWSER=1."""
+    if not os.path.exists(CHROMIUM):
+        if _flag("REQUIRE_BROWSER"):
+            pytest.fail(f"Chromium is required (REQUIRE_BROWSER=1) but {CHROMIUM} is missing")
+        pytest.skip(f"Chromium not installed at {CHROMIUM} (apt-get install -y chromium)")
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as playwright:
+        browser = playwright.chromium.launch(executable_path=CHROMIUM, headless=True,
+                                             args=CHROMIUM_ARGS)
+        yield browser
+        browser.close()
+
+
+@pytest.fixture
+def page(browser):
+    """A fresh browser page."""
+    context = browser.new_context()
+    page = context.new_page()
+    yield page
+    context.close()

@@ -1,0 +1,51 @@
+"""Rules for people and instruments."""
+import pytest
+
+from models.errors import Invalid
+from models.instruments import check_instrument
+from models.people import Role, add_person
+
+
+def test_duplicate_login_is_refused(session, make_person):
+    make_person("ada")
+    with pytest.raises(Invalid) as caught:
+        add_person(session, login="ada", name="Another Ada")
+    assert caught.value.errors == {"login": "The login 'ada' is already taken."}
+
+
+def test_blank_name_is_refused(session):
+    with pytest.raises(Invalid) as caught:
+        add_person(session, login="x", name="   ")
+    assert "name" in caught.value.errors
+
+
+def test_roles_are_a_set(session, make_person):
+    person = make_person(roles=(Role.OPERATOR, Role.SAFETY_OFFICER))
+    assert person.has_role(Role.SAFETY_OFFICER) and not person.has_role(Role.ADMIN)
+    person.set_roles({Role.ADMIN})
+    session.commit()
+    assert person.role_set == {Role.ADMIN}
+
+
+GOOD = {"name": "XRD 1", "anode": "Cu", "max_kv": 60.0, "max_ma": 40.0, "max_power_w": 2200.0,
+        "check_interval_days": 30, "survey_interval_days": 365,
+        "surface_action_level_usv_h": 2.5, "housing_action_level_usv_h": 25.0}
+
+
+@pytest.mark.parametrize("field, value, message", [
+    ("max_kv", -5.0, "Maximum tube voltage must be greater than zero."),
+    ("max_kv", 0.0, "Maximum tube voltage must be greater than zero."),
+    ("max_ma", float("nan"), "Maximum tube current must be greater than zero."),
+    ("max_power_w", 0.0, "Maximum power must be greater than zero."),
+    ("name", "  ", "Enter the instrument's name."),
+    ("anode", "Xx", "Give the anode as an element symbol, e.g. Cu or Mo."),
+    ("check_interval_days", 0, "The interval must be at least one day."),
+])
+def test_instrument_rules(session, field, value, message):
+    with pytest.raises(Invalid) as caught:
+        check_instrument(session, {**GOOD, field: value})
+    assert caught.value.errors[field] == message
+
+
+def test_good_instrument_passes(session):
+    check_instrument(session, GOOD)

@@ -1,0 +1,33 @@
+"""Command-line jobs: people and the audit trail."""
+import sqlalchemy as sa
+
+from models.people import Role, find_person
+
+
+def test_people_add_creates_the_first_admin(app, session):
+    runner = app.test_cli_runner()
+    result = runner.invoke(args=["people", "add", "root", "--name", "First Admin", "--role", "admin",
+                                 "--role", "safety_officer", "--password-stdin"],
+                           input="a long enough password\n")
+    assert result.exit_code == 0, result.output
+    person = find_person(session, "root")
+    assert person.role_set == {Role.ADMIN, Role.SAFETY_OFFICER}
+
+
+def test_people_add_refuses_an_existing_login(app, make_person):
+    make_person("taken")
+    result = app.test_cli_runner().invoke(args=["people", "add", "taken", "--name", "X"])
+    assert result.exit_code != 0
+    assert "already taken" in result.output
+
+
+def test_audit_verify_reports_tampering(app, session, make_person):
+    make_person()
+    make_person()
+    runner = app.test_cli_runner()
+    assert runner.invoke(args=["audit", "verify"]).exit_code == 0
+    session.execute(sa.text("UPDATE audit_event SET entity_id = 999 WHERE id = 1"))
+    session.commit()
+    result = runner.invoke(args=["audit", "verify"])
+    assert result.exit_code == 1
+    assert "event 1" in result.output

@@ -1,0 +1,53 @@
+"""Configuration read from the environment."""
+from __future__ import annotations
+
+import os
+import secrets
+
+
+def _flag(name: str, default: bool = False) -> bool:
+    """Read a yes/no environment variable."""
+    value = os.environ.get(name)
+    if value is None:
+        return default
+    return value.strip().lower() in {"1", "true", "yes", "on"}
+
+
+def from_environment(instance_path: str) -> dict:
+    """Settings for the app, each overridable by an environment variable of the same name."""
+    database_url = os.environ.get("DATABASE_URL") or (
+        f"sqlite:///{os.path.join(instance_path, 'logbook.sqlite')}"
+    )
+    if database_url.startswith("postgresql://"):
+        # psycopg 3 is the driver; plain postgresql:// would ask for psycopg2.
+        database_url = "postgresql+psycopg://" + database_url.removeprefix("postgresql://")
+    return {
+        "SECRET_KEY": os.environ.get("SECRET_KEY") or _instance_secret(instance_path),
+        "SQLALCHEMY_DATABASE_URI": database_url,
+        "LAB_TIMEZONE": os.environ.get("LAB_TIMEZONE", "UTC"),
+        "MAIL_SERVER": os.environ.get("MAIL_SERVER", ""),
+        "MAIL_PORT": int(os.environ.get("MAIL_PORT", "25")),
+        "MAIL_USERNAME": os.environ.get("MAIL_USERNAME", ""),
+        "MAIL_PASSWORD": os.environ.get("MAIL_PASSWORD", ""),
+        "MAIL_USE_TLS": _flag("MAIL_USE_TLS"),
+        "MAIL_FROM": os.environ.get("MAIL_FROM", "logbook@localhost"),
+        "BASE_URL": os.environ.get("BASE_URL", "http://127.0.0.1:5000"),
+        "RATELIMIT_ENABLED": _flag("RATELIMIT_ENABLED", True),
+        "RATELIMIT_STORAGE_URI": os.environ.get("RATELIMIT_STORAGE_URI", "memory://"),
+        "SESSION_COOKIE_HTTPONLY": True,
+        "SESSION_COOKIE_SAMESITE": "Lax",
+        "SESSION_COOKIE_SECURE": _flag("SESSION_COOKIE_SECURE"),
+    }
+
+
+def _instance_secret(instance_path: str) -> str:
+    """A random key kept in instance/, so sessions survive restarts without configuration."""
+    path = os.path.join(instance_path, "secret_key")
+    if os.path.exists(path):
+        with open(path, encoding="ascii") as handle:
+            return handle.read().strip()
+    os.makedirs(instance_path, exist_ok=True)
+    key = secrets.token_hex(32)
+    with open(os.open(path, os.O_WRONLY | os.O_CREAT, 0o600), "w", encoding="ascii") as handle:
+        handle.write(key)
+    return key

@@ -1,0 +1,61 @@
+"""Conversions at the edge: UTC to the lab's time, mSv to the display unit."""
+from __future__ import annotations
+
+from datetime import date, datetime
+from zoneinfo import ZoneInfo
+
+from flask import Flask, g
+
+from models.settings import LabSettings, lab_settings
+from webapp.extensions import db
+
+MREM_PER_MSV = 100.0  # 1 rem = 0.01 Sv (10 CFR 20.1004), so 1 mSv = 100 mrem.
+
+CAUTION = (
+    "This logbook supports, and does not replace, your local rules, the law that applies to your "
+    "lab and your radiation safety officer. Its figures are only as good as the records entered "
+    "and are not the official dose record."
+)
+
+
+def settings() -> LabSettings:
+    """The lab settings, loaded once per request."""
+    if "lab_settings" not in g:
+        g.lab_settings = lab_settings(db.session)
+    return g.lab_settings
+
+
+def lab_zone() -> ZoneInfo:
+    """The lab's own time zone."""
+    return ZoneInfo(settings().timezone)
+
+
+def local(dt: datetime | None, fmt: str = "%Y-%m-%d %H:%M") -> str:
+    """A UTC datetime shown in the lab's time zone."""
+    if dt is None:
+        return ""
+    return dt.astimezone(lab_zone()).strftime(fmt)
+
+
+def lab_today() -> date:
+    """Today's date in the lab's time zone."""
+    return datetime.now(lab_zone()).date()
+
+
+def dose(value_msv: float | None, digits: int = 3) -> str:
+    """A dose in the lab's display unit."""
+    if value_msv is None:
+        return "—"
+    if settings().display_unit == "mrem":
+        return f"{value_msv * MREM_PER_MSV:.{max(digits - 2, 0)}f} mrem"
+    return f"{value_msv:.{digits}f} mSv"
+
+
+def install(app: Flask) -> None:
+    """Make the helpers available to every template."""
+    app.jinja_env.filters["local"] = local
+    app.jinja_env.filters["dose"] = dose
+
+    @app.context_processor
+    def _globals() -> dict:
+        return {"CAUTION": CAUTION, "lab_today": lab_today, "lab_zone_name": lambda: settings().timezone}

@@ -1,0 +1,39 @@
+"""Forms for people and accounts."""
+from __future__ import annotations
+
+from flask_wtf import FlaskForm
+from wtforms import EmailField, PasswordField, SelectField, StringField, TextAreaField
+from wtforms.validators import DataRequired, Email, EqualTo, Length, Optional
+
+from models.people import CATEGORY_LABELS, PERSON_CATEGORIES, ROLE_LABELS, Role
+from webapp.forms import CheckboxesField, choices
+from webapp.passwords import MIN_LENGTH
+
+
+class PersonForm(FlaskForm):
+    """Name, contact, roles and worker category."""
+
+    name = StringField("Name", validators=[DataRequired("Enter the person's name."), Length(max=200)])
+    email = EmailField("E-mail", validators=[Optional(), Email("Enter a valid e-mail address."),
+                                             Length(max=254)])
+    roles = CheckboxesField("Roles", choices=choices(Role, ROLE_LABELS),
+                            validators=[DataRequired("Give the person at least one role.")])
+    category = SelectField("Worker category", choices=[(c.value, CATEGORY_LABELS[c]) for c in PERSON_CATEGORIES],
+                           description="Decides which dose limits apply.")
+
+
+class NewPersonForm(PersonForm):
+    """A new person: also a login and a first password."""
+
+    login = StringField("Login", validators=[DataRequired("Enter a login."), Length(max=64)])
+    password = PasswordField("Password", validators=[
+        DataRequired("Enter a password."),
+        Length(min=MIN_LENGTH, message=f"Use at least {MIN_LENGTH} characters.")])
+    confirm = PasswordField("Repeat password", validators=[
+        EqualTo("password", "The two passwords differ.")])
+
+
+class DeactivateForm(FlaskForm):
+    """Why an account is switched off."""
+
+    reason = TextAreaField("Reason", validators=[DataRequired("Say why."), Length(max=500)])

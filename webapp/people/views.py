@@ -1,0 +1,80 @@
+"""The admin's pages for people: list, add, edit, deactivate."""
+from __future__ import annotations
+
+import sqlalchemy as sa
+from flask import abort, flash, redirect, render_template, url_for
+
+from models import audit
+from models.errors import Invalid
+from models.dose_codes import WorkerCategory
+from models.people import Person, Role, add_person, check_new_person, set_active, update_person
+from webapp.access import roles_required
+from webapp.extensions import db
+from webapp.forms import attach_errors, validate_with
+from webapp.passwords import hash_password
+from webapp.people import bp
+from webapp.people.forms import DeactivateForm, NewPersonForm, PersonForm
+
+
+@bp.route("/people/")
+@roles_required(Role.ADMIN)
+def index():
+    """Everyone with an account, active first."""
+    people = db.session.scalars(sa.select(Person).order_by(Person.active.desc(), Person.name)).all()
+    return render_template("people/index.html", people=people)
+
+
+@bp.route("/people/new", methods=["GET", "POST"])
+@roles_required(Role.ADMIN)
+def new():
+    """Add a person with a login and a first password."""
+    form = NewPersonForm()
+    if validate_with(form, lambda f: check_new_person(db.session, f.login.data, f.name.data)):
+        person = add_person(
+            db.session, login=form.login.data, name=form.name.data, email=form.email.data,
+            roles={Role(r) for r in form.roles.data}, category=WorkerCategory(form.category.data),
+            password_hash=hash_password(form.password.data))
+        db.session.commit()
+        flash(f"{person.name} can now log in as '{person.login}'.", "info")
+        return redirect(url_for("people.index"))
+    return render_template("people/edit.html", form=form, person=None)
+
+
+@bp.route("/people/<int:person_id>", methods=["GET", "POST"])
+@roles_required(Role.ADMIN)
+def edit(person_id: int):
+    """Change a person's name, e-mail, roles and worker category."""
+    person = db.session.get(Person, person_id) or abort(404)
+    form = PersonForm(obj=person)
+    if not form.is_submitted():
+        form.roles.data = [r.value for r in person.role_set]
+    if form.validate_on_submit():
+        try:
+            update_person(db.session, person, name=form.name.data, email=form.email.data,
+                          roles={Role(r) for r in form.roles.data},
+                          category=WorkerCategory(form.category.data))
+        except Invalid as error:
+            db.session.rollback()
+            attach_errors(form, error)
+        else:
+            db.session.commit()
+            flash("Saved.", "info")
+            return redirect(url_for("people.index"))
+    return render_template("people/edit.html", form=form, person=person,
+                           deactivate=DeactivateForm())
+
+
+@bp.route("/people/<int:person_id>/active", methods=["POST"])
+@roles_required(Role.ADMIN)
+def toggle_active(person_id: int):
+    """Deactivate an account (with a reason) or reactivate it; nobody is deleted."""
+    person = db.session.get(Person, person_id) or abort(404)
+    form = DeactivateForm()
+    if not form.validate_on_submit():
+        flash("Give a reason to change whether the account is active.", "error")
+        return redirect(url_for("people.edit", person_id=person.id))
+    with audit.reason(db.session, form.reason.data):
+        set_active(db.session, person, not person.active)
+    db.session.commit()
+    flash(f"{person.name} is now {'active' if person.active else 'deactivated'}.", "info")
+    return redirect(url_for("people.index"))

@@ -1,0 +1,31 @@
+"""Settings pages; other areas add their own sections."""
+from __future__ import annotations
+
+from flask import flash, redirect, render_template, url_for
+from flask_login import current_user
+
+from models.people import Role
+from webapp.access import roles_required
+from webapp.extensions import db
+from webapp.formatting import settings
+from webapp.settings import bp
+from webapp.settings.forms import LabForm
+from webapp.slots import settings_sections
+
+FIELDS = ("lab_name", "timezone", "display_unit", "due_soon_days", "safety_officer_email")
+
+
+@bp.route("/settings/", methods=["GET", "POST"])
+@roles_required(Role.SAFETY_OFFICER, Role.ADMIN)
+def index():
+    """The lab's name, time zone, display unit and alert address."""
+    lab = settings()
+    form = LabForm(obj=lab)
+    if form.validate_on_submit():
+        for name in FIELDS:
+            setattr(lab, name, form[name].data or (None if name == "safety_officer_email" else ""))
+        db.session.commit()
+        flash("Settings saved.", "info")
+        return redirect(url_for("settings.index"))
+    return render_template("settings/index.html", form=form,
+                           sections=settings_sections.render_for(current_user, lab))
