@@ -19,6 +19,15 @@ BLUEPRINTS = (
     "webapp.instruments",
     "webapp.audit",
     "webapp.settings",
+    "webapp.sessions",
+    "webapp.incidents",
+    "webapp.api",
+    "webapp.checks",
+    "webapp.surveys",
+    "webapp.due",
+    "webapp.doses",
+    "webapp.exposure",
+    "webapp.demo",
 )
 
 

@@ -58,4 +58,6 @@ def install(app: Flask) -> None:
 
     @app.context_processor
     def _globals() -> dict:
-        return {"CAUTION": CAUTION, "lab_today": lab_today, "lab_zone_name": lambda: settings().timezone}
+        from webapp.slots import navigation
+
+        return {"navigation": navigation, "CAUTION": CAUTION, "lab_today": lab_today, "lab_zone_name": lambda: settings().timezone}

@@ -107,3 +107,37 @@ instrument_sections = Slot()
 attention = AttentionSources()
 # Settings page: sections load with the lab settings row.
 settings_sections = Slot()
+
+
+@dataclass(frozen=True)
+class NavLink:
+    """A link in the top navigation, for people holding one of `roles` (everyone when empty)."""
+
+    label: str
+    endpoint: str
+    roles: frozenset[Role]
+    order: int
+
+
+@dataclass
+class Navigation:
+    """The top navigation, assembled from what each area registers."""
+
+    links: list[NavLink] = field(default_factory=list)
+
+    def add(self, label: str, endpoint: str, roles: set[Role] | None = None, order: int = 50):
+        """Register a link."""
+        self.links.append(NavLink(label, endpoint, frozenset(roles or ()), order))
+
+    def for_person(self, person: Person) -> list[NavLink]:
+        """The links a person sees, in order."""
+        return sorted((l for l in self.links if not l.roles or person.has_role(*l.roles)),
+                      key=lambda l: l.order)
+
+
+navigation = Navigation()
+navigation.add("Home", "home.index", order=0)
+navigation.add("Instruments", "instruments.index", order=10)
+navigation.add("People", "people.index", {Role.ADMIN}, order=80)
+navigation.add("Settings", "settings.index", {Role.SAFETY_OFFICER, Role.ADMIN}, order=90)
+navigation.add("Audit log", "audit.index", {Role.SAFETY_OFFICER, Role.ADMIN}, order=95)

@@ -1,0 +1,4 @@
+"""Safety-device checks, checklist templates and temporary controls."""
+from flask import Blueprint
+
+bp = Blueprint("checks", __name__, template_folder="templates", cli_group="checks")

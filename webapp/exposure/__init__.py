@@ -1,0 +1,4 @@
+"""Dose evaluation: limits, exposure pages, investigations."""
+from flask import Blueprint
+
+bp = Blueprint("exposure", __name__, template_folder="templates", cli_group="exposure")

@@ -1,0 +1,4 @@
+"""Survey meters, surveys, survey tasks and bypass permits."""
+from flask import Blueprint
+
+bp = Blueprint("surveys", __name__, template_folder="templates", cli_group="surveys")
