@@ -275,3 +275,41 @@ def page(browser):
     page = context.new_page()
     yield page
     context.close()
+
+
+# --- doses factories ---
+@pytest.fixture
+def make_dosimeter(app):
+    """Factory: a committed dosimeter issued to a person (whole body, monthly, unless told)."""
+    from models.dosimeters import issue_dosimeter
+    from models.dosimetry import DosimeterKind, ExchangeCycle
+
+    counter = iter(range(1, 100_000))
+
+    def make(wearer, *, serial: str | None = None, kind=DosimeterKind.WHOLE_BODY, hand=None,
+             issued_on: date = date(2025, 1, 1), exchange_cycle=ExchangeCycle.MONTHLY):
+        dosimeter = issue_dosimeter(db.session, serial=serial or f"D-{next(counter):05d}", kind=kind,
+                                    hand=hand, wearer_id=wearer.id, issued_on=issued_on,
+                                    exchange_cycle=exchange_cycle)
+        db.session.commit()
+        return dosimeter
+
+    return make
+
+
+@pytest.fixture
+def make_dose(app):
+    """Factory: a committed dose record (Hp(10) whole body, measured, in mSv, unless told)."""
+    from models.dose_codes import Location, Quantity, Result
+    from models.dose_ops import DoseEntry, add_dose_record
+
+    def make(person, *, wear_start: date = date(2025, 1, 1), wear_end: date = date(2025, 1, 31),
+             value: float | None = 0.1, **values):
+        entry = DoseEntry(**{"person_id": person.id, "wear_start": wear_start, "wear_end": wear_end,
+                             "quantity": Quantity.HP10, "location": Location.WHOLE_BODY,
+                             "result": Result.MEASURED, "value": value, **values})
+        record = add_dose_record(db.session, entry)
+        db.session.commit()
+        return record
+
+    return make
