@@ -213,9 +213,8 @@ def entry_of(record: DoseRecord) -> DoseEntry:
         source=record.source, basis=record.basis, dosimeter_id=record.dosimeter_id)
 
 
-def amend_dose_record(session: Session, record: DoseRecord, entry: DoseEntry, reason: str | None,
-                      *, created_by_id: int | None = None) -> DoseRecord:
-    """Correct a record by a new version that supersedes it; the record itself stays as it was."""
+def check_amendment(session: Session, record: DoseRecord, entry: DoseEntry, reason: str | None) -> None:
+    """Refuse a correction of a superseded version, one without a reason, or one that changes nothing."""
     newer = successor_of(session, record)
     if newer is not None:
         raise Invalid.one("reason", f"Version {record.version} was already corrected by version "
@@ -233,6 +232,12 @@ def amend_dose_record(session: Session, record: DoseRecord, entry: DoseEntry, re
         errors = {**error.errors, **errors}
     if errors:
         raise Invalid(errors)
+
+
+def amend_dose_record(session: Session, record: DoseRecord, entry: DoseEntry, reason: str | None,
+                      *, created_by_id: int | None = None) -> DoseRecord:
+    """Correct a record by a new version that supersedes it; the record itself stays as it was."""
+    check_amendment(session, record, entry, reason)
     version = record_from(entry, supersedes_id=record.id, version=record.version + 1,
                           reason=reason.strip(), created_by_id=created_by_id,
                           incident_id=record.incident_id)

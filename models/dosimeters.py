@@ -76,10 +76,9 @@ def last_overdue_period(dosimeter: Dosimeter, today: date,
     return start, end
 
 
-def issue_dosimeter(session: Session, *, serial: str, kind: DosimeterKind, hand: Hand | None,
-                    wearer_id: int | None, issued_on: date | None,
-                    exchange_cycle: ExchangeCycle) -> Dosimeter:
-    """Issue a dosimeter to a wearer; serials are unique and a ring names its hand."""
+def check_issue(session: Session, *, serial: str | None, kind: DosimeterKind, hand: Hand | None,
+                wearer_id: int | None, issued_on: date | None) -> None:
+    """Refuse a dosimeter without a serial, wearer or date, a serial on file, or a ring without a hand."""
     serial = (serial or "").strip()
     errors = {}
     if not serial:
@@ -97,7 +96,14 @@ def issue_dosimeter(session: Session, *, serial: str, kind: DosimeterKind, hand:
         errors["kind"] = "Say which hand the ring is worn on."
     if errors:
         raise Invalid(errors)
-    dosimeter = Dosimeter(serial=serial, kind=kind, hand=hand if kind is DosimeterKind.RING else None,
+
+
+def issue_dosimeter(session: Session, *, serial: str, kind: DosimeterKind, hand: Hand | None,
+                    wearer_id: int | None, issued_on: date | None,
+                    exchange_cycle: ExchangeCycle) -> Dosimeter:
+    """Issue a dosimeter to a wearer; serials are unique and a ring names its hand."""
+    check_issue(session, serial=serial, kind=kind, hand=hand, wearer_id=wearer_id, issued_on=issued_on)
+    dosimeter = Dosimeter(serial=serial.strip(), kind=kind, hand=hand if kind is DosimeterKind.RING else None,
                           wearer_id=wearer_id, issued_on=issued_on, exchange_cycle=exchange_cycle)
     session.add(dosimeter)
     session.flush()

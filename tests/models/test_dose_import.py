@@ -30,6 +30,7 @@ def thousand_rows(people: list[str]) -> list[str]:
 
 
 def count(session) -> int:
+    """Dose records on file."""
     return session.scalar(sa.select(sa.func.count()).select_from(DoseRecord))
 
 
