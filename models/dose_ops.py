@@ -249,6 +249,7 @@ def amend_dose_record(session: Session, record: DoseRecord, entry: DoseEntry, re
 def _same(a: DoseEntry, b: DoseEntry) -> bool:
     """True when two entries say the same thing (a blank basis equals none)."""
     def plain(e: DoseEntry) -> DoseEntry:
+        """The entry with the basis as it would be stored."""
         return replace(e, basis=(e.basis or "").strip() or None if e.source in ESTIMATES else None)
 
     a, b = plain(a), plain(b)

@@ -39,6 +39,7 @@ def issue():
         form.issued_on.data = lab_today()
 
     def check(f):
+        """The domain's checks on the submitted dosimeter."""
         kind, hand = worn_to_kind(f.worn.data)
         check_issue(db.session, serial=f.serial.data, kind=kind, hand=hand, wearer_id=f.wearer.data,
                     issued_on=f.issued_on.data)
