@@ -303,3 +303,13 @@ def test_operator_home_lists_their_dosimeters(session, make_person, make_dosimet
     ann = make_person("ann")
     make_dosimeter(ann, serial="MINE-1")
     assert "MINE-1" in login(ann).get("/").get_data(as_text=True)
+
+
+def test_admin_audit_log_hides_dosimeters(make_person, login, make_dosimeter):
+    admin = make_person("labadmin", roles=(Role.ADMIN,))
+    wearer = make_person("wearer")
+    from models.dosimetry import DosimeterKind
+
+    make_dosimeter(wearer, serial="ABD-77", kind=DosimeterKind.ABDOMEN)
+    page = login(admin).get("/audit/").data.decode()
+    assert "ABD-77" not in page and "dosimeter" not in page
