@@ -37,6 +37,7 @@ from models.instruments import (
     save_instrument,
     set_out_of_service,
 )
+from models.limit_sets import install_preset
 from models.people import Person, Role, add_person
 from models.permits import BypassPermit, PermitStatus
 from models.sessions import InstrumentSession
@@ -47,6 +48,8 @@ SEED = 20_261_201
 DEMO_PASSWORD = "demo-password-2026"
 LAB_NAME = "Materials Characterisation Lab, University of Ostrand (demo)"
 LAB_ZONE = "Europe/Berlin"
+# A lab in the EU works to the Euratom limits.
+LIMIT_PRESET = "euratom2013"
 YEARS_DAYS = 730
 BATCH = 1000
 
@@ -312,11 +315,12 @@ def load_demo_lab(session: Session, today: date, password_hash: str | None) -> D
 
 
 def _settings(lab: _Lab) -> None:
-    """Name, time zone and safety officer address of the lab."""
+    """Name, time zone, limit set and safety officer address of the lab."""
     settings = lab_settings(lab.session)
     settings.lab_name = LAB_NAME
     settings.timezone = LAB_ZONE
     settings.safety_officer_email = f"{SAFETY_OFFICER}@example.org"
+    settings.limit_set_id = install_preset(lab.session, LIMIT_PRESET).id
     lab.session.flush()
 
 

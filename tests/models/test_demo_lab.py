@@ -2,15 +2,28 @@
 from datetime import date, datetime, time, timedelta, timezone
 from zoneinfo import ZoneInfo
 
+import numpy as np
 import pytest
 import sqlalchemy as sa
 
 from models.checks import SafetyCheck
-from models.demo_lab import LAB_ZONE, is_empty, load_demo_lab
-from models.dose_codes import Location, Quantity, Result, WorkerCategory
+from models.demo_lab import HIGH_DOSE_PERSON, LAB_ZONE, LIMIT_PRESET, is_empty, load_demo_lab
+from models.dose_codes import (
+    Level,
+    Location,
+    PeriodKind,
+    Quantity,
+    Result,
+    Series,
+    WorkerCategory,
+    code,
+)
 from models.dosimetry import Dosimeter, DosimeterKind, DoseRecord, PregnancyDeclaration
 from models.due import OVERDUE, check_due, due_state
+from models.engine import DoseRecords, Policies, compute_doses, person_index
+from models.evaluation import evaluate
 from models.instruments import Authorisation, Enclosure, Instrument
+from models.limit_sets import as_rules
 from models.people import Person, Role
 from models.sessions import InstrumentSession
 from models.settings import lab_settings
@@ -52,6 +65,7 @@ def test_people_instruments_and_settings(session):
     assert all(due >= TODAY for due in refreshers)
     settings = lab_settings(session)
     assert settings.timezone == LAB_ZONE and settings.safety_officer_email
+    assert settings.limit_set.preset_key == LIMIT_PRESET and settings.limit_set.rules
     # Only the public visitor and the lab manager (who does no X-ray work) go without a dosimeter.
     wearers = set(session.scalars(sa.select(Dosimeter.wearer_id)))
     public = [p for p in people if p.category is WorkerCategory.PUBLIC]
@@ -125,3 +139,31 @@ def test_dose_story(session, today):
     assert any(r.location is Location.ABDOMEN and r.wear_start >= pregnancies[0].declared_on
                for r in records if r.person_id == pregnancies[0].person_id)
     assert 45 <= (today - pregnancies[0].declared_on).days <= 75
+
+
+def test_the_dose_engine_puts_only_the_high_person_at_a_level(session):
+    load(session)
+    people = session.scalars(sa.select(Person).order_by(Person.id)).all()
+    ids = [p.id for p in people]
+    superseded = set(session.scalars(sa.select(DoseRecord.supersedes_id).where(
+        DoseRecord.supersedes_id.is_not(None))))
+    current = [r for r in session.scalars(sa.select(DoseRecord)) if r.id not in superseded]
+    records = DoseRecords(
+        person=person_index([r.person_id for r in current], ids),
+        quantity=[r.quantity.value for r in current], location=[r.location.value for r in current],
+        wear_start=[r.wear_start for r in current], wear_end=[r.wear_end for r in current],
+        value=[np.nan if r.value_msv is None else r.value_msv for r in current],
+        result=[r.result.value for r in current],
+        mrd=[np.nan if r.mrd_msv is None else r.mrd_msv for r in current])
+    declared = {d.person_id: d.declared_on for d in session.scalars(sa.select(PregnancyDeclaration))}
+    starts = np.array([declared.get(i, "NaT") for i in ids], dtype="datetime64[D]")
+    totals = compute_doses(records, len(ids), TODAY, Policies(), starts,
+                           np.full(len(ids), "NaT", dtype="datetime64[D]"))
+    evaluation = evaluate(totals, as_rules(lab_settings(session).limit_set),
+                          [p.category.value for p in people])
+    worst = evaluation.level.reshape(len(ids), -1).max(axis=1)
+    flagged = [people[i].login for i in np.flatnonzero(worst > code(Level.BELOW_1))]
+    assert flagged == [HIGH_DOSE_PERSON]
+    quarter = ([p.login for p in people].index(HIGH_DOSE_PERSON), code(Series.EFFECTIVE),
+               code(PeriodKind.QUARTER))
+    assert evaluation.level[quarter] == code(Level.LEVEL_1)
