@@ -99,7 +99,7 @@ PEOPLE = (
                "Postdoc, open-beam alignment; above an investigation level this quarter",
                rings=True, authorisations={"open": I, "pxrd": I, "saxs": I}),
     DemoPerson("pramos", "Paula Ramos", frozenset({Role.OPERATOR}), WorkerCategory.ADULT_WORKER,
-               "PhD student, open-beam work; refresher training due this month",
+               "PhD student, open-beam work; refresher training due within the week",
                rings=True, authorisations={"open": I, "pxrd": I}),
     DemoPerson("iokafor", "Ines Okafor", frozenset({Role.OPERATOR}), WorkerCategory.ADULT_WORKER,
                "PhD student, single-crystal work; declared pregnancy",
@@ -118,6 +118,7 @@ SAFETY_OFFICER = "okessler"
 HIGH_DOSE_PERSON = "lbrandt"
 PREGNANT_PERSON = "iokafor"
 REFRESHER_SOON = ("pramos", "open")
+REFRESHER_SOON_DAYS = 5
 # Whose Hp(10) result of which month (months before this one) the dosimetry service corrected.
 CORRECTED = ("pramos", 8, 0.84, 0.14)
 # The person who runs most checks on each instrument, besides the safety officer.
@@ -354,8 +355,8 @@ def _authorisations(lab: _Lab) -> None:
     for p in PEOPLE:
         for key, level in p.authorisations.items():
             if (p.login, key) == REFRESHER_SOON:
-                # Due in 12 days, so the month's training reminder has something to show.
-                trained = add_months(lab.today + timedelta(days=12), -12)
+                # Due in 5 days: inside the lab's week of warning, so it shows as due soon.
+                trained = add_months(lab.today + timedelta(days=REFRESHER_SOON_DAYS), -12)
             elif p.joined_days_ago < 365:
                 trained = lab.joined(p)
             else:

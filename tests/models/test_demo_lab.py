@@ -1,5 +1,5 @@
 """The demo lab: what it holds and that its records hang together."""
-from datetime import date, datetime, time, timedelta, timezone
+from datetime import date, datetime, time, timezone
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -19,7 +19,7 @@ from models.dose_codes import (
     code,
 )
 from models.dosimetry import Dosimeter, DosimeterKind, DoseRecord, PregnancyDeclaration
-from models.due import OVERDUE, check_due, due_state
+from models.due import DUE_SOON, OVERDUE, check_due, due_state
 from models.engine import DoseRecords, Policies, compute_doses, person_index
 from models.evaluation import evaluate
 from models.instruments import Authorisation, Enclosure, Instrument
@@ -61,7 +61,7 @@ def test_people_instruments_and_settings(session):
         p.category for p in people}
     assert all(p.email.endswith("@example.org") for p in people)
     refreshers = session.scalars(sa.select(Authorisation.refresher_due)).all()
-    assert sum(TODAY <= due <= TODAY + timedelta(days=31) for due in refreshers) == 1
+    assert sum(due_state(due, TODAY) == DUE_SOON for due in refreshers) == 1
     assert all(due >= TODAY for due in refreshers)
     settings = lab_settings(session)
     assert settings.timezone == LAB_ZONE and settings.safety_officer_email
