@@ -275,3 +275,38 @@ def page(browser):
     page = context.new_page()
     yield page
     context.close()
+
+
+# --- logbook factories ---
+@pytest.fixture
+def make_session_entry(app):
+    """Factory: a committed session written straight to the table (no rules applied)."""
+    from datetime import datetime, timezone
+
+    from models.sessions import InstrumentSession
+
+    def make(instrument, operator, *, started_at: datetime | None = None,
+             ended_at: datetime | None = None, kv: float = 40.0, ma: float = 40.0,
+             beam_on_minutes: float | None = None):
+        started_at = started_at or datetime.now(timezone.utc) - timedelta(hours=1)
+        entry = InstrumentSession(instrument_id=instrument.id, operator_id=operator.id,
+                                  started_at=started_at, ended_at=ended_at, kv=kv, ma=ma,
+                                  beam_on_minutes=beam_on_minutes, pre_use_checks_confirmed=True)
+        db.session.add(entry)
+        db.session.commit()
+        return entry
+
+    return make
+
+
+@pytest.fixture
+def api_token(app):
+    """Factory: a live API token (the secret) for an instrument."""
+    from models.api_tokens import create_token
+
+    def make(instrument):
+        _row, token = create_token(db.session, instrument)
+        db.session.commit()
+        return token
+
+    return make
