@@ -45,11 +45,15 @@ def _token_key() -> str:
 limiter.limit("120 per minute", key_func=_token_key)(v1)
 
 
-@v1.errorhandler(HTTPException)
 def _http_problem(error: HTTPException):
     """Every HTTP error of the API as a problem document."""
     headers = {"WWW-Authenticate": "Bearer"} if error.code == 401 else None
     return problem(error.code or 500, error.name, error.description or error.name, headers=headers)
+
+
+# By code, because the app's own handlers by code would otherwise win and answer in HTML.
+for _code in (400, 401, 403, 404, 405, 413, 415, 429):
+    v1.register_error_handler(_code, _http_problem)
 
 
 @v1.errorhandler(Invalid)
