@@ -310,3 +310,27 @@ def api_token(app):
         return token
 
     return make
+
+
+@pytest.fixture
+def login_as(app):
+    """Log in a fresh client per person; several people can act in one test.
+
+    Test requests share the test's app context, so flask-login's user cached in `g` would
+    otherwise carry over from one client to the next.
+    """
+    from flask import g
+    from flask.testing import FlaskClient
+
+    class PersonClient(FlaskClient):
+        def open(self, *args, **kwargs):
+            g.pop("_login_user", None)
+            return super().open(*args, **kwargs)
+
+    def log_in(person):
+        client = PersonClient(app, app.response_class, use_cookies=True)
+        response = client.post("/login", data={"login": person.login, "password": PASSWORD})
+        assert response.status_code == 302, "login failed"
+        return client
+
+    return log_in
