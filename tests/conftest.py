@@ -176,10 +176,22 @@ def authorise(app):
 
 
 @pytest.fixture
-def login(client):
-    """Log the test client in as a person."""
+def login(app):
+    """Log a fresh client in as a person; several people can act in one test.
+
+    Test requests share the test's app context, so the login manager's user cached in `g` would
+    otherwise carry over from one client to the next.
+    """
+    from flask import g
+    from flask.testing import FlaskClient
+
+    class PersonClient(FlaskClient):
+        def open(self, *args, **kwargs):
+            g.pop("_login_user", None)
+            return super().open(*args, **kwargs)
 
     def log_in(person):
+        client = PersonClient(app, app.response_class, use_cookies=True)
         response = client.post("/login", data={"login": person.login, "password": PASSWORD})
         assert response.status_code == 302, "login failed"
         return client
@@ -311,5 +323,40 @@ def make_dose(app):
         record = add_dose_record(db.session, entry)
         db.session.commit()
         return record
+
+    return make
+
+
+# --- logbook factories ---
+@pytest.fixture
+def make_session_entry(app):
+    """Factory: a committed session written straight to the table (no rules applied)."""
+    from datetime import datetime, timezone
+
+    from models.sessions import InstrumentSession
+
+    def make(instrument, operator, *, started_at: datetime | None = None,
+             ended_at: datetime | None = None, kv: float = 40.0, ma: float = 40.0,
+             beam_on_minutes: float | None = None):
+        started_at = started_at or datetime.now(timezone.utc) - timedelta(hours=1)
+        entry = InstrumentSession(instrument_id=instrument.id, operator_id=operator.id,
+                                  started_at=started_at, ended_at=ended_at, kv=kv, ma=ma,
+                                  beam_on_minutes=beam_on_minutes, pre_use_checks_confirmed=True)
+        db.session.add(entry)
+        db.session.commit()
+        return entry
+
+    return make
+
+
+@pytest.fixture
+def api_token(app):
+    """Factory: a live API token (the secret) for an instrument."""
+    from models.api_tokens import create_token
+
+    def make(instrument):
+        _row, token = create_token(db.session, instrument)
+        db.session.commit()
+        return token
 
     return make
