@@ -62,7 +62,7 @@ def index():
 @home_panels.add("due/_panel.html", roles={Role.OPERATOR}, order=20)
 def _panel(person) -> dict:
     """The operator's own tasks that are due soon or late."""
-    return {"items": pending(person_items(db.session, person, utcnow())),
+    return {"tasks": pending(person_items(db.session, person, utcnow())),
             "soon_days": settings().due_soon_days}
 
 
