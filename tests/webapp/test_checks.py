@@ -154,3 +154,15 @@ def test_the_safety_officer_edits_the_checklist(session, lab, login, record_a_ch
     assert "deactivate it instead" in response.text
     client.post("/logout")
     assert login(operator).get(f"/instruments/{instrument.id}/checklist").status_code == 403
+
+
+def test_forged_values_are_refused_without_an_error_page(session, lab, login):
+    rso, operator, instrument = lab
+    data = form_data(session, instrument)
+    first = next(k for k in data if k.startswith("result_"))
+    data[first] = "maybe"
+    data["meter_id"] = "x1"
+    response = login(operator).post(f"/instruments/{instrument.id}/checks/new", data=data)
+    assert response.status_code == 200
+    assert "Choose pass, fail or not applicable for this item." in response.text
+    assert session.query(SafetyCheck).count() == 0

@@ -36,9 +36,14 @@ class CheckForm(FlaskForm):
         answers = {}
         for item in items:
             result, comment = self.item_fields(item)
-            answers[item.id] = Answer(ItemResult(result.data) if result.data else None,
-                                      comment.data or "")
+            known = result.data in {r.value for r in ItemResult}
+            answers[item.id] = Answer(ItemResult(result.data) if known else None, comment.data or "")
         return answers
+
+    def meter_pk(self) -> int | None:
+        """The chosen meter's id, or None (also for a value not offered)."""
+        data = self.meter_id.data or NO_METER
+        return int(data) if data.isdigit() else None
 
     def performed_at_utc(self) -> datetime | None:
         """The entered time as UTC."""

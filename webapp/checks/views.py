@@ -84,7 +84,7 @@ def new(instrument_id: int):
     form = check_form(items, _meters())
 
     def meter():
-        return db.session.get(SurveyMeter, int(form.meter_id.data)) if form.meter_id.data else None
+        return db.session.get(SurveyMeter, form.meter_pk()) if form.meter_pk() else None
 
     def check(f):
         check_check(db.session, instrument, f.performed_at_utc(), f.answers(items), meter(), now)

@@ -8,7 +8,7 @@ from werkzeug.routing import BuildError
 from models import due
 from models.base import utcnow
 from models.calendar_feed import build_calendar, person_for_token, renew_token, stop_feed
-from models.due_list import CALIBRATION, CHECK, DOSIMETER, PERMIT, REFRESHER, SURVEY, DueItem
+from models.due_list import CHECK, DOSIMETER, REFRESHER, SURVEY, DueItem
 from models.due_list import calendar_items, lab_items, pending, person_items
 from models.people import Role
 from webapp.due import bp
@@ -19,12 +19,14 @@ from webapp.slots import Attention, Severity, attention, home_panels, navigation
 STATE_CLASS = {due.OVERDUE: "state-bad", due.NEVER_DONE: "state-bad", due.DUE_SOON: "state-warn",
                due.OK: "state-good"}
 
-# Where to act on items that have no instrument; areas that own these pages may not exist yet.
-OTHER_TARGETS = {"meter": ("surveys.meter", "meter_id"), "dosimeter": ("doses.dosimeter", "dosimeter_id")}
+# Where to act on items that are not about an instrument as a whole; the owning areas' pages,
+# with the instrument page or the due list as the fallback while an area is not merged yet.
+OTHER_TARGETS = {"meter": ("surveys.meter", "meter_id"), "permit": ("surveys.permit", "permit_id"),
+                 "dosimeter": ("doses.dosimeter", "dosimeter_id")}
 
-# Which attention line a late item makes; training shows as soon as it is due soon.
+# Which attention line a late item makes; training shows as soon as it is due soon. Meter
+# calibrations and bypass permits are left out: the surveys area reports those itself.
 LATE_SEVERITY = {CHECK: Severity.OVERDUE, SURVEY: Severity.OVERDUE,
-                 CALIBRATION: Severity.METER_CALIBRATION, PERMIT: Severity.BYPASS,
                  DOSIMETER: Severity.DOSIMETER_NOT_RETURNED, REFRESHER: Severity.TRAINING}
 
 navigation.add("What is due", "due.index", {Role.OPERATOR, Role.SAFETY_OFFICER}, order=30)
@@ -32,13 +34,15 @@ navigation.add("What is due", "due.index", {Role.OPERATOR, Role.SAFETY_OFFICER},
 
 def target_url(item: DueItem, external: bool = False) -> str:
     """The page where the item is acted on."""
+    if item.target_kind in OTHER_TARGETS:
+        endpoint, arg = OTHER_TARGETS[item.target_kind]
+        try:
+            return url_for(endpoint, **{arg: item.target_id}, _external=external)
+        except BuildError:
+            pass
     if item.instrument_id is not None:
         return url_for("instruments.show", instrument_id=item.instrument_id, _external=external)
-    endpoint, arg = OTHER_TARGETS[item.target_kind]
-    try:
-        return url_for(endpoint, **{arg: item.target_id}, _external=external)
-    except BuildError:
-        return url_for("due.index", _external=external)
+    return url_for("due.index", _external=external)
 
 
 @bp.app_context_processor
@@ -80,6 +84,8 @@ def _attention() -> list[Attention]:
     """Late or never-done tasks across the lab, and training running out soon."""
     lines = []
     for item in lab_items(db.session, utcnow()):
+        if item.kind not in LATE_SEVERITY:
+            continue
         late = item.state in (due.OVERDUE, due.NEVER_DONE)
         if late or (item.kind == REFRESHER and item.state == due.DUE_SOON):
             when = (f"{item.days_late} day{'s' if item.days_late != 1 else ''} late"
