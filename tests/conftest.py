@@ -360,3 +360,24 @@ def api_token(app):
         return token
 
     return make
+
+
+# --- checks factories ---
+@pytest.fixture
+def record_a_check(app):
+    """Factory: a committed safety-device check; the named item positions fail, the rest pass."""
+    from models.base import utcnow
+    from models.check_ops import Answer, record_check
+    from models.checklists import active_items, checklist_for
+    from models.checks import ItemResult
+
+    def make(instrument, person, *, fail: tuple[int, ...] = (), performed_at=None):
+        items = active_items(checklist_for(db.session, instrument))
+        answers = {item.id: Answer(ItemResult.FAIL, "Does not work.") if n in fail
+                   else Answer(ItemResult.PASS) for n, item in enumerate(items)}
+        check = record_check(db.session, instrument, person, performed_at or utcnow(), answers,
+                             None, None, utcnow())
+        db.session.commit()
+        return check
+
+    return make
