@@ -93,7 +93,8 @@ class PointForm(Form):
 
     location = StringField("Where", validators=[Optional(), Length(max=200)])
     level = SelectField("Held to", choices=[(PointLevel.SURFACE.value, "Outer surface"),
-                                            (PointLevel.HOUSING.value, "Tube housing, shutters closed")])
+                                            (PointLevel.HOUSING.value, "Tube housing, shutters closed")],
+                        default=PointLevel.SURFACE.value)
     distance_cm = FloatField("Distance (cm)", default=REFERENCE_DISTANCE_CM,
                              validators=[Optional()])
     reading = FloatField("Reading", validators=[Optional()])
