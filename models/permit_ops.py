@@ -58,7 +58,7 @@ def check_request(values: PermitRequest, now: datetime) -> None:
     elif values.window_end <= now:
         errors["window_end"] = "The window has already ended; ask for a window to come."
     if not values.ring_dosimetry_confirmed:
-        errors["ring_dosimetry_confirmed"] = RING_RULE + " Confirm they will be worn."
+        errors["ring_dosimetry_confirmed"] = "Confirm that ring dosimeters will be worn (Ariz. R9-7-806(F))."
     if errors:
         raise Invalid(errors)
 

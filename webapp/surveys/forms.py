@@ -33,10 +33,20 @@ POINT_ROWS = 8
 LOCAL_TIME = "%Y-%m-%dT%H:%M"
 
 
-def local_time_field(label: str, **kwargs) -> DateTimeLocalField:
+class LocalTimeField(DateTimeLocalField):
+    """A date and time typed in the lab's time zone; left empty it is missing, not malformed."""
+
+    def process_formdata(self, valuelist):
+        """Read the input; an empty one gives no value, so the field's own message applies."""
+        if valuelist and not valuelist[0].strip():
+            self.data = None
+            return
+        super().process_formdata(valuelist)
+
+
+def local_time_field(label: str, **kwargs) -> LocalTimeField:
     """A date and time typed in the lab's time zone."""
-    return DateTimeLocalField(label, format=LOCAL_TIME, tz=lab_zone,
-                              description="Lab time.", **kwargs)
+    return LocalTimeField(label, format=LOCAL_TIME, tz=lab_zone, description="Lab time.", **kwargs)
 
 
 def utc(field: DateTimeLocalField):
@@ -112,12 +122,6 @@ class PointForm(Form):
                           distance_cm=self.distance_cm.data, level=PointLevel(self.level.data))
 
 
-def unit_help() -> str:
-    """Each unit of entry with its factor to µSv/h and the factor's source."""
-    return " ".join(f"{u.label}: × {u.usv_h_per_unit:g} → µSv/h ({u.source})."
-                    for u in RATE_UNITS.values())
-
-
 class SurveyForm(FlaskForm):
     """A survey of one instrument with its points."""
 
@@ -129,7 +133,7 @@ class SurveyForm(FlaskForm):
     meter_id = SelectField("Survey meter", coerce=int, validate_choice=False,
                            description="Must be within its calibration on the survey date.")
     unit = SelectField("Unit of the readings", choices=[(u.code, u.label) for u in RATE_UNITS.values()],
-                       description=unit_help())
+                       description="Readings and backgrounds are converted to µSv/h:")
     points = FieldList(FormField(PointForm), min_entries=POINT_ROWS, max_entries=50)
     notes = TextAreaField("Notes", validators=[Length(max=2000)])
 

@@ -58,9 +58,8 @@ def new_survey():
     form = SurveyForm()
     today = lab_today()
     form.instrument_id.choices = [(i.id, i.name) for i in instruments_for(db.session, current_user, today)]
-    soon = settings().due_soon_days
     form.meter_id.choices = [(0, "Choose a meter")] + [
-        (m.id, f"{m.serial} {m.model} (calibration runs out {calibration_on(m, today, soon).due})")
+        (m.id, _meter_label(m, calibration_on(m, today, settings().due_soon_days)))
         for m in active_meters(db.session)]
     if not form.is_submitted():
         form.instrument_id.data = request.args.get("instrument_id", type=int)
@@ -76,7 +75,15 @@ def new_survey():
                                 f"{current_user.name}.\n{url_for('surveys.survey', survey_id=survey.id, _external=True)}")
             flash(f"Survey failed: {survey.instrument.name} is now out of service.", "error")
         return redirect(url_for("surveys.survey", survey_id=survey.id))
-    return render_template("surveys/survey_new.html", form=form, level_sources=LEVEL_SOURCES)
+    return render_template("surveys/survey_new.html", form=form, level_sources=LEVEL_SOURCES,
+                           units=RATE_UNITS)
+
+
+def _meter_label(meter: SurveyMeter, calibration) -> str:
+    """A meter in the choice list, saying whether it may be used today."""
+    if not calibration.valid:
+        return f"{meter.serial} {meter.model} (out of calibration since {calibration.due})"
+    return f"{meter.serial} {meter.model} (calibrated until the day before {calibration.due})"
 
 
 def _values(form: SurveyForm) -> SurveyInput:
