@@ -1,4 +1,5 @@
 """Survey meters, surveys and bypass permits through the browser's forms."""
+import json
 import re
 from datetime import UTC, date, datetime, timedelta
 
@@ -234,3 +235,17 @@ def test_meter_out_of_calibration_is_on_the_attention_list(rso, login, make_mete
     make_meter(serial="OLD-1", calibrated_on=date(2020, 1, 1))
     page = login(rso).get("/").data.decode()
     assert "meter out of calibration" in page and "OLD-1" in page
+
+
+def test_status_command_lists_what_needs_doing(app, rso, operator, session, make_instrument, make_meter):
+    runner = app.test_cli_runner()
+    assert "Nothing needs doing." in runner.invoke(args=["surveys", "status"]).output
+    make_meter(serial="OLD-2", calibrated_on=date(2020, 1, 1))
+    now = datetime.now(UTC)
+    _approved_permit(session, make_instrument(name="XRF"), operator, rso,
+                     now - timedelta(hours=5), now - timedelta(hours=1))
+    result = runner.invoke(args=["surveys", "status", "--json"])
+    assert result.exit_code == 0, result.output
+    data = json.loads(result.output)
+    assert data["meters"][0]["serial"] == "OLD-2" and data["meters"][0]["usable"] is False
+    assert data["permits"][0]["state"] == "not_closed" and data["permits"][0]["instrument"] == "XRF"

@@ -3,4 +3,4 @@ from flask import Blueprint
 
 bp = Blueprint("surveys", __name__, template_folder="templates", cli_group="surveys")
 
-from webapp.surveys import meter_views, panels, permit_views, survey_views  # noqa: E402,F401
+from webapp.surveys import cli, meter_views, panels, permit_views, survey_views  # noqa: E402,F401
