@@ -11,7 +11,6 @@ from models.people import Role
 from models.permit_ops import PermitRequest, decide, request_permit
 from models.permits import BypassPermit, PermitStatus
 from models.surveys import Survey, SurveyMeter, SurveyTask
-from webapp.extensions import db
 
 
 @pytest.fixture

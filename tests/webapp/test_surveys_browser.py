@@ -5,7 +5,8 @@ import pytest
 
 from models.instruments import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind, save_instrument
 from models.people import Role, add_person
-from tests.conftest import PASSWORD, PASSWORD_HASH
+from tests.conftest import PASSWORD_HASH
+from tests.webapp.test_browser import _log_in
 from webapp.extensions import db
 
 pytestmark = pytest.mark.browser
@@ -29,14 +30,6 @@ def served(live_server):
                                      refresher_due=date.today() + timedelta(days=365)))
         db.session.commit()
     return url
-
-
-def _log_in(page, url, login):
-    page.goto(f"{url}/login")
-    page.fill("input[name=login]", login)
-    page.fill("input[name=password]", PASSWORD)
-    page.click("button[type=submit]")
-    page.wait_for_url(f"{url}/")
 
 
 def test_bypass_request_approval_banner_and_close(browser, served):

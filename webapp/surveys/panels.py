@@ -1,13 +1,13 @@
 """What this area adds to shared pages: navigation, attention lines, instrument sections, banner."""
 from __future__ import annotations
 
-from flask import g, url_for
+from flask import g, has_request_context, url_for
 from flask_login import current_user
 
 from models.base import utcnow
 from models.instruments import Instrument
-from models.meter_ops import active_meters, calibration_on
 from models.due import DUE_SOON, OVERDUE
+from models.meter_ops import active_meters, calibration_on
 from models.people import Role
 from models.permit_ops import (
     active_permits,
@@ -37,7 +37,7 @@ def _bypass_banner() -> dict:
 
 def current_bypasses() -> list[BypassPermit]:
     """Permits in force now, looked up once per request; none shown before login."""
-    if not current_user.is_authenticated:
+    if not has_request_context() or not current_user.is_authenticated:
         return []
     if "active_bypasses" not in g:
         g.active_bypasses = active_permits(db.session)

@@ -49,7 +49,7 @@ def permit(permit_id: int):
 
 def _show(permit: BypassPermit, form: DecisionForm):
     """The permit page with the decision form as submitted."""
-    return render_template("surveys/permit.html", permit=permit, form=form, now=utcnow(),
+    return render_template("surveys/permit.html", permit=permit, form=form,
                            state=display_state(permit, utcnow()), may_close=may_close,
                            sign_rule=SIGN_RULE, ring_rule=RING_RULE)
 
