@@ -42,7 +42,7 @@ from models.people import Person, Role, add_person
 from models.permits import BypassPermit, PermitStatus
 from models.sessions import InstrumentSession
 from models.settings import lab_settings
-from models.surveys import Survey, SurveyMeter, SurveyPoint, SurveyTask, SurveyTrigger
+from models.surveys import PointLevel, Survey, SurveyMeter, SurveyPoint, SurveyTask, SurveyTrigger
 
 SEED = 20_261_201
 DEMO_PASSWORD = "demo-password-2026"
@@ -461,6 +461,7 @@ def _survey(lab: _Lab, key: str, day: date, meter: SurveyMeter, trigger: SurveyT
     enclosed = instrument.enclosure is Enclosure.ENCLOSED
     level = (instrument.surface_action_level_usv_h if enclosed
              else instrument.housing_action_level_usv_h)
+    point_level = PointLevel.SURFACE if enclosed else PointLevel.HOUSING
     kv, ma = max(d.settings)
     points = []
     for where in ENCLOSED_POINTS if enclosed else OPEN_BEAM_POINTS:
@@ -468,7 +469,8 @@ def _survey(lab: _Lab, key: str, day: date, meter: SurveyMeter, trigger: SurveyT
         reading = round(background + float(lab.rng.uniform(0.0, 0.3 if enclosed else 1.5)), 2)
         net = round(max(reading - background, 0.0) * meter.correction_factor, 3)
         points.append(SurveyPoint(location=where, distance_cm=5.0, reading_usv_h=reading,
-                                  background_usv_h=background, net_usv_h=net))
+                                  background_usv_h=background, net_usv_h=net,
+                                  level=point_level, action_level_usv_h=level))
     survey = Survey(instrument_id=instrument.id, performed_at=lab.at(day, 15), trigger=trigger,
                     performed_by_id=by.id, kv=kv, ma=ma, meter_id=meter.id,
                     action_level_usv_h=level, max_net_usv_h=max(p.net_usv_h for p in points),

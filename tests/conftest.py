@@ -381,3 +381,26 @@ def record_a_check(app):
         return check
 
     return make
+
+
+# --- surveys factories ---
+
+
+@pytest.fixture
+def make_meter(app):
+    """Factory: a committed survey meter, calibrated 30 days ago unless told otherwise."""
+    from models.meter_ops import save_meter
+
+    counter = iter(range(1, 10_000))
+
+    def make(**values):
+        n = next(counter)
+        defaults = {"serial": f"SM-{n}", "model": "Thin-window GM", "detector_type": "Geiger-Müller",
+                    "calibrated_on": date.today() - timedelta(days=30),
+                    "calibration_interval_months": 12, "correction_factor": 1.0,
+                    "energy_response_notes": None}
+        meter = save_meter(db.session, {**defaults, **values}, date.today())
+        db.session.commit()
+        return meter
+
+    return make
