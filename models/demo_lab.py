@@ -102,7 +102,7 @@ PEOPLE = (
                "PhD student, open-beam work; refresher training due within the week",
                rings=True, authorisations={"open": I, "pxrd": I}),
     DemoPerson("iokafor", "Ines Okafor", frozenset({Role.OPERATOR}), WorkerCategory.ADULT_WORKER,
-               "PhD student, single-crystal work; declared pregnancy",
+               "PhD student, single-crystal work",
                authorisations={"scxrd": I, "pxrd": I}),
     DemoPerson("ydemir", "Yusuf Demir", frozenset({Role.OPERATOR}), WorkerCategory.ADULT_WORKER,
                "Technician, XRF and powder", authorisations={"xrf": I, "pxrd": I}),

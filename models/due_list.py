@@ -15,7 +15,8 @@ from sqlalchemy.orm import Session
 
 from models import due
 from models.checks import SafetyCheck
-from models.dosimetry import Dosimeter, ExchangeCycle
+from models.dosimeters import wear_period
+from models.dosimetry import Dosimeter
 from models.instruments import Authorisation, Instrument
 from models.people import Person, Role
 from models.permits import BypassPermit, PermitStatus
@@ -47,7 +48,6 @@ STATE_LABELS = {
 
 PENDING_STATES = frozenset({due.DUE_SOON, due.OVERDUE, due.NEVER_DONE})
 
-EXCHANGE_MONTHS = {ExchangeCycle.MONTHLY: 1, ExchangeCycle.QUARTERLY: 3}
 
 
 @dataclass(frozen=True)
@@ -143,11 +143,13 @@ def permit_item(permit_id: int, requester_id: int, instrument_id: int, instrumen
     return item
 
 
-def dosimeter_item(dosimeter_id: int, wearer_id: int, serial: str, issued_on: date,
-                   cycle: ExchangeCycle, today: date, soon_days: int) -> DueItem:
-    """The exchange of a dosimeter still being worn."""
-    return _dated(DOSIMETER, due.add_months(issued_on, EXCHANGE_MONTHS[cycle]), today, soon_days,
-                  False, subject=f"Dosimeter {serial}", target_kind="dosimeter",
+def dosimeter_item(dosimeter_id: int, wearer_id: int, serial: str, exchange_on: date,
+                   today: date, soon_days: int) -> DueItem:
+    """The exchange of a dosimeter still being worn, at the end of its current wear period.
+
+    A result that never came back is the dosimetry area's 'not returned' line, not a late exchange.
+    """
+    return _dated(DOSIMETER, exchange_on, today, soon_days, False, subject=f"Dosimeter {serial}", target_kind="dosimeter",
                   target_id=dosimeter_id, source_id=dosimeter_id, person_id=wearer_id)
 
 
@@ -245,8 +247,8 @@ def dosimeter_items(session: Session, person: Person | None, h: Horizon) -> list
                                                               Person.active.is_(True))
     if person is not None:
         query = query.where(Dosimeter.wearer_id == person.id)
-    return [dosimeter_item(d.id, d.wearer_id, d.serial, d.issued_on, d.exchange_cycle, h.today,
-                           h.soon_days)
+    return [dosimeter_item(d.id, d.wearer_id, d.serial, wear_period(d, max(h.today, d.issued_on))[1],
+                           h.today, h.soon_days)
             for d in session.scalars(query)]
 
 

@@ -5,6 +5,7 @@ import pytest
 
 from models import due
 from models.base import utcnow
+from models.dosimeters import wear_period
 from models.dosimetry import Dosimeter, DosimeterKind, ExchangeCycle
 from models.due_list import (
     CHECK,
@@ -85,16 +86,19 @@ def test_calibration_item(calibrated, months, today, last_valid, state):
 
 
 @pytest.mark.parametrize(
-    ("issued", "cycle", "due_on"),
+    ("issued", "cycle", "today", "due_on"),
     [
-        ("2024-01-31", ExchangeCycle.MONTHLY, "2024-02-29"),
-        ("2025-01-31", ExchangeCycle.MONTHLY, "2025-02-28"),
-        ("2024-11-30", ExchangeCycle.QUARTERLY, "2025-02-28"),
-        ("2023-11-29", ExchangeCycle.QUARTERLY, "2024-02-29"),
+        ("2022-01-31", ExchangeCycle.MONTHLY, "2024-02-10", "2024-02-29"),  # leap year
+        ("2022-01-31", ExchangeCycle.MONTHLY, "2025-02-28", "2025-02-28"),  # due today
+        ("2024-11-30", ExchangeCycle.QUARTERLY, "2024-11-30", "2024-12-31"),
+        ("2023-11-29", ExchangeCycle.QUARTERLY, "2024-02-29", "2024-03-31"),
     ],
 )
-def test_dosimeter_item(issued, cycle, due_on):
-    assert dosimeter_item(1, 2, "D-1", D(issued), cycle, D("2024-01-01"), 7).due == D(due_on)
+def test_dosimeter_exchange_is_the_end_of_the_current_wear_period(issued, cycle, today, due_on):
+    dosimeter = Dosimeter(id=1, wearer_id=2, serial="D-1", issued_on=D(issued), exchange_cycle=cycle)
+    exchange_on = wear_period(dosimeter, D(today))[1]
+    item = dosimeter_item(1, 2, "D-1", exchange_on, D(today), 7)
+    assert item.due == D(due_on) and item.days_late == 0
 
 
 def test_refresher_item_is_late_the_day_after():

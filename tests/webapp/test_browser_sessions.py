@@ -54,7 +54,7 @@ def test_operator_starts_and_ends_a_session(page, served):
     page.wait_for_url(f"{url}/")
     _shot(page, "home_before")
 
-    page.click("text=Start on Cu powder diffractometer")  # click 1
+    page.get_by_role("link", name="Start a session on Cu powder diffractometer").click()  # click 1
     page.fill("input[name=kv]", "40")
     page.fill("input[name=ma]", "40")
     page.fill("input[name=purpose]", "Si standard")
