@@ -22,8 +22,8 @@ from sqlalchemy.orm import Session
 
 from models.checklists import active_items, checklist_for
 from models.checks import CheckItemResult, ItemResult, SafetyCheck, TemporaryControl
-from models.due import calibration_valid_on
 from models.errors import Invalid
+from models.meter_ops import check_meter_usable
 from models.instruments import Instrument, current_authorisations, return_to_service, set_out_of_service
 from models.people import Person, Role
 from models.settings import lab_date
@@ -77,13 +77,10 @@ def check_check(
         elif answer.result == ItemResult.FAIL and not answer.comment.strip():
             errors[f"comment_{item.id}"] = "Say what failed: a fail needs a comment."
     if meter is not None and performed_at is not None:
-        if meter.retired_at is not None:
-            errors["meter_id"] = f"Meter {meter.serial} is retired."
-        elif not calibration_valid_on(meter.calibrated_on, meter.calibration_interval_months,
-                                      lab_date(session, performed_at)):
-            errors["meter_id"] = (f"Meter {meter.serial} was not within its calibration on the "
-                                  f"check date (calibrated {meter.calibrated_on}, every "
-                                  f"{meter.calibration_interval_months} months).")
+        try:
+            check_meter_usable(meter, lab_date(session, performed_at))
+        except Invalid as error:
+            errors.update(error.errors)
     if errors:
         raise Invalid(errors)
 

@@ -17,7 +17,6 @@ from sqlalchemy.orm import Session, joinedload
 
 from models.dose_codes import Location, Quantity, Result
 from models.dose_ops import (
-    UNITS,
     DoseEntry,
     duplicate_message,
     entry_errors,
@@ -28,6 +27,7 @@ from models.dose_ops import (
 from models.dosimetry import Dosimeter, ImportBatch, ImportMapping
 from models.errors import Invalid
 from models.people import Person
+from models.units import DOSE_UNITS
 
 # The logbook's fields, in the order of the product's own CSV layout.
 FIELDS = ("person", "dosimeter", "wear_start", "wear_end", "quantity", "location", "value", "unit",
@@ -95,7 +95,7 @@ def save_mapping(session: Session, *, name: str, columns: dict[str, str | None],
     if not _date_format_works(date_format):
         errors["date_format"] = (f"'{date_format}' does not read dates back: use codes such as %d, %m "
                                  "and %Y, e.g. %d.%m.%Y.")
-    if default_unit not in UNITS:
+    if default_unit not in DOSE_UNITS:
         errors["default_unit"] = "Choose mSv or mrem."
     if errors:
         raise Invalid(errors)

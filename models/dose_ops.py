@@ -17,21 +17,14 @@ from models.dose_codes import Location, Quantity, Result
 from models.dose_versions import is_current, successor_of
 from models.dosimeters import describe_dosimeter, location_of
 from models.dosimetry import DoseRecord, DoseSource, Dosimeter
+from models.engine import SOURCES
 from models.errors import Invalid
 from models.people import Person
+from models.units import DOSE_UNITS, from_msv, to_msv
 
-MSV_PER_MREM = 0.01  # 1 rem = 0.01 Sv (10 CFR 20.1004), so 1 mrem = 0.01 mSv.
-UNITS = ("mSv", "mrem")
 
-# The (quantity, location) pairs a record may carry; the same pairs the dose engine counts.
-ALLOWED_PAIRS: frozenset[tuple[Quantity, Location]] = frozenset({
-    (Quantity.HP10, Location.WHOLE_BODY),
-    (Quantity.HP007, Location.WHOLE_BODY),
-    (Quantity.HP3, Location.EYE),
-    (Quantity.HP007, Location.LEFT_HAND),
-    (Quantity.HP007, Location.RIGHT_HAND),
-    (Quantity.HP10, Location.ABDOMEN),
-})
+# The (quantity, location) pairs a record may carry: exactly the pairs the dose engine counts.
+ALLOWED_PAIRS: frozenset[tuple[Quantity, Location]] = frozenset(SOURCES)
 PAIRS_HELP = ("Hp(10) or Hp(0.07) for the whole body, Hp(0.07) for a hand, Hp(3) for the eye, "
               "Hp(10) for the abdomen")
 
@@ -42,14 +35,7 @@ ESTIMATES = (DoseSource.RSO_ESTIMATE, DoseSource.INCIDENT_ESTIMATE)
 def unit_of(text: str | None) -> str | None:
     """The unit as the logbook spells it ('mSv' or 'mrem'), or None when unknown."""
     lowered = (text or "").strip().lower()
-    return next((u for u in UNITS if u.lower() == lowered), None)
-
-
-def to_msv(value: float | None, unit: str) -> float | None:
-    """A dose in mSv from a value in mSv or mrem."""
-    if value is None:
-        return None
-    return value * MSV_PER_MREM if unit == "mrem" else value
+    return next((u for u in DOSE_UNITS if u.lower() == lowered), None)
 
 
 @dataclass(frozen=True)
@@ -95,7 +81,7 @@ def entry_errors(entry: DoseEntry, dosimeter: Dosimeter | None = None) -> dict[s
     if (entry.quantity, entry.location) not in ALLOWED_PAIRS:
         errors["location"] = (f"{entry.quantity.value} is not recorded at {entry.location.value.replace('_', ' ')}: "
                               f"use {PAIRS_HELP}.")
-    if entry.unit not in UNITS:
+    if entry.unit not in DOSE_UNITS:
         errors["unit"] = f"Unknown unit '{entry.unit}': use mSv or mrem."
     for name in ("value", "mrd"):
         number = getattr(entry, name)
@@ -204,8 +190,10 @@ def add_dose_record(session: Session, entry: DoseEntry, *, created_by_id: int | 
 
 def entry_of(record: DoseRecord) -> DoseEntry:
     """A record's content as an entry, in the unit it was entered in."""
-    back = (lambda v: None if v is None else round(v / MSV_PER_MREM, 9)) if record.entered_unit == "mrem" \
-        else (lambda v: v)
+    def back(value_msv):
+        shown = from_msv(value_msv, record.entered_unit)
+        return None if shown is None else round(shown, 9)
+
     return DoseEntry(
         person_id=record.person_id, wear_start=record.wear_start, wear_end=record.wear_end,
         quantity=record.quantity, location=record.location, result=record.result,

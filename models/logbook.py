@@ -16,11 +16,11 @@ from models import tube
 from models.authorisations import whom_to_ask, why_not_authorised
 from models.base import utcnow
 from models.dosimetry import Dosimeter
-from models.due import ACTIVE, permit_state
 from models.errors import Invalid
 from models.instruments import Instrument
 from models.people import Person
-from models.permits import BypassPermit, PermitStatus
+from models.permit_ops import active_permits
+from models.permits import BypassPermit
 from models.sessions import EntrySource, InstrumentSession
 from models.settings import LabSettings
 
@@ -51,20 +51,7 @@ def active_bypass_permit(
     session: Session, instrument: Instrument, at: datetime
 ) -> BypassPermit | None:
     """The approved bypass permit whose window holds at that moment, if any."""
-    permits = session.scalars(
-        sa.select(BypassPermit)
-        .where(BypassPermit.instrument_id == instrument.id,
-               BypassPermit.status.in_([PermitStatus.APPROVED, PermitStatus.CLOSED]),
-               BypassPermit.window_start <= at, BypassPermit.window_end > at)
-        .order_by(BypassPermit.window_start)
-    )
-    for permit in permits:
-        # A permit closed early stopped covering work from its closing moment.
-        if permit.closed_at is not None and permit.closed_at <= at:
-            continue
-        if permit_state(permit.window_start, permit.window_end, at) == ACTIVE:
-            return permit
-    return None
+    return next(iter(active_permits(session, at, instrument)), None)
 
 
 def open_sessions_of(session: Session, person: Person) -> list[InstrumentSession]:

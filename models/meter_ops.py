@@ -110,7 +110,7 @@ def calibration_on(meter: SurveyMeter, on_date: date, soon_days: int) -> Calibra
 
 
 def check_meter_usable(meter: SurveyMeter | None, on_date: date) -> None:
-    """Refuse a meter that is retired or not within its calibration on the survey date."""
+    """Refuse a meter that is retired or not within its calibration on the date of the readings."""
     if meter is None:
         raise Invalid.one("meter_id", "Choose the survey meter used.")
     if meter.retired_at is not None:
@@ -118,7 +118,7 @@ def check_meter_usable(meter: SurveyMeter | None, on_date: date) -> None:
     if meter.calibrated_on > on_date:
         raise Invalid.one("meter_id", (
             f"Meter {meter.serial}'s calibration on record is dated {meter.calibrated_on}, after "
-            f"the survey date {on_date}; its earlier calibration cannot be checked here."))
+            f"the readings' date {on_date}; its earlier calibration cannot be checked here."))
     if not calibration_valid_on(meter.calibrated_on, meter.calibration_interval_months, on_date):
         due = calibration_due(meter.calibrated_on, meter.calibration_interval_months)
         raise Invalid.one("meter_id", (

@@ -135,11 +135,16 @@ def display_state(permit: BypassPermit, now: datetime) -> str:
 
 def active_permits(session: Session, now: datetime | None = None,
                    instrument: Instrument | None = None) -> list[BypassPermit]:
-    """Approved permits whose window holds now; for one instrument or all."""
+    """Approved permits whose window holds at `now` (default: this moment); for one instrument or all.
+
+    `now` may be in the past, for a session logged afterwards: a permit closed since then still
+    covered that moment, while one closed before it no longer did.
+    """
     now = now or utcnow()
-    query = sa.select(BypassPermit).where(BypassPermit.status == PermitStatus.APPROVED,
-                                          BypassPermit.window_start <= now,
-                                          BypassPermit.window_end > now)
+    query = sa.select(BypassPermit).where(
+        BypassPermit.status.in_([PermitStatus.APPROVED, PermitStatus.CLOSED]),
+        BypassPermit.window_start <= now, BypassPermit.window_end > now,
+        sa.or_(BypassPermit.closed_at.is_(None), BypassPermit.closed_at > now))
     if instrument is not None:
         query = query.where(BypassPermit.instrument_id == instrument.id)
     return list(session.scalars(query.order_by(BypassPermit.window_end)))

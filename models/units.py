@@ -1,10 +1,12 @@
-"""Dose-rate units accepted on entry, converted to uSv/h with their sources."""
+"""Dose and dose-rate units accepted on entry, converted to mSv and uSv/h, with their sources."""
 from __future__ import annotations
 
 from dataclasses import dataclass
 
-# 1 rem = 0.01 Sv (10 CFR 20.1004), so 1 mrem/h = 10 uSv/h.
+# 1 rem = 0.01 Sv (10 CFR 20.1004), so 1 mrem = 0.01 mSv and 1 mrem/h = 10 uSv/h.
+MSV_PER_MREM = 0.01
 USV_PER_MREM = 10.0
+DOSE_UNITS = ("mSv", "mrem")
 
 # 1 R = 2.58e-4 C/kg (10 CFR 20.1004); with W/e = 33.97 J/C (ICRU) that is about 8.76 mGy air
 # kerma, so 1 mR/h is about 8.76 uGy/h air kerma, and 8.76 uSv/h with quality factor 1 for X-rays.
@@ -38,6 +40,20 @@ RATE_UNITS = {
                  "as 10 µSv/h per mR/h, the conservative '1 R ~ 1 rem' of common practice"),
     )
 }
+
+
+def to_msv(value: float | None, unit: str) -> float | None:
+    """A dose in mSv from a value in mSv or mrem."""
+    if value is None:
+        return None
+    return value * MSV_PER_MREM if unit == "mrem" else value
+
+
+def from_msv(value_msv: float | None, unit: str) -> float | None:
+    """A dose in mSv shown in mSv or mrem."""
+    if value_msv is None:
+        return None
+    return value_msv / MSV_PER_MREM if unit == "mrem" else value_msv
 
 
 def to_usv_h(value: float, unit: str) -> float:

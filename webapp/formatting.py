@@ -7,9 +7,9 @@ from zoneinfo import ZoneInfo
 from flask import Flask, g
 
 from models.settings import LabSettings, lab_settings
+from models.units import from_msv
 from webapp.extensions import db
 
-MREM_PER_MSV = 100.0  # 1 rem = 0.01 Sv (10 CFR 20.1004), so 1 mSv = 100 mrem.
 
 CAUTION = (
     "This logbook supports, and does not replace, your local rules, the law that applies to your "
@@ -47,7 +47,7 @@ def dose(value_msv: float | None, digits: int = 3) -> str:
     if value_msv is None:
         return "—"
     if settings().display_unit == "mrem":
-        return f"{value_msv * MREM_PER_MSV:.{max(digits - 2, 0)}f} mrem"
+        return f"{from_msv(value_msv, 'mrem'):.{max(digits - 2, 0)}f} mrem"
     return f"{value_msv:.{digits}f} mSv"
 
 
@@ -63,6 +63,8 @@ def install(app: Flask) -> None:
         return {"navigation": navigation, "CAUTION": CAUTION, "lab_today": lab_today, "lab_zone_name": lambda: settings().timezone}
 
 
-def from_local(naive: datetime) -> datetime:
-    """A wall-clock time entered in the lab's time zone, as aware UTC."""
+def from_local(naive: datetime | None) -> datetime | None:
+    """A wall-clock time entered in the lab's time zone, as aware UTC (None stays None)."""
+    if naive is None:
+        return None
     return naive.replace(tzinfo=lab_zone()).astimezone(timezone.utc)

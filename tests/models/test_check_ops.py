@@ -93,7 +93,7 @@ def test_a_meter_out_of_calibration_is_refused(session, make_instrument, rso):
     with pytest.raises(Invalid) as error:
         record_check(session, instrument, rso, utcnow(), answers_for(session, instrument), meter,
                      None, utcnow())
-    assert "not within its calibration" in error.value.errors["meter_id"]
+    assert "out of calibration on" in error.value.errors["meter_id"]
 
 
 def test_only_authorised_operators_and_the_safety_officer_may_record(

@@ -6,7 +6,8 @@ import pytest
 import sqlalchemy as sa
 
 from models.dose_codes import Location, Quantity, Result
-from models.dose_ops import DoseEntry, add_dose_record, amend_dose_record, entry_errors, to_msv
+from models.dose_ops import DoseEntry, add_dose_record, amend_dose_record, entry_errors
+from models.units import to_msv
 from models.dose_versions import chains, current_dose_records, history
 from models.dosimetry import DoseRecord, DoseSource, DosimeterKind, Hand
 from models.errors import Invalid

@@ -35,7 +35,7 @@ def test_calibration_on(calibrated_on, on, due, state, valid):
 
 def test_meter_calibrated_after_the_survey_date_is_refused():
     meter = SurveyMeter(serial="X", calibrated_on=D("2025-05-01"), calibration_interval_months=12)
-    with pytest.raises(Invalid, match="after the survey date"):
+    with pytest.raises(Invalid, match="after the readings' date"):
         check_meter_usable(meter, D("2025-04-15"))
 
 

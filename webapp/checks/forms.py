@@ -47,7 +47,7 @@ class CheckForm(FlaskForm):
 
     def performed_at_utc(self) -> datetime | None:
         """The entered time as UTC."""
-        return from_local(self.performed_at.data) if self.performed_at.data else None
+        return from_local(self.performed_at.data)
 
 
 def check_form(items: list[ChecklistItem], meters: list[SurveyMeter]) -> CheckForm:
@@ -96,4 +96,4 @@ class ControlForm(FlaskForm):
 
     def expires_at_utc(self) -> datetime | None:
         """The expiry as UTC."""
-        return from_local(self.expires_at.data) if self.expires_at.data else None
+        return from_local(self.expires_at.data)

@@ -8,7 +8,8 @@ from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
 from models.dose_codes import Location, Quantity, Result
 from models.dose_import import FIELD_LABELS, FIELDS, ISO_DATE
-from models.dose_ops import UNITS, DoseEntry
+from models.dose_ops import DoseEntry
+from models.units import DOSE_UNITS
 from models.dosimetry import DoseSource, DosimeterKind, ExchangeCycle, Hand
 from webapp.forms import choices
 
@@ -59,7 +60,7 @@ class DoseForm(FlaskForm):
     result = SelectField("Result", choices=choices(Result, RESULT_LABELS))
     value = FloatField("Value", validators=[Optional()],
                        description="Leave empty for a lost or not-returned dosimeter.")
-    unit = SelectField("Unit", choices=[(u, u) for u in UNITS],
+    unit = SelectField("Unit", choices=[(u, u) for u in DOSE_UNITS],
                        description="1 mrem = 0.01 mSv; stored in mSv.")
     mrd = FloatField("Minimum reportable dose (MRD)", validators=[Optional()],
                      description="In the same unit as the value; needed for a result below the MRD.")
@@ -121,7 +122,7 @@ class MappingForm(FlaskForm):
     date_format = StringField("Date format", default="%d.%m.%Y",
                               description=f"Codes: %d day, %m month, %Y year (e.g. %d/%m/%Y); "
                                           f"'{ISO_DATE}' for 2026-01-31.")
-    default_unit = SelectField("Unit when the file gives none", choices=[(u, u) for u in UNITS])
+    default_unit = SelectField("Unit when the file gives none", choices=[(u, u) for u in DOSE_UNITS])
 
 
 for _name in FIELDS:

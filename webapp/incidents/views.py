@@ -8,6 +8,7 @@ from flask import abort, current_app, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 
 from models import audit
+from models.units import to_msv
 from models.dose_codes import Location, Quantity
 from models.errors import Invalid
 from models.incident_ops import (
@@ -27,12 +28,12 @@ from models.instruments import Instrument, active_instruments
 from models.people import Person, Role
 from webapp.access import can_see_dose_of, roles_required
 from webapp.extensions import db
-from webapp.formatting import MREM_PER_MSV, local
+from webapp.formatting import from_local, local
 from webapp.forms import attach_errors, validate_with
 from webapp.incidents import bp
 from webapp.incidents.forms import CloseForm, DoseForm, NoteForm, ReportForm, StopForm
 from webapp.mail import tell_safety_officer
-from webapp.sessions.forms import from_local, optional_id
+from webapp.sessions.forms import optional_id
 from webapp.slots import Attention, Severity, attention, navigation
 
 navigation.add("Incidents", "incidents.index", order=40)
@@ -201,9 +202,7 @@ def out_of_service(incident_id: int):
 
 def _record_dose(incident: Incident, form: DoseForm) -> None:
     """Store the estimate, converting from the unit it was entered in."""
-    value = form.value.data
-    if value is not None and form.unit.data == "mrem":
-        value = value / MREM_PER_MSV
+    value = to_msv(form.value.data, form.unit.data)
     record_estimated_dose(
         db.session, incident, person=db.session.get(Person, optional_id(form.person_id.data) or 0),
         quantity=Quantity(form.quantity.data), location=Location(form.location.data),

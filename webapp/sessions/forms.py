@@ -1,8 +1,6 @@
 """Forms for sessions and authorisations."""
 from __future__ import annotations
 
-from datetime import datetime, timezone
-
 from flask_wtf import FlaskForm
 from wtforms import (
     BooleanField,
@@ -16,17 +14,10 @@ from wtforms import (
 from wtforms.validators import InputRequired, Length, Optional
 
 from models.instruments import AuthorisationLevel
-from webapp.formatting import lab_zone
+from webapp.formatting import from_local
 
 NUMBER = "Enter a number."
 WHEN = "Enter a date and time."
-
-
-def from_local(moment: datetime | None) -> datetime | None:
-    """A naive datetime typed in the lab's time zone, as aware UTC."""
-    if moment is None:
-        return None
-    return moment.replace(tzinfo=lab_zone()).astimezone(timezone.utc)
 
 
 def optional_id(value: str | None) -> int | None:
