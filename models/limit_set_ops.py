@@ -69,9 +69,10 @@ def _level(n: int, values: dict, limit_msv: float | None, errors: dict):
     return None
 
 
-def _check_order(rule: limit_presets.LimitRule, errors: dict) -> None:
+def _check_order(level1, level2, limit_msv: float | None, errors: dict) -> None:
     """Level I <= level II <= limit, in mSv, with the message beside the offending level."""
-    level1, level2, limit = rule.thresholds()
+    level1, level2 = (math.nan if x is None else x.msv(limit_msv) for x in (level1, level2))
+    limit = math.nan if limit_msv is None else limit_msv
     if not math.isnan(level1) and not math.isnan(level2) and level1 > level2:
         errors["level2_value"] = (f"Level II ({level2:g} mSv) must not be below level I "
                                   f"({level1:g} mSv).")
@@ -102,13 +103,11 @@ def check_rule(values: dict) -> limit_presets.LimitRule:
     clause = (values.get("clause") or "").strip()
     if not clause:
         errors["clause"] = "Name the source of this rule: a clause, or 'local rule'."
+    if not errors:
+        _check_order(level1, level2, limit_msv, errors)
     if errors:
         raise Invalid(errors)
-    rule = limit_presets.LimitRule(category, series, period, limit_msv, level1, level2, clause)
-    _check_order(rule, errors)
-    if errors:
-        raise Invalid(errors)
-    return rule
+    return limit_presets.LimitRule(category, series, period, limit_msv, level1, level2, clause)
 
 
 def save_rule(session: Session, limit_set: LimitSet, values: dict,

@@ -275,3 +275,21 @@ def page(browser):
     page = context.new_page()
     yield page
     context.close()
+
+
+# --- exposure pages factories ---
+@pytest.fixture
+def add_dose(app):
+    """Factory: a committed dose record (Hp(10) whole body, measured, from a report by default)."""
+    from models.dosimetry import DoseRecord
+
+    def make(person, value_msv, wear_start, wear_end, **values):
+        defaults = {"quantity": "Hp(10)", "location": "whole_body", "result": "measured",
+                    "source": "dosimetry_report"}
+        record = DoseRecord(person_id=person.id, wear_start=wear_start, wear_end=wear_end,
+                            value_msv=value_msv, **{**defaults, **values})
+        db.session.add(record)
+        db.session.commit()
+        return record
+
+    return make
