@@ -20,7 +20,11 @@ def _errors(response) -> list[str]:
 
 
 @pytest.fixture
-def rso(make_person, login):
+def rso(make_person, login, session):
+    # The settings row is made on first use; a committed one keeps rolled-back forms from
+    # taking it with them in tests, where requests share the test's session.
+    lab_settings(session)
+    session.commit()
     return login(make_person("rso", roles=(Role.SAFETY_OFFICER,)))
 
 

@@ -11,9 +11,16 @@ from flask import Response, abort, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from models.dose_chart import engine_records, fetal_months, monthly_dose, record_versions
-from models.dosimetry import DoseRecord
 from models.dose_codes import Level, PeriodKind, Series, code
-from models.dose_overview import COLUMNS, MAIN_SERIES, OVERVIEW_PERIODS, csv_table, overview_rows, sort_rows
+from models.dose_overview import (
+    COLUMNS,
+    MAIN_SERIES,
+    OVERVIEW_PERIODS,
+    csv_table,
+    overview_rows,
+    sort_rows,
+)
+from models.dosimetry import DoseRecord
 from models.evaluation import person_rows
 from models.exposure import cached_lab_evaluation, policies_of, pregnancy_windows
 from models.people import Person, Role
