@@ -91,8 +91,8 @@ def fetal_months(
     The months use the dosimeter the evaluation on `on` uses (abdomen, else whole body), so an
     abdomen dosimeter issued mid-window does not change the earlier months' source.
     """
-    start, end = np.array([declared_on], dtype="datetime64[D]"), np.array(
-        [ended_on or np.datetime64("NaT")], dtype="datetime64[D]")
+    start = np.array([declared_on], dtype="datetime64[D]")
+    end = np.array([ended_on or np.datetime64("NaT")], dtype="datetime64[D]")
     s, t = code(Series.FETUS), code(PeriodKind.PREGNANCY)
     source = compute_doses(records, 1, on, policies, start, end).location[0, s, t]
     records = _subset(records, (records.quantity == code(Quantity.HP10))
