@@ -6,10 +6,11 @@ from datetime import date
 
 import numpy as np
 import sqlalchemy as sa
-from sqlalchemy.orm import Session, aliased
+from sqlalchemy.orm import Session
 
 from models import limit_presets
 from models.audit import AuditEvent
+from models.dose_versions import is_current
 from models.dosimetry import DoseRecord, PregnancyDeclaration
 from models.engine import DoseRecords, DoseTotals, Policies, compute_doses, person_index
 from models.evaluation import Evaluation, evaluate
@@ -20,20 +21,12 @@ from models.settings import LabSettings, lab_settings
 NO_LIMIT_SET = limit_presets.LimitSet("none", "No limit set chosen", ())
 
 
-def current_records() -> sa.Select:
-    """The dose records in force: every record that no later version supersedes."""
-    newer = aliased(DoseRecord)
-    return sa.select(DoseRecord).where(
-        ~sa.exists().where(newer.supersedes_id == DoseRecord.id))
-
-
 def _record_columns() -> sa.Select:
     """The columns the engine needs, of the records in force, in one query."""
-    newer = aliased(DoseRecord)
     return sa.select(
         DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location, DoseRecord.wear_start,
         DoseRecord.wear_end, DoseRecord.value_msv, DoseRecord.result, DoseRecord.mrd_msv,
-    ).where(~sa.exists().where(newer.supersedes_id == DoseRecord.id))
+    ).where(is_current())
 
 
 def read_records(session: Session, people: np.ndarray) -> DoseRecords:

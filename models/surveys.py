@@ -24,6 +24,13 @@ class SurveyTrigger(enum.StrEnum):
     OTHER = "other"
 
 
+class PointLevel(enum.StrEnum):
+    """Which of the instrument's action levels a survey point is held to."""
+
+    SURFACE = "surface"
+    HOUSING = "housing"
+
+
 class SurveyMeter(IdMixin, Base):
     """A portable radiation meter with its calibration."""
 
@@ -89,6 +96,9 @@ class SurveyPoint(IdMixin, Base):
     background_usv_h: Mapped[float] = mapped_column(default=0.0)
     net_usv_h: Mapped[float]
     entered_unit: Mapped[str] = mapped_column(sa.String(16), default="uSv/h")
+    level: Mapped[PointLevel] = mapped_column(enum_column(PointLevel), default=PointLevel.SURFACE)
+    # The level in force when surveyed: the instrument's own level may change later.
+    action_level_usv_h: Mapped[float]
 
     survey: Mapped[Survey] = relationship(back_populates="points")
 
@@ -96,6 +106,7 @@ class SurveyPoint(IdMixin, Base):
         sa.CheckConstraint("distance_cm > 0", name="distance_positive"),
         sa.CheckConstraint("reading_usv_h >= 0", name="reading_not_negative"),
         sa.CheckConstraint("background_usv_h >= 0", name="background_not_negative"),
+        sa.CheckConstraint("action_level_usv_h > 0", name="point_level_positive"),
     )
 
 

@@ -1,10 +1,12 @@
 """Monthly sums for the chart and the fetal table, and a person's record versions."""
+from dataclasses import replace
 from datetime import date
 
 import numpy as np
 import pytest
 
 from models.dose_chart import engine_records, fetal_months, month_starts, monthly_dose, record_versions
+from models.dose_ops import amend_dose_record, entry_of
 from models.dosimetry import DoseRecord
 from models.engine import Policies
 
@@ -66,15 +68,13 @@ def test_fetal_months_run_from_the_declaration():
     np.testing.assert_allclose(data.year_to_date, [3.1 * 15 / 31, 3.1 * 15 / 31 + 2.8])
 
 
-def test_record_versions_follow_the_chain(session, make_person, add_dose):
+def test_record_versions_follow_the_chain(session, make_person, make_dose):
     person = make_person()
-    first = add_dose(person, 5.0, D(2026, 1, 1), D(2026, 1, 31))
-    second = add_dose(person, 0.5, D(2026, 1, 1), D(2026, 1, 31), supersedes_id=first.id,
-                      version=2, reason="badge mix-up")
-    third = add_dose(person, 0.4, D(2026, 1, 1), D(2026, 1, 31), supersedes_id=second.id,
-                     version=3, reason="reissued report")
-    later = add_dose(person, 0.1, D(2026, 2, 1), D(2026, 2, 28))
-    add_dose(make_person(), 9.0, D(2026, 1, 1), D(2026, 1, 31))
+    first = make_dose(person, value=5.0, wear_start=D(2026, 1, 1), wear_end=D(2026, 1, 31))
+    second = amend_dose_record(session, first, replace(entry_of(first), value=0.5), "badge mix-up")
+    third = amend_dose_record(session, second, replace(entry_of(second), value=0.4), "reissued")
+    later = make_dose(person, value=0.1, wear_start=D(2026, 2, 1), wear_end=D(2026, 2, 28))
+    make_dose(make_person(), value=9.0, wear_start=D(2026, 1, 1), wear_end=D(2026, 1, 31))
     chains = record_versions(session, person.id)
     assert [[r.id for r in chain] for chain in chains] == [[later.id], [third.id, second.id, first.id]]
 

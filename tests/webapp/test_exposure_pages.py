@@ -2,10 +2,13 @@
 import csv
 import io
 import xml.etree.ElementTree as ElementTree
+from dataclasses import replace
 from datetime import date, timedelta
 
 import pytest
 
+from models.dose_codes import Result
+from models.dose_ops import amend_dose_record, entry_of
 from models.dosimetry import PregnancyDeclaration
 from models.limit_sets import install_preset
 from models.people import Role
@@ -24,15 +27,22 @@ def lab(session, make_person):
             "rso": make_person("rso", roles=RSO), "admin": make_person("admin", roles=ADMIN)}
 
 
-def _this_month() -> tuple[date, date]:
+def _this_month() -> dict:
     """A wear period from the first of this month to today (the pages show today's figures)."""
     today = D.today()
-    return today.replace(day=1), today
+    return {"wear_start": today.replace(day=1), "wear_end": today}
 
 
 def _as(client, login, person):
     client.post("/logout")
     return login(person)
+
+
+def _amend(session, record, value, reason):
+    """Correct a record by a new version."""
+    version = amend_dose_record(session, record, replace(entry_of(record), value=value), reason)
+    session.commit()
+    return version
 
 
 def _page(client, person, on=None):
@@ -68,8 +78,8 @@ def test_me_leads_to_my_own_page(client, login, lab):
     assert response.headers["Location"].endswith(f"/exposure/person/{lab['op'].id}")
 
 
-def test_a_wear_period_across_new_year_is_prorated_on_the_page(client, login, lab, add_dose):
-    add_dose(lab["op"], 3.1, D(2025, 12, 15), D(2026, 1, 14))
+def test_a_wear_period_across_new_year_is_prorated_on_the_page(client, login, lab, make_dose):
+    make_dose(lab["op"], value=3.1, wear_start=D(2025, 12, 15), wear_end=D(2026, 1, 14))
     _as(client, login, lab["rso"])
     # 17 of the 31 wear days are in 2025 and 14 in 2026 (PRODUCT.md section 3, proration)
     december = _page(client, lab["op"], "2025-12-31").data.decode()
@@ -78,8 +88,8 @@ def test_a_wear_period_across_new_year_is_prorated_on_the_page(client, login, la
     assert "1.400 mSv" in january and "2026-01-01 to 2026-12-31" in january
 
 
-def test_display_in_mrem(client, login, lab, add_dose, session):
-    add_dose(lab["op"], 3.1, D(2025, 12, 15), D(2026, 1, 14))
+def test_display_in_mrem(client, login, lab, make_dose, session):
+    make_dose(lab["op"], value=3.1, wear_start=D(2025, 12, 15), wear_end=D(2026, 1, 14))
     lab_settings(session).display_unit = "mrem"
     session.commit()
     _as(client, login, lab["rso"])
@@ -98,11 +108,10 @@ def test_policies_and_limit_set_are_shown(client, login, lab):
         assert words in page
 
 
-def test_missing_results_and_versions_are_shown(client, login, lab, add_dose):
-    first = add_dose(lab["op"], 5.0, D(2026, 3, 1), D(2026, 3, 31))
-    add_dose(lab["op"], 0.5, D(2026, 3, 1), D(2026, 3, 31), supersedes_id=first.id, version=2,
-             reason="Badge read for the wrong wearer")
-    add_dose(lab["op"], None, D(2026, 4, 1), D(2026, 4, 30), result="lost")
+def test_missing_results_and_versions_are_shown(client, login, lab, make_dose, session):
+    first = make_dose(lab["op"], value=5.0, wear_start=D(2026, 3, 1), wear_end=D(2026, 3, 31))
+    _amend(session, first, 0.5, "Badge read for the wrong wearer")
+    make_dose(lab["op"], value=None, wear_start=D(2026, 4, 1), wear_end=D(2026, 4, 30), result=Result.LOST)
     _as(client, login, lab["rso"])
     page = _page(client, lab["op"], "2026-04-30").data.decode()
     assert "1 result missing" in page
@@ -110,10 +119,10 @@ def test_missing_results_and_versions_are_shown(client, login, lab, add_dose):
     assert "version 1, replaced" in page and "Correction: Badge read for the wrong wearer" in page
 
 
-def test_strong_caution_at_an_investigation_level(client, login, lab, add_dose):
+def test_strong_caution_at_an_investigation_level(client, login, lab, make_dose):
     today = D.today()  # the lab's zone is UTC in tests; the operator's page shows today
     # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md)
-    add_dose(lab["op"], 1.5, today.replace(day=1), today)
+    make_dose(lab["op"], value=1.5, wear_start=today.replace(day=1), wear_end=today)
     _as(client, login, lab["op"])
     page = _page(client, lab["op"]).data.decode()
     assert "Dose at or above an investigation level." in page
@@ -132,8 +141,8 @@ def test_a_bad_date_gives_a_message_not_an_error(client, login, lab):
     assert client.get(f"/exposure/person/{lab['op'].id}/chart.svg?on=nonsense").status_code == 200
 
 
-def test_an_operator_cannot_move_the_date(client, login, lab, add_dose):
-    add_dose(lab["op"], 3.1, D(2025, 12, 15), D(2026, 1, 14))
+def test_an_operator_cannot_move_the_date(client, login, lab, make_dose):
+    make_dose(lab["op"], value=3.1, wear_start=D(2025, 12, 15), wear_end=D(2026, 1, 14))
     _as(client, login, lab["op"])
     page = _page(client, lab["op"], "2025-12-31").data.decode()
     assert "Evaluated on 2025-12-31" not in page
@@ -144,8 +153,8 @@ def _svg(response):
     return ElementTree.fromstring(response.data)
 
 
-def test_chart_is_svg_with_the_limit_line(client, login, lab, add_dose, session):
-    add_dose(lab["op"], 3.1, D(2025, 12, 15), D(2026, 1, 14))
+def test_chart_is_svg_with_the_limit_line(client, login, lab, make_dose, session):
+    make_dose(lab["op"], value=3.1, wear_start=D(2025, 12, 15), wear_end=D(2026, 1, 14))
     _as(client, login, lab["op"])
     root = _svg(client.get(f"/exposure/person/{lab['op'].id}/chart.svg"))
     assert root.tag.endswith("svg")
@@ -160,10 +169,10 @@ def test_chart_is_svg_with_the_limit_line(client, login, lab, add_dose, session)
 
 
 def test_pregnancy_shows_only_to_the_person_and_the_safety_officer(client, login, lab, session,
-                                                                   add_dose):
+                                                                   make_dose):
     session.add(PregnancyDeclaration(person_id=lab["op"].id, declared_on=D(2026, 1, 10)))
     session.commit()
-    add_dose(lab["op"], 0.31, D(2026, 1, 1), D(2026, 1, 31))
+    make_dose(lab["op"], value=0.31, wear_start=D(2026, 1, 1), wear_end=D(2026, 1, 31))
     _as(client, login, lab["op"])
     own = _page(client, lab["op"]).data.decode()
     assert "Declared pregnancy" in own and "Embryo/fetus" in own
@@ -180,8 +189,8 @@ def test_pregnancy_shows_only_to_the_person_and_the_safety_officer(client, login
             assert "pregnan" not in client.get(url).data.decode().lower()
 
 
-def test_operator_home_shows_my_gauges(client, login, lab, add_dose):
-    add_dose(lab["op"], 5.0, *_this_month())
+def test_operator_home_shows_my_gauges(client, login, lab, make_dose):
+    make_dose(lab["op"], value=5.0, **_this_month())
     _as(client, login, lab["op"])
     home = client.get("/").data.decode()
     assert "My dose this year" in home and "My exposure page" in home
@@ -192,9 +201,9 @@ def test_operator_home_shows_my_gauges(client, login, lab, add_dose):
     assert "My dose this year" not in client.get("/").data.decode()
 
 
-def test_people_overview_is_for_the_safety_officer(client, login, lab, add_dose):
-    add_dose(lab["op"], 2.0, *_this_month())
-    add_dose(lab["other"], 0.5, *_this_month())
+def test_people_overview_is_for_the_safety_officer(client, login, lab, make_dose):
+    make_dose(lab["op"], value=2.0, **_this_month())
+    make_dose(lab["other"], value=0.5, **_this_month())
     for viewer in ("op", "admin"):
         _as(client, login, lab[viewer])
         assert client.get("/exposure/people").status_code == 403

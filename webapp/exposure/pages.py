@@ -34,8 +34,8 @@ from webapp.slots import home_panels, navigation
 GAUGE_SERIES = (Series.EFFECTIVE, Series.SKIN, Series.LENS, Series.LEFT_HAND, Series.RIGHT_HAND)
 EARLIEST_YEAR, LATEST_YEAR = 1950, 2200
 
-navigation.add("My dose", "exposure.me", {Role.OPERATOR}, order=30)
-navigation.add("People's dose", "exposure.people", {Role.SAFETY_OFFICER}, order=40)
+navigation.add("My dose", "exposure.me", {Role.OPERATOR}, order=39)
+navigation.add("People's dose", "exposure.people", {Role.SAFETY_OFFICER}, order=42)
 
 
 def _evaluation_date() -> tuple[date, str | None]:
