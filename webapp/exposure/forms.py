@@ -1,0 +1,77 @@
+"""Forms for limit sets and the counting policies; every change carries a reason for the audit."""
+from __future__ import annotations
+
+from flask_wtf import FlaskForm
+from wtforms import FloatField, IntegerField, SelectField, StringField, TextAreaField
+from wtforms.validators import DataRequired, InputRequired, Length, Optional
+
+from models.dose_codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
+from models.limit_set_ops import RULE_COLUMNS
+from webapp.exposure import labels
+from webapp.forms import choices
+
+def _reason() -> TextAreaField:
+    """The reason the audit trail keeps with the change."""
+    return TextAreaField("Reason for the change", validators=[
+        DataRequired("Say why; the audit trail keeps the reason."), Length(max=500)])
+
+
+class ReasonForm(FlaskForm):
+    """Only a reason: removing a rule."""
+
+    reason = _reason()
+
+
+class ChooseSetForm(FlaskForm):
+    """The limit set in force."""
+
+    limit_set_id = SelectField("Limit set in force", coerce=int,
+                               validators=[InputRequired("Choose a limit set.")])
+    reason = _reason()
+
+
+class PoliciesForm(FlaskForm):
+    """How records are counted."""
+
+    proration = SelectField("Wear periods that cross a period boundary",
+                            choices=choices(Proration, labels.PRORATION))
+    mrd_policy = SelectField("Results below the minimum reportable dose (MRD)",
+                             choices=choices(MrdPolicy, labels.MRD))
+    lens_source = SelectField("Lens of the eye without an Hp(3) dosimeter",
+                              choices=choices(LensSource, labels.LENS))
+    five_year_first_year = IntegerField(
+        "First year of the five-year blocks",
+        validators=[InputRequired("Enter a year.")],
+        description="Blocks run five calendar years from this year (ICRP 'defined periods').")
+    reason = _reason()
+
+
+class CopyForm(FlaskForm):
+    """A name for an editable copy."""
+
+    name = StringField("Name of the copy", validators=[DataRequired("Name the copy."),
+                                                       Length(max=120)])
+
+
+class RuleForm(FlaskForm):
+    """One rule of a copied set: limit, investigation levels and their source."""
+
+    category = SelectField("Worker category", choices=choices(WorkerCategory, labels.CATEGORY))
+    series = SelectField("Dose series", choices=choices(Series, labels.SERIES))
+    period = SelectField("Period", choices=choices(PeriodKind, labels.PERIOD))
+    limit_msv = FloatField("Limit (mSv)", validators=[Optional()], description="Empty: no limit, "
+                           "investigation levels only.")
+    level1_kind = SelectField("Level I given as", choices=[("", "not set")]
+                              + choices(LevelKind, labels.LEVEL_KIND))
+    level1_value = FloatField("Level I", validators=[Optional()],
+                              description="A fraction (0.25 = 25 % of the limit) or mSv.")
+    level2_kind = SelectField("Level II given as", choices=[("", "not set")]
+                              + choices(LevelKind, labels.LEVEL_KIND))
+    level2_value = FloatField("Level II", validators=[Optional()])
+    clause = StringField("Source (clause)", validators=[Length(max=300)],
+                         description="The regulation's clause, or 'local rule'.")
+    reason = _reason()
+
+    def values(self) -> dict:
+        """The rule's values as the domain check takes them."""
+        return {name: self[name].data for name in RULE_COLUMNS}

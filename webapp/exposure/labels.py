@@ -1,0 +1,85 @@
+"""Readable names for the dose codes, shared by the exposure pages, the limit pages and their forms."""
+from __future__ import annotations
+
+from models.dose_codes import (
+    LensSource,
+    Level,
+    LevelKind,
+    Location,
+    MrdPolicy,
+    PeriodKind,
+    Proration,
+    Series,
+    WorkerCategory,
+)
+
+SERIES = {
+    Series.EFFECTIVE: "Whole body, Hp(10)",
+    Series.SKIN: "Skin, Hp(0.07)",
+    Series.LENS: "Lens of the eye",
+    Series.LEFT_HAND: "Left hand, Hp(0.07)",
+    Series.RIGHT_HAND: "Right hand, Hp(0.07)",
+    Series.WORST_HAND: "Worse hand, Hp(0.07)",
+    Series.FETUS: "Embryo/fetus, Hp(10)",
+}
+PERIOD = {
+    PeriodKind.YEAR: "Calendar year",
+    PeriodKind.ROLLING_12_MONTHS: "Last 12 months",
+    PeriodKind.QUARTER: "Calendar quarter",
+    PeriodKind.MONTH: "Calendar month",
+    PeriodKind.FIVE_YEAR_BLOCK: "Five-year block",
+    PeriodKind.ROLLING_FIVE_YEARS: "Last five years",
+    PeriodKind.PREGNANCY: "Since the pregnancy declaration",
+}
+LEVEL = {
+    Level.BELOW_1: "below level I",
+    Level.LEVEL_1: "level I",
+    Level.LEVEL_2: "level II",
+    Level.LIMIT_REACHED: "limit reached",
+}
+LEVEL_CSS = {
+    Level.BELOW_1: "state-good",
+    Level.LEVEL_1: "state-warn",
+    Level.LEVEL_2: "state-bad",
+    Level.LIMIT_REACHED: "state-bad",
+}
+LOCATION = {
+    Location.WHOLE_BODY: "whole body",
+    Location.LEFT_HAND: "left hand",
+    Location.RIGHT_HAND: "right hand",
+    Location.EYE: "eye",
+    Location.ABDOMEN: "abdomen",
+}
+CATEGORY = {
+    WorkerCategory.ADULT_WORKER: "Adult worker",
+    WorkerCategory.TRAINEE: "Trainee or student (16-18)",
+    WorkerCategory.DECLARED_PREGNANT: "Declared pregnant worker",
+    WorkerCategory.PUBLIC: "Member of the public",
+}
+PRORATION = {
+    Proration.PRORATE_DAYS: "Spread each record over its wear days; a period counts the days "
+                            "inside it",
+    Proration.WEAR_END: "Whole record in the period of its wear-period end date",
+}
+MRD = {
+    MrdPolicy.ZERO: "Below the minimum reportable dose counts as zero",
+    MrdPolicy.HALF: "Below the minimum reportable dose counts as half the MRD",
+    MrdPolicy.FULL: "Below the minimum reportable dose counts as the MRD",
+}
+LENS = {
+    LensSource.HP007: "Lens from Hp(0.07) whole body where no Hp(3) is measured",
+    LensSource.HP10: "Lens from Hp(10) whole body where no Hp(3) is measured",
+}
+LEVEL_KIND = {LevelKind.FRACTION: "fraction of the limit", LevelKind.ABSOLUTE: "mSv per period"}
+RESULT = {
+    "measured": "measured",
+    "below_mrd": "below MRD",
+    "unused": "unused",
+    "lost": "lost",
+    "not_returned": "not returned",
+}
+SOURCE = {
+    "dosimetry_report": "dosimetry report",
+    "rso_estimate": "estimate by the safety officer",
+    "incident_estimate": "incident estimate",
+}

@@ -1,0 +1,201 @@
+"""The safety officer's limit pages: the set in force, presets, copies and their rules, policies."""
+from __future__ import annotations
+
+import sqlalchemy as sa
+from flask import abort, flash, redirect, render_template, url_for
+
+from models import audit, limit_presets
+from models.errors import Invalid
+from models.limit_set_ops import choose_limit_set, is_editable, remove_rule, save_rule, set_policies
+from models.limit_sets import copy_limit_set, install_preset
+from models.limits import LimitRule, LimitSet
+from models.people import Role
+from webapp.access import roles_required
+from webapp.exposure import bp, labels
+from webapp.exposure.forms import ChooseSetForm, CopyForm, PoliciesForm, ReasonForm, RuleForm
+from webapp.extensions import db
+from webapp.formatting import settings
+from webapp.forms import attach_errors, validate_with
+from webapp.slots import settings_sections
+
+RSO = Role.SAFETY_OFFICER
+
+
+@settings_sections.add("exposure/limits_settings_section.html", roles={RSO}, order=20)
+def settings_section(lab) -> dict:
+    """The set in force and the counting policies, with a link to change them."""
+    return {"lab": lab, "labels": labels}
+
+
+def _installed() -> list[LimitSet]:
+    """Every stored set, presets first."""
+    return db.session.scalars(
+        sa.select(LimitSet).order_by(LimitSet.preset_key.is_(None), LimitSet.name)).all()
+
+
+def _index(choose: ChooseSetForm | None = None, policies: PoliciesForm | None = None, status=200):
+    """The limits page with its two forms (one may carry errors)."""
+    lab = settings()
+    sets = _installed()
+    choose = choose or ChooseSetForm(limit_set_id=lab.limit_set_id)
+    choose.limit_set_id.choices = [(s.id, s.name) for s in sets]
+    policies = policies or PoliciesForm(obj=lab)
+    installed_keys = {s.preset_key for s in sets}
+    return render_template(
+        "exposure/limits_index.html", lab=lab, sets=sets, choose=choose, policies=policies,
+        presets=[p for p in limit_presets.PRESETS if p.key not in installed_keys],
+        labels=labels), status
+
+
+@bp.route("/exposure/limits/")
+@roles_required(RSO)
+def limits():
+    """Installed sets, presets to install, the set in force and the policies."""
+    return _index()
+
+
+@bp.route("/exposure/limits/choose", methods=["POST"])
+@roles_required(RSO)
+def limits_choose():
+    """Put another installed set in force."""
+    form = ChooseSetForm()
+    form.limit_set_id.choices = [(s.id, s.name) for s in _installed()]
+
+    def check(f):
+        """The set must exist and evaluate."""
+        chosen = db.session.get(LimitSet, f.limit_set_id.data) if f.limit_set_id.data else None
+        with audit.reason(db.session, f.reason.data):
+            choose_limit_set(db.session, settings(), chosen)
+
+    if not validate_with(form, check):
+        db.session.rollback()
+        return _index(choose=form, status=400)
+    db.session.commit()
+    flash(f"'{settings().limit_set.name}' is now the limit set in force.", "info")
+    return redirect(url_for("exposure.limits"))
+
+
+@bp.route("/exposure/limits/policies", methods=["POST"])
+@roles_required(RSO)
+def limits_policies():
+    """Change how records are counted."""
+    form = PoliciesForm()
+
+    def check(f):
+        """Apply the policies (rolled back if anything is wrong)."""
+        with audit.reason(db.session, f.reason.data):
+            set_policies(db.session, settings(), {name: f[name].data for name in (
+                "proration", "mrd_policy", "lens_source", "five_year_first_year")})
+
+    if not validate_with(form, check):
+        db.session.rollback()
+        return _index(policies=form, status=400)
+    db.session.commit()
+    flash("Counting policies saved; every figure now follows them.", "info")
+    return redirect(url_for("exposure.limits"))
+
+
+@bp.route("/exposure/limits/install/<key>", methods=["POST"])
+@roles_required(RSO)
+def limits_install(key: str):
+    """Store a shipped preset so it can be viewed, put in force or copied."""
+    try:
+        stored = install_preset(db.session, key)
+    except Invalid:
+        abort(404)
+    db.session.commit()
+    flash(f"'{stored.name}' is installed. It is read-only; copy it to change it.", "info")
+    return redirect(url_for("exposure.limit_set", set_id=stored.id))
+
+
+def _set(set_id: int) -> LimitSet:
+    """A stored set or 404."""
+    return db.session.get(LimitSet, set_id) or abort(404)
+
+
+@bp.route("/exposure/limits/<int:set_id>")
+@roles_required(RSO)
+def limit_set(set_id: int, copy: CopyForm | None = None, status: int = 200):
+    """A set's rules with their clauses; a copy form; edit links on a copy."""
+    stored = _set(set_id)
+    return render_template(
+        "exposure/limits_set.html", stored=stored, editable=is_editable(stored),
+        in_force=settings().limit_set_id == stored.id, copy=copy or CopyForm(
+            name=f"{stored.name} (local)"), labels=labels, remove=ReasonForm()), status
+
+
+@bp.route("/exposure/limits/<int:set_id>/copy", methods=["POST"])
+@roles_required(RSO)
+def limits_copy(set_id: int):
+    """An editable copy of a set."""
+    stored = _set(set_id)
+    form = CopyForm()
+    if not form.validate_on_submit():
+        return limit_set(set_id, copy=form, status=400)
+    try:
+        copy = copy_limit_set(db.session, stored, form.name.data)
+    except Invalid as error:
+        db.session.rollback()
+        attach_errors(form, error)
+        return limit_set(set_id, copy=form, status=400)
+    db.session.commit()
+    flash(f"'{copy.name}' is an editable copy of '{stored.name}'.", "info")
+    return redirect(url_for("exposure.limit_set", set_id=copy.id))
+
+
+def _editable(set_id: int) -> LimitSet:
+    """A set the lab may change; a preset sends the safety officer back with the reason."""
+    stored = _set(set_id)
+    if not is_editable(stored):
+        abort(403)
+    return stored
+
+
+@bp.route("/exposure/limits/<int:set_id>/rules/new", methods=["GET", "POST"])
+@bp.route("/exposure/limits/<int:set_id>/rules/<int:rule_id>", methods=["GET", "POST"])
+@roles_required(RSO)
+def limit_rule(set_id: int, rule_id: int | None = None):
+    """Add a rule to a copy, or change one."""
+    stored = _editable(set_id)
+    rule = None
+    if rule_id is not None:
+        rule = db.session.get(LimitRule, rule_id)
+        if rule is None or rule.limit_set_id != stored.id:
+            abort(404)
+    form = RuleForm(obj=rule)
+    if rule is not None and not form.is_submitted():
+        form.level1_kind.data = rule.level1_kind or ""
+        form.level2_kind.data = rule.level2_kind or ""
+
+    def check(f):
+        """Save the rule with the reason (rolled back if anything is wrong)."""
+        with audit.reason(db.session, f.reason.data):
+            save_rule(db.session, stored, f.values(), rule)
+
+    if validate_with(form, check):
+        db.session.commit()
+        flash("Rule saved.", "info")
+        return redirect(url_for("exposure.limit_set", set_id=stored.id))
+    db.session.rollback()
+    status = 400 if form.is_submitted() else 200
+    return render_template("exposure/limits_rule.html", stored=stored, rule=rule, form=form,
+                           in_force=settings().limit_set_id == stored.id), status
+
+
+@bp.route("/exposure/limits/<int:set_id>/rules/<int:rule_id>/remove", methods=["POST"])
+@roles_required(RSO)
+def limit_rule_remove(set_id: int, rule_id: int):
+    """Take a rule out of a copy, with a reason."""
+    stored = _editable(set_id)
+    rule = db.session.get(LimitRule, rule_id)
+    if rule is None or rule.limit_set_id != stored.id:
+        abort(404)
+    form = ReasonForm()
+    if not form.validate_on_submit():
+        flash("Say why the rule is removed; nothing was changed.", "error")
+        return redirect(url_for("exposure.limit_set", set_id=stored.id))
+    with audit.reason(db.session, form.reason.data):
+        remove_rule(db.session, stored, rule)
+    db.session.commit()
+    flash("Rule removed.", "info")
+    return redirect(url_for("exposure.limit_set", set_id=stored.id))

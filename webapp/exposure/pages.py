@@ -1,0 +1,188 @@
+"""Exposure pages: a person's dose page and chart, the operator's gauges, the people overview."""
+from __future__ import annotations
+
+import csv
+import io
+from datetime import date
+
+import numpy as np
+import sqlalchemy as sa
+from flask import Response, abort, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
+
+from models.dose_chart import engine_records, fetal_months, monthly_dose, record_versions
+from models.dose_codes import Level, PeriodKind, Series, code
+from models.dose_overview import (
+    COLUMNS,
+    MAIN_SERIES,
+    OVERVIEW_PERIODS,
+    csv_table,
+    overview_rows,
+    sort_rows,
+)
+from models.dosimetry import DoseRecord
+from models.evaluation import person_rows
+from models.exposure import cached_lab_evaluation, policies_of, pregnancy_windows
+from models.people import Person, Role
+from webapp.access import can_see_dose_of, roles_required
+from webapp.exposure import bp, labels
+from webapp.exposure.chart import monthly_chart_svg
+from webapp.extensions import db
+from webapp.formatting import MREM_PER_MSV, lab_today, settings
+from webapp.slots import home_panels, navigation
+
+GAUGE_SERIES = (Series.EFFECTIVE, Series.SKIN, Series.LENS, Series.LEFT_HAND, Series.RIGHT_HAND)
+EARLIEST_YEAR, LATEST_YEAR = 1950, 2200
+
+navigation.add("My dose", "exposure.me", {Role.OPERATOR}, order=39)
+navigation.add("People's dose", "exposure.people", {Role.SAFETY_OFFICER}, order=42)
+
+
+def _evaluation_date() -> tuple[date, str | None]:
+    """The lab's today, or the safety officer's `?on=` date; a bad date gives a message instead."""
+    text = request.args.get("on", "").strip()
+    if not text or not current_user.has_role(Role.SAFETY_OFFICER):
+        return lab_today(), None
+    try:
+        on = date.fromisoformat(text)
+    except ValueError:
+        return lab_today(), f"'{text}' is not a date (use YYYY-MM-DD); showing today instead."
+    if not EARLIEST_YEAR <= on.year <= LATEST_YEAR:
+        return lab_today(), f"Choose a date between {EARLIEST_YEAR} and {LATEST_YEAR}; showing today."
+    return on, None
+
+
+def _subject(person_id: int) -> Person:
+    """The person whose dose is asked for, if the viewer may see it (403 before 404: an operator
+    guessing ids learns nothing about who exists)."""
+    if not can_see_dose_of(person_id):
+        abort(403)
+    return db.session.get(Person, person_id) or abort(404)
+
+
+def _display() -> tuple[str, float]:
+    """The display unit and how many of it make one mSv."""
+    unit = settings().display_unit
+    return unit, MREM_PER_MSV if unit == "mrem" else 1.0
+
+
+def _optional(value) -> float | None:
+    """A float, or None for NaN (not set)."""
+    return None if np.isnan(value) else float(value)
+
+
+def _table(lab, person_id: int) -> list[dict]:
+    """The person's evaluation rows with their investigation levels and missing-result counts."""
+    row = lab.row_of(person_id)
+    rows = person_rows(lab.evaluation, row)
+    for r in rows:
+        at = (row, code(Series(r["series"])), code(PeriodKind(r["period"])))
+        r["missing"] = int(lab.totals.missing[at])
+        r["level1_msv"] = _optional(lab.evaluation.level1[at])
+        r["level2_msv"] = _optional(lab.evaluation.level2[at])
+    return rows
+
+
+@bp.route("/exposure/me")
+@login_required
+def me():
+    """The logged-in person's own exposure page."""
+    return redirect(url_for("exposure.person", person_id=current_user.id))
+
+
+@bp.route("/exposure/person/<int:person_id>")
+@login_required
+def person(person_id: int):
+    """The table of quantities x periods, the chart, the records with their versions."""
+    subject = _subject(person_id)
+    on, date_problem = _evaluation_date()
+    lab = cached_lab_evaluation(db.session, on)
+    rows = _table(lab, person_id)
+    chains = record_versions(db.session, person_id)
+    fetal = None
+    fetal_row = next((r for r in rows if r["series"] == Series.FETUS), None)
+    if fetal_row is not None:
+        start, end = pregnancy_windows(db.session, np.array([person_id]), on)
+        ended = None if np.isnat(end[0]) else end[0].astype(date)
+        fetal = fetal_months(engine_records([c[0] for c in chains]), on,
+                             policies_of(settings()), start[0].astype(date), ended)
+    lab_settings = settings()
+    return render_template(
+        "exposure/page_person.html", subject=subject, on=on, date_problem=date_problem,
+        rows=rows, chains=chains, fetal=fetal, fetal_row=fetal_row, labels=labels,
+        at_level=[r for r in rows if r["level"] != Level.BELOW_1],
+        projected=[r for r in rows if r["clause"] and r["projected_level"] != r["level"]],
+        lab=lab_settings, limit_set_name=lab.evaluation.limit_set.name,
+        is_today=on == lab_today(), Series=Series, PeriodKind=PeriodKind)
+
+
+@bp.route("/exposure/person/<int:person_id>/chart.svg")
+@login_required
+def chart(person_id: int):
+    """Monthly Hp(10) whole-body dose over two years, the year's total and the annual limit."""
+    _subject(person_id)
+    on, _ = _evaluation_date()
+    lab = cached_lab_evaluation(db.session, on)
+    annual = next((r for r in person_rows(lab.evaluation, lab.row_of(person_id))
+                   if r["series"] == Series.EFFECTIVE and r["period"] == PeriodKind.YEAR), None)
+    records = engine_records([c[0] for c in record_versions(db.session, person_id)])
+    data = monthly_dose(records, on, policies_of(settings()))
+    unit, per_msv = _display()
+    svg = monthly_chart_svg(data, annual and annual["limit_msv"], unit, per_msv,
+                            f"{labels.SERIES[Series.EFFECTIVE]}, month by month to {on}")
+    response = Response(svg, mimetype="image/svg+xml")
+    response.headers["Cache-Control"] = "private, no-store"
+    return response
+
+
+@home_panels.add("exposure/page_home_gauges.html", roles={Role.OPERATOR}, order=30)
+def gauges(viewer: Person) -> dict:
+    """My dose per series: share of the annual limit, and the worst level over its periods."""
+    lab = cached_lab_evaluation(db.session, lab_today())
+    rows = person_rows(lab.evaluation, lab.row_of(viewer.id))
+    shown = []
+    for series in GAUGE_SERIES:
+        own = [r for r in rows if r["series"] == series]
+        year = next((r for r in own if r["period"] == PeriodKind.YEAR), None)
+        worst = max(own, key=lambda r: (code(Level(r["level"])), r["fraction"] or 0.0), default=None)
+        if year is not None:
+            shown.append({"series": series, "year": year, "worst": worst})
+    return {"gauges": shown, "labels": labels}
+
+
+def _overview(key: str, descending: bool):
+    """Everyone who works with dose (operators, and anyone with a record) as overview lines."""
+    lab = cached_lab_evaluation(db.session, lab_today())
+    people = db.session.execute(
+        sa.select(Person.id, Person.login, Person.name).where(
+            sa.or_(Person.roles.any(role=Role.OPERATOR),
+                   sa.exists().where(DoseRecord.person_id == Person.id)))
+        .order_by(Person.name)).all()
+    rows = np.array([lab.row_of(p.id) for p in people], dtype=np.int64)
+    lines = overview_rows(lab.evaluation, rows, [tuple(p) for p in people])
+    return lab, sort_rows(lines, key, descending)
+
+
+@bp.route("/exposure/people")
+@roles_required(Role.SAFETY_OFFICER)
+def people():
+    """People x main series for the year and quarter, sortable."""
+    key = request.args.get("sort", "level")
+    descending = request.args.get("order", "desc" if key != "name" else "asc") == "desc"
+    lab, lines = _overview(key, descending)
+    return render_template("exposure/page_people.html", lines=lines, key=key,
+                           descending=descending, columns=COLUMNS, series=MAIN_SERIES,
+                           periods=OVERVIEW_PERIODS, labels=labels, on=lab.on,
+                           limit_set_name=lab.evaluation.limit_set.name, lab=settings())
+
+
+@bp.route("/exposure/people.csv")
+@roles_required(Role.SAFETY_OFFICER)
+def people_csv():
+    """The overview as CSV, doses in mSv."""
+    lab, lines = _overview(request.args.get("sort", "name"), request.args.get("order") == "desc")
+    buffer = io.StringIO()
+    csv.writer(buffer).writerows(csv_table(lines))
+    return Response(buffer.getvalue(), mimetype="text/csv", headers={
+        "Content-Disposition": f'attachment; filename="dose-overview-{lab.on}.csv"',
+        "Cache-Control": "private, no-store"})
