@@ -12,7 +12,7 @@ from sqlalchemy.orm import Session
 from models import limit_presets
 from models.dose_codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
 from models.errors import Invalid
-from models.limit_sets import _stored_rule, as_rules
+from models.limit_sets import as_rules, stored_rule
 from models.limits import LimitRule, LimitSet
 from models.settings import LabSettings
 
@@ -119,7 +119,7 @@ def save_rule(session: Session, limit_set: LimitSet, values: dict,
     if any(r is not rule and (r.category, r.series, r.period) == row for r in limit_set.rules):
         raise Invalid.one("period", "This set already has a rule for that category, series and "
                                     "period; change that rule instead.")
-    stored = _stored_rule(checked)
+    stored = stored_rule(checked)
     if rule is None:
         rule = stored
         limit_set.rules.append(rule)

@@ -19,7 +19,7 @@ def _level(kind, value) -> limit_presets.InvestigationLevel | None:
     return None if kind is None else limit_presets.InvestigationLevel(kind, value)
 
 
-def _stored_rule(rule: limit_presets.LimitRule) -> LimitRule:
+def stored_rule(rule: limit_presets.LimitRule) -> LimitRule:
     """A table row for one rule."""
     level1_kind, level1_value = _level_columns(rule.level1)
     level2_kind, level2_value = _level_columns(rule.level2)
@@ -38,7 +38,7 @@ def install_preset(session: Session, key: str) -> LimitSet:
     except KeyError as error:
         raise Invalid.one("preset", f"There is no preset called '{key}'.") from error
     stored = LimitSet(name=preset.name, preset_key=preset.key,
-                      rules=[_stored_rule(rule) for rule in preset.rules])
+                      rules=[stored_rule(rule) for rule in preset.rules])
     session.add(stored)
     session.flush()
     return stored
@@ -52,7 +52,7 @@ def copy_limit_set(session: Session, source: LimitSet, name: str) -> LimitSet:
     if session.scalar(sa.select(LimitSet).where(LimitSet.name == name)) is not None:
         raise Invalid.one("name", f"A limit set called '{name}' already exists.")
     copy = LimitSet(name=name, description=f"Copy of {source.name}",
-                    rules=[_stored_rule(rule) for rule in as_rules(source).rules])
+                    rules=[stored_rule(rule) for rule in as_rules(source).rules])
     session.add(copy)
     session.flush()
     return copy

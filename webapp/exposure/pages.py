@@ -10,6 +10,7 @@ import sqlalchemy as sa
 from flask import Response, abort, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
+from models.units import from_msv
 from models.dose_chart import engine_records, fetal_months, monthly_dose, record_versions
 from models.dose_codes import Level, PeriodKind, Series, code
 from models.dose_overview import (
@@ -28,7 +29,7 @@ from webapp.access import can_see_dose_of, roles_required
 from webapp.exposure import bp, labels
 from webapp.exposure.chart import monthly_chart_svg
 from webapp.extensions import db
-from webapp.formatting import MREM_PER_MSV, lab_today, settings
+from webapp.formatting import lab_today, settings
 from webapp.slots import home_panels, navigation
 
 GAUGE_SERIES = (Series.EFFECTIVE, Series.SKIN, Series.LENS, Series.LEFT_HAND, Series.RIGHT_HAND)
@@ -63,7 +64,7 @@ def _subject(person_id: int) -> Person:
 def _display() -> tuple[str, float]:
     """The display unit and how many of it make one mSv."""
     unit = settings().display_unit
-    return unit, MREM_PER_MSV if unit == "mrem" else 1.0
+    return unit, from_msv(1.0, unit)
 
 
 def _optional(value) -> float | None:
