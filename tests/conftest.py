@@ -275,3 +275,34 @@ def page(browser):
     page = context.new_page()
     yield page
     context.close()
+
+
+# --- exposure factories ---
+@pytest.fixture
+def add_dose(app):
+    """Factory: a committed measured dose record (Hp(10) whole body unless told otherwise)."""
+    from models.dosimetry import DoseRecord
+
+    def make(person, value_msv: float, wear_start: date, wear_end: date, *, quantity="Hp(10)",
+             location="whole_body", result="measured", mrd_msv=None):
+        record = DoseRecord(person_id=person.id, wear_start=wear_start, wear_end=wear_end,
+                            quantity=quantity, location=location, value_msv=value_msv,
+                            result=result, mrd_msv=mrd_msv, source="dosimetry_report")
+        db.session.add(record)
+        db.session.commit()
+        return record
+
+    return make
+
+
+@pytest.fixture
+def use_limit_set(app):
+    """Factory: install a shipped preset and put it in force."""
+    from models.limit_sets import install_preset
+    from models.settings import lab_settings
+
+    def use(key: str = "icrp103"):
+        lab_settings(db.session).limit_set = install_preset(db.session, key)
+        db.session.commit()
+
+    return use

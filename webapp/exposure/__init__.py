@@ -2,3 +2,5 @@
 from flask import Blueprint
 
 bp = Blueprint("exposure", __name__, template_folder="templates", cli_group="exposure")
+
+from webapp.exposure import cli, views  # noqa: E402,F401
