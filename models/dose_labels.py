@@ -1,5 +1,5 @@
 """Plain words for the dose codes, shared by the command line, the pages and the e-mails."""
-from models.dose_codes import LensSource, Level, Location, MrdPolicy, PeriodKind, Proration
+from models.dose_codes import LensSource, Level, Location, MrdPolicy, PeriodKind, Proration, Series
 
 LOCATION_LABELS = {
     Location.WHOLE_BODY: "whole body",
@@ -7,6 +7,15 @@ LOCATION_LABELS = {
     Location.RIGHT_HAND: "right hand",
     Location.EYE: "eye",
     Location.ABDOMEN: "abdomen",
+}
+SERIES_LABELS = {
+    Series.EFFECTIVE: "effective",
+    Series.SKIN: "skin",
+    Series.LENS: "lens",
+    Series.LEFT_HAND: "left hand",
+    Series.RIGHT_HAND: "right hand",
+    Series.WORST_HAND: "worse hand",
+    Series.FETUS: "fetus",
 }
 PERIOD_LABELS = {
     PeriodKind.YEAR: "year",
@@ -38,6 +47,20 @@ LENS_LABELS = {
 }
 
 
-def dose_row_label(quantity: str, location: str, period: str) -> str:
-    """'Hp(10) whole body, quarter' for a quantity, location and period kind."""
-    return f"{quantity} {LOCATION_LABELS[Location(location)]}, {PERIOD_LABELS[PeriodKind(period)]}"
+# Series whose records may come from another dosimeter, and the location that is their own.
+_OWN_LOCATION = {Series.LENS: (Location.EYE, "lens"), Series.FETUS: (Location.ABDOMEN, "fetus")}
+
+
+def measured_label(series: str, quantity: str, location: str) -> str:
+    """'Hp(10) whole body'; a lens or fetus assessed from another dosimeter says so."""
+    own = f"{quantity} {LOCATION_LABELS[Location(location)]}"
+    if Series(series) in _OWN_LOCATION:
+        home, name = _OWN_LOCATION[Series(series)]
+        if Location(location) is not home:
+            return f"{name} from {own}"
+    return own
+
+
+def dose_row_label(series: str, quantity: str, location: str, period: str) -> str:
+    """'Hp(10) whole body, quarter' or 'lens from Hp(0.07) whole body, quarter'."""
+    return f"{measured_label(series, quantity, location)}, {PERIOD_LABELS[PeriodKind(period)]}"

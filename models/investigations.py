@@ -6,9 +6,9 @@ Decisions:
   by an investigation at the same or a higher level is not raised again.
 - Rolling windows start on a new day every day, so for them "the same window" means an
   overlapping one: a crossing is new only once the earlier investigation's window has rolled out.
-- Series that read the same record channel share a key: the worst hand is one of the hands, and
-  a lens assessed from Hp(0.07) whole body reads the skin's records. Such a crossing is raised
-  once, under the record's quantity and location.
+- The worst hand is one of the two hands, so its crossing is raised as that hand's. The lens
+  assessed from Hp(0.07) whole body reads the skin's records but has its own limit, so each
+  keeps its own series.
 - A rise at level I or above for a person authorised on an instrument asks for a survey of every
   instrument they used in the window of the crossing. The survey task names the level reached
   but neither the person nor a dose figure, since operators see survey tasks.
@@ -24,8 +24,8 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
 from models.base import utcnow
-from models.dose_codes import Level, Location, PeriodKind, Quantity, code, decode
-from models.dose_labels import LEVEL_LABELS, PERIOD_LABELS, dose_row_label
+from models.dose_codes import Level, Location, PeriodKind, Quantity, Series, code, decode
+from models.dose_labels import LEVEL_LABELS, dose_row_label
 from models.dosimetry import Investigation
 from models.errors import Invalid
 from models.exposure import LabEvaluation
@@ -42,6 +42,7 @@ class Crossing:
     """A person x quantity x location x period window at level I or above on the evaluation date."""
 
     person_id: int
+    series: Series
     quantity: Quantity
     location: Location
     period: PeriodKind
@@ -51,25 +52,34 @@ class Crossing:
     dose_msv: float
 
 
+_HAND_SERIES = np.array([code(Series.LEFT_HAND), code(Series.RIGHT_HAND)])
+
+
 def crossings(lab: LabEvaluation) -> list[Crossing]:
     """Every row at level I or above, one per investigation key, selected from the arrays at once."""
     evaluation = lab.evaluation
     totals = evaluation.totals
     windows = totals.windows
     p, s, t = np.nonzero(evaluation.level >= code(Level.LEVEL_1))
-    keys = np.stack([p, totals.quantity[p, s], totals.location[p, s, t], t,
-                     windows.start[p, t].view(np.int64), evaluation.level[p, s, t]], axis=1)
-    _, first = np.unique(keys, axis=0, return_index=True)
-    p, s, t = p[first], s[first], t[first]
-    starts = windows.start[p, t].astype(object)
-    days = windows.total_days[p, t]
+    # Highest level first, so the key's first occurrence below is the level reached.
+    order = np.argsort(-evaluation.level[p, s, t], kind="stable")
+    p, s, t = p[order], s[order], t[order]
+    location = totals.location[p, s, t]
+    # The worst hand's row is raised as the row of the hand it reads.
+    series = np.where(s == code(Series.WORST_HAND),
+                      _HAND_SERIES[(location == code(Location.RIGHT_HAND)).astype(int)], s)
+    start = windows.start[p, t]
+    _, first = np.unique(np.stack([p, series, t, start.view(np.int64)], axis=1), axis=0,
+                         return_index=True)
+    p, s, t, series, start = p[first], s[first], t[first], series[first], start[first]
     return [
-        Crossing(int(lab.person_ids[i]), quantity, location, period, start, int(n), level,
-                 float(dose))
-        for i, quantity, location, period, start, n, level, dose in zip(
-            p, decode(Quantity, totals.quantity[p, s]), decode(Location, totals.location[p, s, t]),
-            decode(PeriodKind, t), starts, days, decode(Level, evaluation.level[p, s, t]),
-            totals.dose[p, s, t])
+        Crossing(int(lab.person_ids[i]), series_, quantity, location_, period, start_day,
+                 int(days), level, float(dose))
+        for i, series_, quantity, location_, period, start_day, days, level, dose in zip(
+            p, decode(Series, series), decode(Quantity, totals.quantity[p, s]),
+            decode(Location, totals.location[p, s, t]), decode(PeriodKind, t),
+            start.astype(object), windows.total_days[p, t],
+            decode(Level, evaluation.level[p, s, t]), totals.dose[p, s, t])
     ]
 
 
@@ -96,25 +106,30 @@ def raise_investigations(session: Session, lab: LabEvaluation) -> list[Investiga
     existing: dict[tuple, list[Investigation]] = {}
     for investigation in session.scalars(sa.select(Investigation).where(
             Investigation.person_id.in_(sorted({c.person_id for c in found})))):
-        key = (investigation.person_id, investigation.quantity, investigation.location,
-               investigation.period)
+        key = (investigation.person_id, investigation.series, investigation.period)
         existing.setdefault(key, []).append(investigation)
     new = [
-        Investigation(person_id=c.person_id, quantity=c.quantity, location=c.location,
+        Investigation(person_id=c.person_id, series=c.series, quantity=c.quantity,
+                      location=c.location,
                       period=c.period, period_start=c.period_start, level=c.level,
                       dose_msv=c.dose_msv)
         for c in found
-        if not _covered(c, existing.get((c.person_id, c.quantity, c.location, c.period), []))
+        if not _covered(c, existing.get((c.person_id, c.series, c.period), []))
     ]
     session.add_all(new)
     session.flush()
     return new
 
 
+def _row_of(investigation: Investigation) -> str:
+    """'Hp(10) whole body, quarter' for an investigation."""
+    return dose_row_label(investigation.series, investigation.quantity, investigation.location,
+                          investigation.period)
+
+
 def investigation_label(investigation: Investigation) -> str:
     """'Hp(10) whole body, quarter from 2026-10-01, level I'."""
-    row = dose_row_label(investigation.quantity, investigation.location, investigation.period)
-    return (f"{row} from {investigation.period_start.isoformat()}, "
+    return (f"{_row_of(investigation)} from {investigation.period_start.isoformat()}, "
             f"{LEVEL_LABELS[Level(investigation.level)]}")
 
 
@@ -152,8 +167,7 @@ def raise_survey_tasks(session: Session, new: list[Investigation], on: date,
                 instrument_id=instrument_id, trigger=SurveyTrigger.DOSE_RISE,
                 reason=(f"Dose rise: a user of this instrument reached "
                         f"{LEVEL_LABELS[Level(investigation.level)]} "
-                        f"({investigation.quantity}, "
-                        f"{PERIOD_LABELS[PeriodKind(investigation.period)]} from "
+                        f"({_row_of(investigation)} from "
                         f"{investigation.period_start.isoformat()}). Survey the instrument."))
     session.add_all(tasks.values())
     session.flush()

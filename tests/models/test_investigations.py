@@ -12,7 +12,13 @@ from models.engine import DoseRecords, compute_doses
 from models.errors import Invalid
 from models.evaluation import evaluate
 from models.exposure import LabEvaluation, evaluate_lab
-from models.investigations import raise_investigations, raise_survey_tasks, record_review, sign_off
+from models.investigations import (
+    investigation_label,
+    raise_investigations,
+    raise_survey_tasks,
+    record_review,
+    sign_off,
+)
 from models.limit_presets import InvestigationLevel, LimitRule, LimitSet
 from models.sessions import InstrumentSession
 from models.surveys import SurveyTask
@@ -71,8 +77,22 @@ def test_both_hands_series_raise_one_investigation(session, make_person, add_dos
     add_dose(person, 40.0, date(2026, 10, 1), date(2026, 10, 31), quantity="Hp(0.07)",
              location="right_hand")
     # common practice scaled by the limit ratio: 3.75 x 500 / 50 = 37.5 mSv is level II for a hand
-    assert [(i.location, i.period, i.level) for i in _raise(session)] == [
-        ("right_hand", "quarter", "level_2")]
+    assert [(i.series, i.location, i.period, i.level) for i in _raise(session)] == [
+        ("right_hand", "right_hand", "quarter", "level_2")]
+
+
+def test_a_lens_assessed_from_the_body_badge_is_raised_as_the_lens(
+        session, make_person, add_dose, use_limit_set):
+    use_limit_set("icrp103")
+    person = make_person()
+    add_dose(person, 2.0, date(2026, 10, 1), date(2026, 10, 31), quantity="Hp(0.07)")
+    (item,) = _raise(session)
+    # common practice scaled: the lens (50 mSv a year, ICRP 2011 statement) has level I at
+    # 1.25 mSv a quarter; the skin (500 mSv, ICRP 103 Table 6) only at 12.5 mSv.
+    assert (item.series, item.quantity, item.location, item.level) == (
+        "lens", "Hp(0.07)", "whole_body", "level_1")
+    assert investigation_label(item) == (
+        "lens from Hp(0.07) whole body, quarter from 2026-10-01, level I")
 
 
 def _rolling_lab(on: date, person_id: int) -> LabEvaluation:

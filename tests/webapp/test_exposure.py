@@ -77,9 +77,10 @@ def test_show_prints_a_table_with_the_policies_in_force(app, make_person, add_do
     assert "ICRP 103 (2007) with the ICRP 2011 lens statement" in text
     assert "spread over its wear days" in text and "count as zero" in text
     assert "not the official dose record" in text
-    header = next(line for line in text.splitlines() if line.startswith("Quantity"))
+    header = next(line for line in text.splitlines() if line.startswith("For "))
     quarter = next(line for line in text.splitlines()
-                   if line.startswith("Hp(10)") and " quarter " in line)
+                   if line.startswith("effective") and " quarter " in line)
+    assert "Hp(10)" in quarter and "whole body" in quarter
     assert "1.500" in quarter and "level I" in quarter
     # Aligned: the dose column ends where its heading ends.
     assert quarter.index("1.500") + len("1.500") == header.index("mSv", header.index("Dose")) + 3
@@ -203,7 +204,7 @@ def test_the_attention_list_puts_doses_first_in_order_of_severity(
                               ("calm", 0.1)]:
         add_dose(make_person(login_name, name=f"Name {login_name}"), value, *october)
     session.add(Investigation(person_id=make_person("old", name="Name old").id,
-                              quantity="Hp(10)", location="whole_body", period="quarter",
+                              series="effective", quantity="Hp(10)", location="whole_body", period="quarter",
                               period_start=date(2026, 7, 1), level="level_1", dose_msv=1.3))
     session.commit()
     other = Attention(Severity.OUT_OF_SERVICE, "Name instrument out of service", "/x", "")

@@ -14,6 +14,7 @@ from models.dose_labels import (
     MRD_LABELS,
     PERIOD_LABELS,
     PRORATION_LABELS,
+    SERIES_LABELS,
 )
 from models.evaluation import person_rows
 from models.exposure import LabEvaluation, evaluate_lab, limit_set_of
@@ -81,10 +82,10 @@ def _table(rows: list[dict], unit: str) -> str:
     def amount(value: float | None) -> str:
         return "-" if value is None else f"{value * factor:.{digits}f}"
 
-    headings = ("Quantity", "Location", "Period", "From", "To", f"Dose {unit}", f"Limit {unit}",
+    headings = ("For", "Quantity", "Location", "Period", "From", "To", f"Dose {unit}", f"Limit {unit}",
                 "Used", f"Remaining {unit}", "Level", f"Projected {unit}", "Missing")
     lines = [
-        (r["quantity"], LOCATION_LABELS[r["location"]], PERIOD_LABELS[r["period"]], r["start"],
+        (SERIES_LABELS[r["series"]], r["quantity"], LOCATION_LABELS[r["location"]], PERIOD_LABELS[r["period"]], r["start"],
          r["end"], amount(r["dose_msv"]), amount(r["limit_msv"]),
          "-" if r["fraction"] is None else f"{100 * r['fraction']:.1f} %",
          amount(r["remaining_msv"]), LEVEL_LABELS[Level(r["level"])], amount(r["projected_msv"]),
@@ -92,7 +93,7 @@ def _table(rows: list[dict], unit: str) -> str:
         for r in rows
     ]
     widths = [max(len(cell) for cell in column) for column in zip(headings, *lines)]
-    numeric = {5, 6, 7, 8, 10, 11}
+    numeric = {6, 7, 8, 9, 11, 12}
 
     def render(cells) -> str:
         return "  ".join(c.rjust(w) if i in numeric else c.ljust(w)

@@ -6,7 +6,7 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 
-from models.dose_codes import Level, Location, PeriodKind, Quantity, code, decode
+from models.dose_codes import Level, Location, PeriodKind, Quantity, Series, code, decode
 from models.dose_labels import LEVEL_LABELS, PERIOD_LABELS, dose_row_label
 from models.dosimetry import Investigation
 from models.evaluation import worst_levels
@@ -30,6 +30,9 @@ from webapp.slots import Attention, Severity, attention, navigation
 
 navigation.add("Investigations", "exposure.investigations", {Role.SAFETY_OFFICER}, order=60)
 
+# What a projection reaches, in words that read after "projected to reach".
+REACH = {code(Level.LEVEL_1): "level I", code(Level.LEVEL_2): "level II",
+         code(Level.LIMIT_REACHED): "the limit"}
 LEVEL_SEVERITY = {
     code(Level.LIMIT_REACHED): Severity.LIMIT_REACHED,
     code(Level.LEVEL_2): Severity.LEVEL_2,
@@ -85,24 +88,22 @@ def dose_levels() -> list[Attention]:
         return []
     names = dict(db.session.execute(sa.select(Person.id, Person.name).where(
         Person.id.in_(lab.person_ids[people].tolist()))).all())
-    projected_at = _projected_rows(evaluation, people)
     lines = []
-    for p, (s_proj, t_proj) in zip(people, projected_at):
+    for p, (s_proj, t_proj) in zip(people, _projected_rows(evaluation, people)):
         level = int(worst.level[p])
-        s, t = (worst.series[p], worst.period[p]) if level else (s_proj, t_proj)
-        row = _row_text(lab, p, s, t)
         name = names[int(lab.person_ids[p])]
-        reach = LEVEL_LABELS[decode(Level, [evaluation.projected_level[p, s_proj, t_proj]])[0]]
+        reach = s_proj >= 0 and int(evaluation.projected_level[p, s_proj, t_proj])
         if level:
-            label = LEVEL_LABELS[decode(Level, [level])[0]]
-            text = f"{name}: {row}, {label}"
-            if s_proj >= 0:
-                text += f"; projected to reach {reach} by the end of the {_period(t_proj)}"
-            severity = LEVEL_SEVERITY[level]
+            row = _row_text(lab, p, worst.series[p], worst.period[p])
+            text = f"{name}: {row}, {LEVEL_LABELS[decode(Level, [level])[0]]}"
+            if reach > level:
+                text += (f"; {_row_label(lab, p, s_proj, t_proj)} projected to reach "
+                         f"{REACH[reach]} by its end")
+            severity, label = LEVEL_SEVERITY[level], LEVEL_LABELS[decode(Level, [level])[0]]
         else:
-            label = "projected"
-            text = f"{name}: {row}, projected to reach {reach} by the end of the {_period(t)}"
-            severity = Severity.PROJECTED
+            text = (f"{name}: {_row_text(lab, p, s_proj, t_proj)}, projected to reach "
+                    f"{REACH[reach]} by the end of the {_period(t_proj)}")
+            severity, label = Severity.PROJECTED, "projected"
         lines.append(Attention(severity, text, person_exposure_path(int(lab.person_ids[p])),
                                label))
     return lines
@@ -124,13 +125,17 @@ def _period(t: int) -> str:
     return PERIOD_LABELS[decode(PeriodKind, [t])[0]]
 
 
+def _row_label(lab, p: int, s: int, t: int) -> str:
+    """'Hp(10) whole body, quarter' for one row of the arrays."""
+    totals = lab.totals
+    return dose_row_label(decode(Series, [s])[0], decode(Quantity, [totals.quantity[p, s]])[0],
+                          decode(Location, [totals.location[p, s, t]])[0],
+                          decode(PeriodKind, [t])[0])
+
+
 def _row_text(lab, p: int, s: int, t: int) -> str:
     """'Hp(10) whole body, quarter: 1.600 mSv' for one row of the arrays."""
-    totals = lab.totals
-    quantity = decode(Quantity, [totals.quantity[p, s]])[0]
-    location = decode(Location, [totals.location[p, s, t]])[0]
-    row = dose_row_label(quantity, location, decode(PeriodKind, [t])[0])
-    return f"{row}: {dose(float(totals.dose[p, s, t]))}"
+    return f"{_row_label(lab, p, s, t)}: {dose(float(lab.totals.dose[p, s, t]))}"
 
 
 @attention.add
