@@ -6,10 +6,11 @@ from datetime import date
 
 import numpy as np
 import sqlalchemy as sa
-from sqlalchemy.orm import Session, aliased
+from sqlalchemy.orm import Session
 
 from models import limit_presets
 from models.audit import AuditEvent
+from models.dose_versions import is_current
 from models.dosimetry import DoseRecord, PregnancyDeclaration
 from models.engine import DoseRecords, DoseTotals, Policies, compute_doses, person_index
 from models.evaluation import Evaluation, evaluate
@@ -18,13 +19,6 @@ from models.people import Person
 from models.settings import LabSettings, lab_settings
 
 NO_LIMIT_SET = limit_presets.LimitSet("none", "No limit set chosen", ())
-
-
-def current_records() -> sa.Select:
-    """The dose records in force: every record that no later version supersedes."""
-    newer = aliased(DoseRecord)
-    return sa.select(DoseRecord).where(
-        ~sa.exists().where(newer.supersedes_id == DoseRecord.id))
 
 
 # Read as the driver gives them, these skip a Python conversion per row (enum lookup, date parse).
@@ -36,13 +30,12 @@ def _record_columns(as_stored: bool = False) -> sa.Select:
 
     as_stored: the enum and date columns come back as stored (text; dates on PostgreSQL).
     """
-    newer = aliased(DoseRecord)
     columns = (DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location,
                DoseRecord.wear_start, DoseRecord.wear_end, DoseRecord.value_msv,
                DoseRecord.result, DoseRecord.mrd_msv)
     return sa.select(*(
         sa.type_coerce(c, sa.String) if as_stored and c.key in _AS_STORED else c for c in columns
-    )).where(~sa.exists().where(newer.supersedes_id == DoseRecord.id))
+    )).where(is_current())
 
 
 def read_records(session: Session, people: np.ndarray) -> DoseRecords:

@@ -102,6 +102,9 @@ class Instrument(IdMixin, Base):
     in_service: Mapped[bool] = mapped_column(default=True)
     out_of_service_reason: Mapped[str | None] = mapped_column(sa.Text)
     out_of_service_since: Mapped[datetime | None]
+    # None when a person took the instrument out; a short code (e.g. "check") when the logbook did
+    # it itself, so that only the matching event (a passing check) may bring it back.
+    out_of_service_cause: Mapped[str | None] = mapped_column(sa.String(32))
     retired_at: Mapped[datetime | None]
     checklist_template_id: Mapped[int | None] = mapped_column(
         sa.ForeignKey("checklist_template.id")
@@ -227,13 +230,16 @@ def retire_instrument(session: Session, instrument: Instrument) -> Instrument:
     return instrument
 
 
-def set_out_of_service(session: Session, instrument: Instrument, reason: str) -> Instrument:
-    """Stop new use of an instrument, saying why."""
+def set_out_of_service(
+    session: Session, instrument: Instrument, reason: str, cause: str | None = None
+) -> Instrument:
+    """Stop new use of an instrument, saying why; `cause` marks a hold the logbook itself set."""
     if not reason.strip():
         raise Invalid.one("reason", "Say why the instrument is out of service.")
     instrument.in_service = False
     instrument.out_of_service_reason = reason.strip()
     instrument.out_of_service_since = utcnow()
+    instrument.out_of_service_cause = cause
     session.flush()
     return instrument
 
@@ -245,6 +251,7 @@ def return_to_service(session: Session, instrument: Instrument) -> Instrument:
     instrument.in_service = True
     instrument.out_of_service_reason = None
     instrument.out_of_service_since = None
+    instrument.out_of_service_cause = None
     session.flush()
     return instrument
 

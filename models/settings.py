@@ -1,6 +1,9 @@
 """The lab's own settings: one row."""
 from __future__ import annotations
 
+from datetime import date, datetime
+from zoneinfo import ZoneInfo
+
 import sqlalchemy as sa
 from sqlalchemy.orm import Mapped, Session, mapped_column, relationship
 
@@ -46,3 +49,13 @@ def lab_settings(session: Session) -> LabSettings:
         session.add(settings)
         session.flush()
     return settings
+
+
+def lab_zone(session: Session) -> ZoneInfo:
+    """The lab's own time zone, in which due dates and days are counted."""
+    return ZoneInfo(lab_settings(session).timezone)
+
+
+def lab_date(session: Session, moment: datetime) -> date:
+    """The lab's calendar date of a UTC moment."""
+    return moment.astimezone(lab_zone(session)).date()

@@ -176,10 +176,22 @@ def authorise(app):
 
 
 @pytest.fixture
-def login(client):
-    """Log the test client in as a person."""
+def login(app):
+    """Log a fresh client in as a person; several people can act in one test.
+
+    Test requests share the test's app context, so the login manager's user cached in `g` would
+    otherwise carry over from one client to the next.
+    """
+    from flask import g
+    from flask.testing import FlaskClient
+
+    class PersonClient(FlaskClient):
+        def open(self, *args, **kwargs):
+            g.pop("_login_user", None)
+            return super().open(*args, **kwargs)
 
     def log_in(person):
+        client = PersonClient(app, app.response_class, use_cookies=True)
         response = client.post("/login", data={"login": person.login, "password": PASSWORD})
         assert response.status_code == 302, "login failed"
         return client
@@ -277,24 +289,101 @@ def page(browser):
     context.close()
 
 
-# --- exposure factories ---
+# --- doses factories ---
 @pytest.fixture
-def add_dose(app):
-    """Factory: a committed measured dose record (Hp(10) whole body unless told otherwise)."""
-    from models.dosimetry import DoseRecord
+def make_dosimeter(app):
+    """Factory: a committed dosimeter issued to a person (whole body, monthly, unless told)."""
+    from models.dosimeters import issue_dosimeter
+    from models.dosimetry import DosimeterKind, ExchangeCycle
 
-    def make(person, value_msv: float, wear_start: date, wear_end: date, *, quantity="Hp(10)",
-             location="whole_body", result="measured", mrd_msv=None):
-        record = DoseRecord(person_id=person.id, wear_start=wear_start, wear_end=wear_end,
-                            quantity=quantity, location=location, value_msv=value_msv,
-                            result=result, mrd_msv=mrd_msv, source="dosimetry_report")
-        db.session.add(record)
+    counter = iter(range(1, 100_000))
+
+    def make(wearer, *, serial: str | None = None, kind=DosimeterKind.WHOLE_BODY, hand=None,
+             issued_on: date = date(2025, 1, 1), exchange_cycle=ExchangeCycle.MONTHLY):
+        dosimeter = issue_dosimeter(db.session, serial=serial or f"D-{next(counter):05d}", kind=kind,
+                                    hand=hand, wearer_id=wearer.id, issued_on=issued_on,
+                                    exchange_cycle=exchange_cycle)
+        db.session.commit()
+        return dosimeter
+
+    return make
+
+
+@pytest.fixture
+def make_dose(app):
+    """Factory: a committed dose record (Hp(10) whole body, measured, in mSv, unless told)."""
+    from models.dose_codes import Location, Quantity, Result
+    from models.dose_ops import DoseEntry, add_dose_record
+
+    def make(person, *, wear_start: date = date(2025, 1, 1), wear_end: date = date(2025, 1, 31),
+             value: float | None = 0.1, **values):
+        entry = DoseEntry(**{"person_id": person.id, "wear_start": wear_start, "wear_end": wear_end,
+                             "quantity": Quantity.HP10, "location": Location.WHOLE_BODY,
+                             "result": Result.MEASURED, "value": value, **values})
+        record = add_dose_record(db.session, entry)
         db.session.commit()
         return record
 
     return make
 
 
+# --- logbook factories ---
+@pytest.fixture
+def make_session_entry(app):
+    """Factory: a committed session written straight to the table (no rules applied)."""
+    from datetime import datetime, timezone
+
+    from models.sessions import InstrumentSession
+
+    def make(instrument, operator, *, started_at: datetime | None = None,
+             ended_at: datetime | None = None, kv: float = 40.0, ma: float = 40.0,
+             beam_on_minutes: float | None = None):
+        started_at = started_at or datetime.now(timezone.utc) - timedelta(hours=1)
+        entry = InstrumentSession(instrument_id=instrument.id, operator_id=operator.id,
+                                  started_at=started_at, ended_at=ended_at, kv=kv, ma=ma,
+                                  beam_on_minutes=beam_on_minutes, pre_use_checks_confirmed=True)
+        db.session.add(entry)
+        db.session.commit()
+        return entry
+
+    return make
+
+
+@pytest.fixture
+def api_token(app):
+    """Factory: a live API token (the secret) for an instrument."""
+    from models.api_tokens import create_token
+
+    def make(instrument):
+        _row, token = create_token(db.session, instrument)
+        db.session.commit()
+        return token
+
+    return make
+
+
+# --- checks factories ---
+@pytest.fixture
+def record_a_check(app):
+    """Factory: a committed safety-device check; the named item positions fail, the rest pass."""
+    from models.base import utcnow
+    from models.check_ops import Answer, record_check
+    from models.checklists import active_items, checklist_for
+    from models.checks import ItemResult
+
+    def make(instrument, person, *, fail: tuple[int, ...] = (), performed_at=None):
+        items = active_items(checklist_for(db.session, instrument))
+        answers = {item.id: Answer(ItemResult.FAIL, "Does not work.") if n in fail
+                   else Answer(ItemResult.PASS) for n, item in enumerate(items)}
+        check = record_check(db.session, instrument, person, performed_at or utcnow(), answers,
+                             None, None, utcnow())
+        db.session.commit()
+        return check
+
+    return make
+
+
+# --- exposure factories ---
 @pytest.fixture
 def use_limit_set(app):
     """Factory: install a shipped preset and put it in force."""

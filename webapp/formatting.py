@@ -1,7 +1,7 @@
 """Conversions at the edge: UTC to the lab's time, mSv to the display unit."""
 from __future__ import annotations
 
-from datetime import date, datetime
+from datetime import date, datetime, timezone
 from zoneinfo import ZoneInfo
 
 from flask import Flask, g
@@ -61,3 +61,8 @@ def install(app: Flask) -> None:
         from webapp.slots import navigation
 
         return {"navigation": navigation, "CAUTION": CAUTION, "lab_today": lab_today, "lab_zone_name": lambda: settings().timezone}
+
+
+def from_local(naive: datetime) -> datetime:
+    """A wall-clock time entered in the lab's time zone, as aware UTC."""
+    return naive.replace(tzinfo=lab_zone()).astimezone(timezone.utc)

@@ -1,13 +1,13 @@
 """Investigations name the series that crossed (lens and skin can share Hp(0.07) records).
 
 Revision ID: exposure_1
-Revises: 0001
+Revises: 0002
 """
 import sqlalchemy as sa
 from alembic import op
 
 revision = "exposure_1"
-down_revision = "0001"
+down_revision = "0002"
 branch_labels = None
 depends_on = None
 

@@ -24,6 +24,8 @@ from models.sessions import InstrumentSession
 from models.surveys import SurveyTask
 
 ON = date(2026, 11, 30)
+OCTOBER = {"wear_start": date(2026, 10, 1), "wear_end": date(2026, 10, 31)}
+NOVEMBER = {"wear_start": date(2026, 11, 1), "wear_end": date(2026, 11, 28)}
 UTC = ZoneInfo("UTC")
 
 
@@ -33,10 +35,10 @@ def _raise(session, on=ON):
     return new
 
 
-def test_a_crossing_is_raised_once(session, make_person, add_dose, use_limit_set):
+def test_a_crossing_is_raised_once(session, make_person, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person()
-    add_dose(person, 1.5, date(2026, 10, 1), date(2026, 10, 31))
+    make_dose(person, value=1.5, **OCTOBER)
     new = _raise(session)
     # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md, investigation levels)
     assert [(i.quantity, i.location, i.period, i.period_start, i.level) for i in new] == [
@@ -47,45 +49,45 @@ def test_a_crossing_is_raised_once(session, make_person, add_dose, use_limit_set
 
 
 def test_a_jump_raises_the_level_reached_and_a_later_rise_raises_again(
-        session, make_person, add_dose, use_limit_set):
+        session, make_person, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person()
-    add_dose(person, 1.5, date(2026, 10, 1), date(2026, 10, 31))
+    make_dose(person, value=1.5, **OCTOBER)
     assert [i.level for i in _raise(session)] == ["level_1"]
-    add_dose(person, 3.0, date(2026, 11, 1), date(2026, 11, 30))
+    make_dose(person, value=3.0, wear_start=date(2026, 11, 1), wear_end=date(2026, 11, 30))
     # common practice: 3.75 mSv Hp(10) in a quarter is level II (REFERENCE.md)
     assert [i.level for i in _raise(session)] == ["level_2"]
     other = make_person()
-    add_dose(other, 4.0, date(2026, 10, 1), date(2026, 10, 31))
+    make_dose(other, value=4.0, **OCTOBER)
     assert [(i.person_id, i.level) for i in _raise(session)] == [(other.id, "level_2")]
 
 
 def test_a_crossing_under_a_higher_investigation_is_not_raised(
-        session, make_person, add_dose, use_limit_set):
+        session, make_person, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person()
-    record = add_dose(person, 4.0, date(2026, 10, 1), date(2026, 10, 31))
+    record = make_dose(person, value=4.0, **OCTOBER)
     assert [i.level for i in _raise(session)] == ["level_2"]
     record.value_msv = 2.0  # as if amended down: the level II review covers level I
     session.commit()
     assert _raise(session) == []
 
 
-def test_both_hands_series_raise_one_investigation(session, make_person, add_dose, use_limit_set):
+def test_both_hands_series_raise_one_investigation(session, make_person, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person()
-    add_dose(person, 40.0, date(2026, 10, 1), date(2026, 10, 31), quantity="Hp(0.07)",
-             location="right_hand")
+    make_dose(person, value=40.0, **OCTOBER, quantity="Hp(0.07)",
+              location="right_hand")
     # common practice scaled by the limit ratio: 3.75 x 500 / 50 = 37.5 mSv is level II for a hand
     assert [(i.series, i.location, i.period, i.level) for i in _raise(session)] == [
         ("right_hand", "right_hand", "quarter", "level_2")]
 
 
 def test_a_lens_assessed_from_the_body_badge_is_raised_as_the_lens(
-        session, make_person, add_dose, use_limit_set):
+        session, make_person, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person()
-    add_dose(person, 2.0, date(2026, 10, 1), date(2026, 10, 31), quantity="Hp(0.07)")
+    make_dose(person, value=2.0, **OCTOBER, quantity="Hp(0.07)")
     (item,) = _raise(session)
     # common practice scaled: the lens (50 mSv a year, ICRP 2011 statement) has level I at
     # 1.25 mSv a quarter; the skin (500 mSv, ICRP 103 Table 6) only at 12.5 mSv.
@@ -126,14 +128,14 @@ def _use(session, person, instrument, day: int):
 
 
 def test_a_rise_asks_for_surveys_of_the_instruments_used(
-        session, make_person, make_instrument, authorise, add_dose, use_limit_set):
+        session, make_person, make_instrument, authorise, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person(name="Ada Example")
     used, also_used, unused = make_instrument(), make_instrument(), make_instrument()
     authorise(person, used)
     _use(session, person, used, 3)
     _use(session, person, also_used, 20)
-    add_dose(person, 1.5, date(2026, 11, 1), date(2026, 11, 28))
+    make_dose(person, value=1.5, **NOVEMBER)
     new = _raise(session)
     tasks = raise_survey_tasks(session, new, ON, UTC)
     session.commit()
@@ -144,25 +146,25 @@ def test_a_rise_asks_for_surveys_of_the_instruments_used(
         assert "Ada" not in task.reason and "mSv" not in task.reason  # operators see tasks
     assert unused.id not in {t.instrument_id for t in tasks}
     # An open dose-rise task is not doubled by the next crossing.
-    add_dose(person, 3.0, date(2026, 11, 1), date(2026, 11, 28))
+    make_dose(person, value=3.0, wear_start=date(2026, 11, 29), wear_end=date(2026, 11, 30))
     assert raise_survey_tasks(session, _raise(session), ON, UTC) == []
 
 
 def test_no_survey_task_for_someone_not_authorised(
-        session, make_person, make_instrument, add_dose, use_limit_set):
+        session, make_person, make_instrument, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person()
     _use(session, person, make_instrument(), 3)
-    add_dose(person, 1.5, date(2026, 11, 1), date(2026, 11, 28))
+    make_dose(person, value=1.5, **NOVEMBER)
     assert raise_survey_tasks(session, _raise(session), ON, UTC) == []
     assert session.scalar(sa.select(sa.func.count()).select_from(SurveyTask)) == 0
 
 
-def test_review_then_sign_off_then_read_only(session, make_person, add_dose, use_limit_set):
+def test_review_then_sign_off_then_read_only(session, make_person, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person()
     officer = make_person(roles=("safety_officer",))
-    add_dose(person, 1.5, date(2026, 10, 1), date(2026, 10, 31))
+    make_dose(person, value=1.5, **OCTOBER)
     (item,) = _raise(session)
     record_review(session, item, questions="Alignment work?", findings="", actions=None)
     with pytest.raises(Invalid) as refused:

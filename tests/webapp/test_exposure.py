@@ -1,4 +1,4 @@
-"""`flask exposure show` and `review`, investigation pages, and the dose lines of the attention list."""
+"""`flask exposure show` and `review`, investigation pages, the dose lines of the attention list."""
 import json
 from datetime import date, datetime
 from zoneinfo import ZoneInfo
@@ -13,6 +13,7 @@ from models.settings import lab_settings
 from webapp.slots import Attention, Severity, attention
 
 ON = date(2026, 11, 15)  # day 46 of the 92-day fourth quarter: half of it has gone
+OCTOBER = {"wear_start": date(2026, 10, 1), "wear_end": date(2026, 10, 31)}
 KEYS = {"quantity", "location", "period", "start", "end", "dose_msv", "limit_msv", "fraction",
         "level", "projected_msv"}
 
@@ -32,11 +33,12 @@ def _row(rows, quantity, location, period):
                 (quantity, location, period))
 
 
-def test_show_json_splits_a_wear_period_across_the_new_year(app, make_person, add_dose,
+def test_show_json_splits_a_wear_period_across_the_new_year(app, make_person, make_dose,
                                                             use_limit_set):
     use_limit_set("icrp103")
     person = make_person("ada")
-    add_dose(person, 3.1, date(2025, 12, 15), date(2026, 1, 14))  # 31 days, both ends inclusive
+    # 31 days, both ends inclusive
+    make_dose(person, value=3.1, wear_start=date(2025, 12, 15), wear_end=date(2026, 1, 14))
     first_year = _row(_rows(app, "ada", "2025-12-31"), "Hp(10)", "whole_body", "year")
     assert first_year["start"] == "2025-01-01" and first_year["end"] == "2025-12-31"
     assert first_year["dose_msv"] == pytest.approx(3.1 * 17 / 31)  # 15-31 December: 17 days
@@ -57,19 +59,19 @@ def test_show_json_splits_a_wear_period_across_the_new_year(app, make_person, ad
                                            "five_year_block", "rolling_five_years"}
 
 
-def test_show_json_gives_the_level_reached(app, make_person, add_dose, use_limit_set):
+def test_show_json_gives_the_level_reached(app, make_person, make_dose, use_limit_set):
     use_limit_set("icrp103")
-    add_dose(make_person("ada"), 1.5, date(2026, 10, 1), date(2026, 10, 31))
+    make_dose(make_person("ada"), value=1.5, **OCTOBER)
     quarter = _row(_rows(app, "ada", "2026-10-31"), "Hp(10)", "whole_body", "quarter")
     # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md, investigation levels)
     assert quarter["level"] == "level_1"
     assert quarter["dose_msv"] == pytest.approx(1.5)
 
 
-def test_show_prints_a_table_with_the_policies_in_force(app, make_person, add_dose,
+def test_show_prints_a_table_with_the_policies_in_force(app, make_person, make_dose,
                                                         use_limit_set):
     use_limit_set("icrp103")
-    add_dose(make_person("ada", name="Ada Example"), 1.5, date(2026, 10, 1), date(2026, 10, 31))
+    make_dose(make_person("ada", name="Ada Example"), value=1.5, **OCTOBER)
     result = _show(app, "--person", "ada", "--on", "2026-10-31")
     assert result.exit_code == 0, result.output
     text = result.output
@@ -113,12 +115,12 @@ class TestReview:
         return mail_app_config
 
     def test_each_new_investigation_mails_the_person_and_the_officer_once(
-            self, app, session, smtp_server, make_person, add_dose, use_limit_set):
+            self, app, session, smtp_server, make_person, make_dose, use_limit_set):
         _, mailbox = smtp_server
         use_limit_set("icrp103")
         make_person("rso", roles=(Role.SAFETY_OFFICER,), email="rso@example.org")
         person = make_person("ada", name="Ada Example", email="ada@example.org")
-        add_dose(person, 1.5, date(2026, 10, 1), date(2026, 10, 31))
+        make_dose(person, value=1.5, **OCTOBER)
         runner = app.test_cli_runner()
         result = runner.invoke(args=["exposure", "review", "--on", "2026-11-30"])
         assert result.exit_code == 0, result.output
@@ -136,14 +138,14 @@ class TestReview:
 
 
 @pytest.fixture
-def crossing(session, make_person, add_dose, use_limit_set):
+def crossing(session, make_person, make_dose, use_limit_set):
     """An open level I investigation of Ada's quarter."""
     from models.exposure import evaluate_lab
     from models.investigations import raise_investigations
 
     use_limit_set("icrp103")
     person = make_person("ada", name="Ada Example")
-    add_dose(person, 1.5, date(2026, 10, 1), date(2026, 10, 31))
+    make_dose(person, value=1.5, **OCTOBER)
     (item,) = raise_investigations(session, evaluate_lab(session, ON))
     session.commit()
     return item
@@ -195,17 +197,17 @@ def test_review_and_sign_off(session, make_person, login, crossing):
 
 
 def test_the_attention_list_puts_doses_first_in_order_of_severity(
-        session, monkeypatch, make_person, login, add_dose, use_limit_set):
+        session, monkeypatch, make_person, login, make_dose, use_limit_set):
     monkeypatch.setattr("webapp.exposure.views.lab_today", lambda: ON)
     use_limit_set("icrp103")
-    october = (date(2026, 10, 1), date(2026, 10, 31))
     # ICRP Publication 103, Table 6: 50 mSv in a year; common practice quarterly levels 1.25 / 3.75
     for login_name, value in [("projected", 1.0), ("one", 1.5), ("two", 4.0), ("limit", 60.0),
                               ("calm", 0.1)]:
-        add_dose(make_person(login_name, name=f"Name {login_name}"), value, *october)
+        make_dose(make_person(login_name, name=f"Name {login_name}"), value=value, **OCTOBER)
     session.add(Investigation(person_id=make_person("old", name="Name old").id,
-                              series="effective", quantity="Hp(10)", location="whole_body", period="quarter",
-                              period_start=date(2026, 7, 1), level="level_1", dose_msv=1.3))
+                              series="effective", quantity="Hp(10)", location="whole_body",
+                              period="quarter", period_start=date(2026, 7, 1), level="level_1",
+                              dose_msv=1.3))
     session.commit()
     other = Attention(Severity.OUT_OF_SERVICE, "Name instrument out of service", "/x", "")
     monkeypatch.setattr(attention, "sources", [lambda: [other], *attention.sources])
@@ -223,7 +225,7 @@ def test_the_attention_list_puts_doses_first_in_order_of_severity(
 
 
 def test_the_home_page_reads_the_records_only_when_they_change(
-        session, monkeypatch, make_person, login, add_dose):
+        session, monkeypatch, make_person, login, make_dose):
     calls = []
     real = exposure.evaluate_lab
     monkeypatch.setattr(exposure, "evaluate_lab", lambda *a: calls.append(a) or real(*a))
@@ -233,6 +235,6 @@ def test_the_home_page_reads_the_records_only_when_they_change(
     client.get("/")
     client.get("/")
     assert len(calls) == 1
-    add_dose(person, 1.0, date(2026, 10, 1), date(2026, 10, 31))
+    make_dose(person, value=1.0, **OCTOBER)
     client.get("/")
     assert len(calls) == 2

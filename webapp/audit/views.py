@@ -12,8 +12,10 @@ from webapp.audit import bp
 from webapp.extensions import db
 
 PAGE_SIZE = 100
-# Dose and pregnancy details stay with the safety officer, even in the trail.
-DOSE_ENTITIES = frozenset({"dose_record", "pregnancy_declaration", "investigation"})
+# Dose and pregnancy details stay with the safety officer, even in the trail; dosimeters too,
+# since an abdomen dosimeter issued to someone hints at a pregnancy.
+DOSE_ENTITIES = frozenset({"dose_record", "pregnancy_declaration", "investigation", "dosimeter",
+                           "import_batch"})
 
 
 @bp.route("/audit/")

@@ -1,0 +1,150 @@
+"""Import of a dosimetry report: every row checked, all rows or none, the same file only once."""
+import time
+from datetime import date, timedelta
+
+import pytest
+import sqlalchemy as sa
+
+from models.dose_import import PRODUCT_LAYOUT, check_report, commit_report, layout_of, save_mapping
+from models.dosimetry import DoseRecord, DosimeterKind, Hand
+from models.errors import Invalid
+
+HEADER = "person,dosimeter,wear_start,wear_end,quantity,location,value,unit,result,mrd\n"
+
+
+def report(rows: list[str]) -> bytes:
+    """A CSV file in the product's own layout."""
+    return (HEADER + "".join(r + "\n" for r in rows)).encode()
+
+
+def thousand_rows(people: list[str]) -> list[str]:
+    """1,000 monthly Hp(10) results spread over the given people."""
+    rows = []
+    for i in range(1000):
+        login = people[i % len(people)]
+        month = i // len(people)
+        start = date(2020 + month // 12, month % 12 + 1, 1)
+        end = (start + timedelta(days=32)).replace(day=1) - timedelta(days=1)
+        rows.append(f"{login},,{start},{end},Hp(10),whole_body,{(i % 7) * 0.05:.2f},mSv,measured,")
+    return rows
+
+
+def count(session) -> int:
+    """Dose records on file."""
+    return session.scalar(sa.select(sa.func.count()).select_from(DoseRecord))
+
+
+def test_one_bad_row_among_a_thousand_blocks_the_file(session, make_person):
+    logins = [make_person(f"w{i}").login for i in range(20)]
+    rows = thousand_rows(logins)
+    bad = rows[417].split(",")
+    bad[6] = "-0.25"
+    rows[417] = ",".join(bad)
+
+    started = time.perf_counter()
+    preview = check_report(session, report(rows), PRODUCT_LAYOUT, "service.csv")
+    assert time.perf_counter() - started < 2.0  # checking 1,000 rows must stay interactive
+    assert [r.line for r in preview.bad_rows] == [419]  # header is line 1, row 417 is line 419
+    assert preview.problems() == ["Line 419: Value: A dose cannot be negative (-0.25 mSv)."]
+    with pytest.raises(Invalid):
+        commit_report(session, preview)
+    assert count(session) == 0
+
+    bad[6] = "0.25"
+    rows[417] = ",".join(bad)
+    data = report(rows)
+    batch = commit_report(session, check_report(session, data, PRODUCT_LAYOUT, "service.csv"))
+    session.commit()
+    assert batch.row_count == 1000 and count(session) == 1000
+
+    again = check_report(session, data, PRODUCT_LAYOUT, "service.csv")
+    assert again.earlier.id == batch.id
+    assert commit_report(session, again) is None
+    # The same rows in a file that differs by a byte are caught row by row.
+    renamed = check_report(session, data + b"\n", PRODUCT_LAYOUT, "copy.csv")
+    assert renamed.earlier is None and len(renamed.bad_rows) == 1000
+    assert "already exists" in renamed.bad_rows[0].errors["duplicate"]
+    assert count(session) == 1000
+
+
+@pytest.mark.parametrize("row, field, words", [
+    ("nobody,,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,", "person", "Unknown wearer"),
+    (",NOPE,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,", "dosimeter", "Unknown dosimeter"),
+    ("ann,,2026-01-32,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,", "wear_start", "not a date"),
+    ("ann,,2026-02-01,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,", "wear_end", "before it starts"),
+    ("ann,,2026-01-01,2026-01-31,H*(10),whole_body,0.1,mSv,measured,", "quantity", "Unknown quantity"),
+    ("ann,,2026-01-01,2026-01-31,Hp(10),torso,0.1,mSv,measured,", "location", "Unknown location"),
+    ("ann,,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,rem,measured,", "unit", "Unknown unit"),
+    ("ann,,2026-01-01,2026-01-31,Hp(10),whole_body,abc,mSv,measured,", "value", "not a number"),
+    ("ann,,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,mSv,fine,", "result", "Unknown result"),
+    ("ann,,2026-01-01,2026-01-31,Hp(10),whole_body,,mSv,below_mrd,", "mrd", "minimum reportable"),
+    ("ann,,2026-01-01,2026-01-31,Hp(3),left_hand,0.1,mSv,measured,", "location", "not recorded at"),
+    ("ann,R-1,2026-01-01,2026-01-31,Hp(0.07),right_hand,0.1,mSv,measured,", "location", "left hand ring"),
+    ("bob,R-1,2026-01-01,2026-01-31,Hp(0.07),left_hand,0.1,mSv,measured,", "dosimeter", "issued to"),
+    (",,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,", "person", "login or the dosimeter"),
+])
+def test_each_row_error_names_its_reason(session, make_person, make_dosimeter, row, field, words):
+    ann = make_person("ann")
+    make_person("bob")
+    make_dosimeter(ann, serial="R-1", kind=DosimeterKind.RING, hand=Hand.LEFT)
+    preview = check_report(session, report([row]), PRODUCT_LAYOUT, "x.csv")
+    assert words in preview.bad_rows[0].errors[field]
+
+
+def test_good_rows_of_every_kind(session, make_person, make_dosimeter):
+    ann = make_person("ann")
+    make_dosimeter(ann, serial="R-1", kind=DosimeterKind.RING, hand=Hand.LEFT)
+    rows = [
+        ",R-1,2026-01-01,2026-01-31,Hp(0.07),left_hand,12,mrem,measured,",   # wearer from the serial
+        "ann,,2026-01-01,2026-01-31,Hp(10),whole_body,,mrem,below_mrd,1",
+        "ann,,2026-01-01,2026-01-31,Hp(3),eye,,mSv,lost,",
+        "ann,,2026-01-01,2026-01-31,hp(0.07),Whole Body,,mSv,unused,",
+    ]
+    preview = check_report(session, report(rows), PRODUCT_LAYOUT, "x.csv")
+    assert preview.ready, preview.problems()
+    commit_report(session, preview)
+    ring, below = session.scalars(sa.select(DoseRecord).order_by(DoseRecord.id)).all()[:2]
+    assert ring.value_msv == pytest.approx(0.12)  # 12 mrem = 0.12 mSv (10 CFR 20.1004)
+    assert below.mrd_msv == pytest.approx(0.01)   # an MRD in the row's unit: 1 mrem = 0.01 mSv
+
+
+def test_a_repeated_row_within_the_file(session, make_person):
+    make_person("ann")
+    row = "ann,,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,"
+    preview = check_report(session, report([row, row]), PRODUCT_LAYOUT, "x.csv")
+    assert [r.line for r in preview.bad_rows] == [3]
+    assert "Repeats line 2" in preview.bad_rows[0].errors["duplicate"]
+
+
+@pytest.mark.parametrize("data, words", [
+    (b"", "empty"),
+    (HEADER.encode(), "no rows"),
+    (b"who,when\nann,2026\n", "no column"),
+    ("person\n\xe9".encode("latin-1"), "UTF-8"),
+])
+def test_file_errors(session, data, words):
+    preview = check_report(session, data, PRODUCT_LAYOUT, "x.csv")
+    assert words in " ".join(preview.file_errors) and not preview.ready
+
+
+def test_a_saved_mapping_reads_a_service_layout(session, make_person, make_dosimeter):
+    make_dosimeter(make_person("ann"), serial="B-77")
+    mapping = save_mapping(session, name="Service A", date_format="%d.%m.%Y", default_unit="mrem",
+                           columns={"dosimeter": "Badge", "wear_start": "From", "wear_end": "To",
+                                    "quantity": "Qty", "location": "Where", "value": "Dose",
+                                    "person": ""})
+    data = "Badge;From;To;Qty;Where;Dose\nB-77;01.02.2026;28.02.2026;Hp(10);whole_body;30\n".encode()
+    preview = check_report(session, data, layout_of(mapping), "a.csv")
+    assert preview.ready, preview.problems()
+    commit_report(session, preview)
+    record = session.scalar(sa.select(DoseRecord))
+    assert (record.wear_start, record.value_msv) == (date(2026, 2, 1), pytest.approx(0.3))
+    bad = check_report(session, data.replace(b"01.02.2026", b"2026-02-01"), layout_of(mapping), "b.csv")
+    assert "DD.MM.YYYY" in bad.bad_rows[0].errors["wear_start"]
+
+
+def test_mapping_refusals(session):
+    with pytest.raises(Invalid) as caught:
+        save_mapping(session, name=" ", columns={"value": "Dose"}, date_format="%Q", default_unit="Sv")
+    assert set(caught.value.errors) == {"name", "person", "wear_start", "wear_end", "quantity",
+                                        "location", "date_format", "default_unit"}

@@ -1,0 +1,128 @@
+"""The OpenAPI 3 description of API v1, served at /api/v1/openapi.json."""
+from __future__ import annotations
+
+_TIME = {"type": "string", "format": "date-time",
+         "description": "ISO 8601 with an offset, e.g. 2026-03-01T09:30:00Z"}
+
+_ENTRY = {
+    "type": "object",
+    "required": ["operator", "kv", "ma", "pre_use_checks_confirmed"],
+    "properties": {
+        "operator": {"type": "string", "description": "Login of the person at the instrument."},
+        "kv": {"type": "number", "exclusiveMinimum": 0, "description": "Tube voltage, kV; at most the rating."},
+        "ma": {"type": "number", "exclusiveMinimum": 0, "description": "Tube current, mA; at most the rating; kV x mA at most the rated power."},
+        "purpose": {"type": "string", "maxLength": 300},
+        "pre_use_checks_confirmed": {"type": "boolean", "description": "Warning light and shutter indicators seen working; must be true."},
+        "dosimeter_worn": {"type": "boolean"},
+        "dosimeter": {"type": "string", "description": "Serial of the operator's dosimeter."},
+        "alignment": {"type": "boolean"},
+        "configuration_changed": {"type": "boolean"},
+        "configuration_change": {"type": "string", "description": "Required when configuration_changed is true."},
+        "notes": {"type": "string"},
+        "caution_acknowledged": {"type": "boolean", "description": "Required true for alignment work or under an active bypass permit: the operator read the caution about the primary beam and ring dosimetry."},
+        "started_at": {**_TIME, "description": "Defaults to now when opening; not in the future."},
+    },
+}
+
+_FINISHED = {
+    **_ENTRY,
+    "required": [*_ENTRY["required"], "started_at", "ended_at"],
+    "properties": {**_ENTRY["properties"], "ended_at": {**_TIME, "description": "After the start, not in the future."},
+                   "beam_on_minutes": {"type": "number", "minimum": 0, "description": "At most the session's length; defaults to it."}},
+}
+
+_CLOSE = {"type": "object", "properties": {
+    "ended_at": {**_TIME, "description": "Defaults to now."},
+    "beam_on_minutes": {"type": "number", "minimum": 0, "description": "Defaults to the session's length."}}}
+
+_SESSION = {"type": "object", "properties": {
+    "id": {"type": "integer"}, "instrument": {"type": "string"}, "operator": {"type": "string"},
+    "started_at": _TIME, "ended_at": {**_TIME, "nullable": True},
+    "kv": {"type": "number"}, "ma": {"type": "number"}, "beam_on_minutes": {"type": "number", "nullable": True},
+    "purpose": {"type": "string"}, "pre_use_checks_confirmed": {"type": "boolean"},
+    "dosimeter_worn": {"type": "boolean"}, "dosimeter": {"type": "string", "nullable": True},
+    "alignment": {"type": "boolean"}, "configuration_changed": {"type": "boolean"},
+    "configuration_change": {"type": "string", "nullable": True}, "notes": {"type": "string", "nullable": True},
+    "bypass_permit_id": {"type": "integer", "nullable": True, "description": "Set when a bypass permit was active at the start."},
+    "source": {"type": "string", "enum": ["form", "api", "import"]},
+    "figures": {"type": "object", "properties": {
+        "power_w": {"type": "number"}, "energy_kwh": {"type": "number", "nullable": True},
+        "max_photon_energy_kev": {"type": "number"}, "lambda_min_angstrom": {"type": "number"},
+        "k_edge_kev": {"type": "number", "nullable": True}, "k_lines_excited": {"type": "boolean", "nullable": True},
+        "k_lines_note": {"type": "string", "nullable": True}}},
+}}
+
+_PROBLEM = {"type": "object", "description": "RFC 9457 problem details.", "properties": {
+    "type": {"type": "string"}, "title": {"type": "string"}, "status": {"type": "integer"},
+    "detail": {"type": "string"},
+    "errors": {"type": "object", "additionalProperties": {"type": "string"},
+               "description": "Each refused field with its message."}}}
+
+
+def _problem(description: str) -> dict:
+    """A response carrying a problem document."""
+    return {"description": description,
+            "content": {"application/problem+json": {"schema": {"$ref": "#/components/schemas/Problem"}}}}
+
+
+def _json(description: str, schema: dict) -> dict:
+    """A JSON response."""
+    return {"description": description, "content": {"application/json": {"schema": schema}}}
+
+
+def _body(ref: str) -> dict:
+    """A required JSON request body."""
+    return {"required": True, "content": {"application/json": {"schema": {"$ref": ref}}}}
+
+
+_ERRORS = {"401": _problem("Missing, unknown or revoked token."),
+           "422": _problem("Refused by a rule; nothing written."),
+           "429": _problem("Too many requests from this token.")}
+_SESSION_REF = {"$ref": "#/components/schemas/Session"}
+
+
+def document() -> dict:
+    """The whole OpenAPI document."""
+    return {
+        "openapi": "3.0.3",
+        "info": {"title": "X-ray safety logbook API", "version": "1",
+                 "description": "For instrument PCs: each token belongs to one instrument. "
+                                "The same rules apply as in the browser forms."},
+        "servers": [{"url": "/api/v1"}],
+        "security": [{"bearer": []}],
+        "paths": {
+            "/sessions": {
+                "get": {"summary": "Sessions of the token's instrument, newest first",
+                        "parameters": [
+                            {"name": "from", "in": "query", "schema": _TIME},
+                            {"name": "to", "in": "query", "schema": _TIME},
+                            {"name": "limit", "in": "query", "schema": {"type": "integer", "minimum": 1, "maximum": 1000, "default": 100}}],
+                        "responses": {"200": _json("Sessions", {"type": "object", "properties": {
+                            "instrument": {"type": "string"}, "sessions": {"type": "array", "items": _SESSION_REF}}}),
+                            **_ERRORS}},
+                "post": {"summary": "Open a session", "requestBody": _body("#/components/schemas/OpenSession"),
+                         "responses": {"201": _json("Opened", _SESSION_REF), "400": _problem("Not a JSON object."), **_ERRORS}},
+            },
+            "/sessions/finished": {
+                "post": {"summary": "Log a session that already ended",
+                         "requestBody": _body("#/components/schemas/FinishedSession"),
+                         "responses": {"201": _json("Logged", _SESSION_REF), "400": _problem("Not a JSON object."), **_ERRORS}},
+            },
+            "/sessions/{session_id}/close": {
+                "post": {"summary": "End an open session",
+                         "parameters": [{"name": "session_id", "in": "path", "required": True, "schema": {"type": "integer"}}],
+                         "requestBody": _body("#/components/schemas/CloseSession"),
+                         "responses": {"200": _json("Ended", _SESSION_REF), "404": _problem("No such session on this instrument."), **_ERRORS}},
+            },
+            "/openapi.json": {
+                "get": {"summary": "This document", "security": [],
+                        "responses": {"200": {"description": "OpenAPI 3 document", "content": {"application/json": {}}}}},
+            },
+        },
+        "components": {
+            "securitySchemes": {"bearer": {"type": "http", "scheme": "bearer",
+                                           "description": "Token made by an admin or `flask instruments token NAME`."}},
+            "schemas": {"OpenSession": _ENTRY, "FinishedSession": _FINISHED, "CloseSession": _CLOSE,
+                        "Session": _SESSION, "Problem": _PROBLEM},
+        },
+    }

@@ -1,0 +1,55 @@
+"""The admin makes and revokes instrument PC tokens from the instrument page."""
+from __future__ import annotations
+
+from flask import abort, flash, redirect, render_template, url_for
+from flask_login import current_user
+
+from models import audit
+from models.api_tokens import create_token, revoke_token, tokens_of
+from models.errors import Invalid
+from models.instruments import ApiToken, Instrument
+from models.people import Role
+from webapp.access import roles_required
+from webapp.api import bp
+from webapp.extensions import db
+from webapp.slots import instrument_sections
+
+
+@instrument_sections.add("api/_tokens.html", roles={Role.ADMIN}, order=90)
+def _tokens(instrument: Instrument) -> dict:
+    """The instrument's API tokens, for the admin."""
+    return {"instrument": instrument, "tokens": tokens_of(db.session, instrument)}
+
+
+@bp.route("/instruments/<int:instrument_id>/tokens", methods=["POST"])
+@roles_required(Role.ADMIN)
+def create(instrument_id: int):
+    """Make a token and show it once; only its hash is kept."""
+    instrument = db.session.get(Instrument, instrument_id) or abort(404)
+    try:
+        _row, token = create_token(db.session, instrument, current_user)
+    except Invalid as error:
+        db.session.rollback()
+        flash(" ".join(error.errors.values()), "error")
+        return redirect(url_for("instruments.show", instrument_id=instrument.id))
+    db.session.commit()
+    response = render_template("api/token_created.html", instrument=instrument, token=token)
+    # The token is on this page only: keep it out of caches and history.
+    return response, 200, {"Cache-Control": "no-store"}
+
+
+@bp.route("/tokens/<int:token_id>/revoke", methods=["POST"])
+@roles_required(Role.ADMIN)
+def revoke(token_id: int):
+    """Stop a token from working."""
+    row = db.session.get(ApiToken, token_id) or abort(404)
+    try:
+        with audit.reason(db.session, "API token revoked by an admin"):
+            revoke_token(db.session, row)
+    except Invalid as error:
+        db.session.rollback()
+        flash(" ".join(error.errors.values()), "error")
+    else:
+        db.session.commit()
+        flash("The token is revoked.", "info")
+    return redirect(url_for("instruments.show", instrument_id=row.instrument_id))

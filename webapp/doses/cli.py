@@ -1,0 +1,48 @@
+"""`flask doses import`: the same import as the browser's, for scripts."""
+from __future__ import annotations
+
+import os
+
+import click
+import sqlalchemy as sa
+
+from models.dose_import import PRODUCT_LAYOUT, check_report, commit_report, layout_of
+from models.dosimetry import ImportMapping
+from webapp.doses import bp
+from webapp.extensions import db
+
+
+@bp.cli.command("import")
+@click.argument("file", type=click.Path(exists=True, dir_okay=False))
+@click.option("--mapping", default=None, help="Name of a saved column mapping; without it the "
+                                               "logbook's own CSV layout is read.")
+@click.option("--dry-run", is_flag=True, help="Check every row and write nothing.")
+def import_report(file, mapping, dry_run):
+    """Import a dosimetry report: every row, or none when any row has an error."""
+    layout = PRODUCT_LAYOUT
+    if mapping:
+        saved = db.session.scalar(sa.select(ImportMapping).where(ImportMapping.name == mapping))
+        if saved is None:
+            names = db.session.scalars(sa.select(ImportMapping.name).order_by(ImportMapping.name)).all()
+            raise click.ClickException(f"No mapping named '{mapping}'. Saved mappings: "
+                                       f"{', '.join(names) or 'none'}.")
+        layout = layout_of(saved)
+    with open(file, "rb") as report:
+        preview = check_report(db.session, report.read(), layout, os.path.basename(file))
+    if preview.earlier is not None:
+        click.echo(f"Already imported as batch #{preview.earlier.id} on "
+                   f"{preview.earlier.imported_at:%Y-%m-%d}; nothing added.")
+        return
+    problems = preview.problems()
+    if problems:
+        for line in problems:
+            click.echo(line)
+        bad = f"{len(preview.bad_rows)} of {len(preview.rows)} rows have errors" if preview.rows \
+            else "The file cannot be read"
+        raise click.ClickException(f"{bad}; nothing imported.")
+    if dry_run:
+        click.echo(f"All {len(preview.rows)} rows are valid; nothing written (dry run).")
+        return
+    batch = commit_report(db.session, preview)
+    db.session.commit()
+    click.echo(f"Imported {batch.row_count} dose records as batch #{batch.id}.")

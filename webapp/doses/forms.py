@@ -1,0 +1,141 @@
+"""Forms for dosimeters, dose records, report imports and pregnancy declarations."""
+from __future__ import annotations
+
+from flask_wtf import FlaskForm
+from flask_wtf.file import FileField, FileRequired
+from wtforms import DateField, FloatField, SelectField, StringField, TextAreaField
+from wtforms.validators import DataRequired, InputRequired, Length, Optional
+
+from models.dose_codes import Location, Quantity, Result
+from models.dose_import import FIELD_LABELS, FIELDS, ISO_DATE
+from models.dose_ops import UNITS, DoseEntry
+from models.dosimetry import DoseSource, DosimeterKind, ExchangeCycle, Hand
+from webapp.forms import choices
+
+RESULT_LABELS = {
+    Result.MEASURED: "Measured", Result.BELOW_MRD: "Below the minimum reportable dose (MRD)",
+    Result.UNUSED: "Unused (not worn)", Result.LOST: "Lost", Result.NOT_RETURNED: "Not returned",
+}
+SOURCE_LABELS = {
+    DoseSource.DOSIMETRY_REPORT: "Dosimetry report",
+    DoseSource.RSO_ESTIMATE: "Estimate by the safety officer",
+    DoseSource.INCIDENT_ESTIMATE: "Estimate after an incident",
+}
+LOCATION_LABELS = {
+    Location.WHOLE_BODY: "Whole body", Location.LEFT_HAND: "Left hand",
+    Location.RIGHT_HAND: "Right hand", Location.EYE: "Eye (lens)", Location.ABDOMEN: "Abdomen",
+}
+# Kind and hand in one choice, since a ring always names its hand.
+WORN_CHOICES = [("whole_body", "Whole body"), ("ring_left", "Ring, left hand"),
+                ("ring_right", "Ring, right hand"), ("eye", "Eye (lens)"), ("abdomen", "Abdomen")]
+
+
+def worn_to_kind(worn: str) -> tuple[DosimeterKind, Hand | None]:
+    """The dosimeter kind and hand of a 'worn' choice."""
+    if worn.startswith("ring_"):
+        return DosimeterKind.RING, Hand(worn.removeprefix("ring_"))
+    return DosimeterKind(worn), None
+
+
+def _member(cls, value):
+    """The enum member for a submitted value, or None when it is not one."""
+    try:
+        return cls(value)
+    except ValueError:
+        return None
+
+
+class DoseForm(FlaskForm):
+    """One dose result."""
+
+    person = SelectField("Person", coerce=int, validators=[InputRequired("Choose whose dose this is.")])
+    dosimeter = SelectField("Dosimeter", coerce=lambda v: int(v) if v else None, validate_choice=False,
+                            description="Optional; it must be issued to this person.")
+    wear_start = DateField("Wear period start", validators=[InputRequired("Enter the first day.")])
+    wear_end = DateField("Wear period end", validators=[InputRequired("Enter the last day.")],
+                         description="Both days count: 1 to 31 January is a 31-day wear period.")
+    quantity = SelectField("Quantity", choices=choices(Quantity, {q: q.value for q in Quantity}))
+    location = SelectField("Location", choices=choices(Location, LOCATION_LABELS))
+    result = SelectField("Result", choices=choices(Result, RESULT_LABELS))
+    value = FloatField("Value", validators=[Optional()],
+                       description="Leave empty for a lost or not-returned dosimeter.")
+    unit = SelectField("Unit", choices=[(u, u) for u in UNITS],
+                       description="1 mrem = 0.01 mSv; stored in mSv.")
+    mrd = FloatField("Minimum reportable dose (MRD)", validators=[Optional()],
+                     description="In the same unit as the value; needed for a result below the MRD.")
+    source = SelectField("Source", choices=choices(DoseSource, SOURCE_LABELS))
+    basis = TextAreaField("Basis of the estimate", validators=[Length(max=4000)],
+                          description="For an estimate: how the dose was worked out.")
+
+    def entry(self, person_id: int | None = None) -> DoseEntry | None:
+        """The entry the form describes (for `person_id` when given), or None on an unknown code."""
+        members = [_member(cls, f.data) for cls, f in (
+            (Quantity, self.quantity), (Location, self.location), (Result, self.result),
+            (DoseSource, self.source))]
+        if None in members:
+            return None
+        quantity, location, result, source = members
+        return DoseEntry(person_id=person_id or self.person.data, dosimeter_id=self.dosimeter.data,
+                         wear_start=self.wear_start.data, wear_end=self.wear_end.data,
+                         quantity=quantity, location=location, result=result, value=self.value.data,
+                         unit=self.unit.data, mrd=self.mrd.data, source=source, basis=self.basis.data)
+
+
+class AmendForm(DoseForm):
+    """A correction: the new content and why."""
+
+    reason = TextAreaField("Reason for the correction", validators=[Length(max=2000)],
+                           description="Kept with the new version; the earlier version stays as it was.")
+
+
+class IssueForm(FlaskForm):
+    """Issue a dosimeter to a wearer."""
+
+    wearer = SelectField("Wearer", coerce=int, validators=[InputRequired("Choose the wearer.")])
+    serial = StringField("Serial number", validators=[DataRequired("Enter the serial number."),
+                                                      Length(max=120)])
+    worn = SelectField("Worn on", choices=WORN_CHOICES)
+    issued_on = DateField("Issued on", validators=[InputRequired("Enter the issue date.")])
+    exchange_cycle = SelectField("Exchange cycle", choices=choices(ExchangeCycle),
+                                 description="Wear periods follow calendar months or quarters.")
+
+
+class ReturnForm(FlaskForm):
+    """The day a dosimeter came back for good."""
+
+    returned_on = DateField("Returned on", validators=[InputRequired("Enter the return date.")])
+
+
+class UploadForm(FlaskForm):
+    """A dosimetry report and the layout to read it with."""
+
+    file = FileField("Report (CSV)", validators=[FileRequired("Choose the CSV file.")])
+    layout = SelectField("Columns", description="How to read the file's columns.")
+
+
+class MappingForm(FlaskForm):
+    """Which of the file's columns gives each field."""
+
+    name = StringField("Name of this mapping", validators=[Length(max=120)],
+                       description="For example the dosimetry service's name; it is kept for later files.")
+    date_format = StringField("Date format", default="%d.%m.%Y",
+                              description=f"Codes: %d day, %m month, %Y year (e.g. %d/%m/%Y); "
+                                          f"'{ISO_DATE}' for 2026-01-31.")
+    default_unit = SelectField("Unit when the file gives none", choices=[(u, u) for u in UNITS])
+
+
+for _name in FIELDS:
+    setattr(MappingForm, _name, SelectField(FIELD_LABELS[_name], validate_choice=False))
+
+
+class DeclareForm(FlaskForm):
+    """The date of a pregnancy declaration."""
+
+    declared_on = DateField("Date of the declaration", validators=[
+        InputRequired("Enter the date of the declaration.")])
+
+
+class EndForm(FlaskForm):
+    """The day a declaration stops applying."""
+
+    ended_on = DateField("Date", validators=[InputRequired("Enter the date.")])

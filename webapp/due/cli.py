@@ -1,0 +1,91 @@
+"""`flask reminders send [--dry-run]`: e-mail what is due, for cron or a systemd timer."""
+from __future__ import annotations
+
+import smtplib
+
+import click
+from flask import current_app, url_for
+
+from models.base import utcnow
+from models.check_ops import lapse_expired_controls
+from models.due import OVERDUE
+from models.reminder_plan import Reminder, plan_reminders, record_sent
+from models.settings import lab_date, lab_settings
+from webapp.due import bp
+from webapp.due.views import target_url
+from webapp.extensions import db
+from webapp.mail import safety_officer_addresses, send_mail, tell_safety_officer
+
+
+def compose(reminder: Reminder, lab_name: str, today) -> tuple[list[str], str, str]:
+    """Recipients, subject and body of one reminder."""
+    late = sum(1 for item in reminder.open_items if item.state == OVERDUE)
+    soon = len(reminder.open_items) - late
+    new_keys = {item.key for item in reminder.new_items}
+    lines = []
+    for item in reminder.open_items:
+        state = (f"LATE by {item.days_late} day{'s' if item.days_late != 1 else ''}"
+                 if item.state == OVERDUE else item.state_label)
+        mark = " (new)" if item.key in new_keys else ""
+        lines.append(f"- {item.what}: {item.subject}, due {item.due} [{state}]{mark}\n"
+                     f"  {target_url(item, external=True)}")
+    listing = "\n".join(lines)
+    counts = f"{late} late, {soon} due soon or never done"
+    if reminder.digest:
+        to = safety_officer_addresses()
+        subject = f"{lab_name}: lab due list, {counts}"
+        body = (f"Safety tasks due soon, late or never done across {lab_name} on {today}, "
+                f"latest first:\n\n{listing}")
+    else:
+        to = [reminder.person.email]
+        subject = f"{lab_name}: {counts} for you"
+        body = (f"Hello {reminder.person.name},\n\nThese safety tasks are due soon or late for you "
+                f"on {today}:\n\n{listing}")
+    body += f"\n\nThe full list: {url_for('due.index', _external=True)}"
+    return to, subject, body
+
+
+@bp.cli.command("send")
+@click.option("--dry-run", is_flag=True, help="Print what would be sent; send and record nothing.")
+def send(dry_run: bool):
+    """E-mail each person what is due soon or late for them, and the safety officer a digest."""
+    session = db.session
+    lab = lab_settings(session)
+    if not lab.reminders_enabled:
+        click.echo("Reminders are turned off in the settings; nothing sent.")
+        return
+    now = utcnow()
+    held = lapse_expired_controls(session, now)
+    for instrument in held:
+        click.echo(f"{instrument.name}: temporary controls expired; now out of service.")
+    if not dry_run:
+        session.commit()
+        for instrument in held:
+            tell_safety_officer(f"{instrument.name} is out of service: temporary controls expired",
+                                instrument.out_of_service_reason)
+    failures = 0
+    with current_app.test_request_context(base_url=current_app.config["BASE_URL"]):
+        reminders = plan_reminders(session, now)
+        for reminder in reminders:
+            to, subject, body = compose(reminder, lab.lab_name, lab_date(session, now))
+            if dry_run:
+                click.echo(f"Would send to {', '.join(a for a in to if a)}: {subject}\n{body}\n")
+                continue
+            try:
+                sent = send_mail(to, subject, body)
+            except (smtplib.SMTPException, OSError) as error:
+                failures += 1
+                click.echo(f"Not sent to {', '.join(to)}: {error}", err=True)
+                continue
+            if sent:
+                record_sent(session, reminder, now)
+                session.commit()
+                click.echo(f"Sent to {', '.join(a for a in to if a)}: {subject}")
+            else:
+                click.echo(f"Not sent (no mail server or no address): {subject}", err=True)
+    if dry_run:
+        session.rollback()
+    if not reminders:
+        click.echo("Nothing new to remind.")
+    if failures:
+        raise SystemExit(1)

@@ -1,0 +1,138 @@
+"""The due list, the operator's home panel, the attention lines and the calendar feed."""
+from __future__ import annotations
+
+from flask import Response, abort, render_template, request, url_for
+from flask_login import current_user, login_required
+from werkzeug.routing import BuildError
+
+from models import due
+from models.base import utcnow
+from models.calendar_feed import build_calendar, person_for_token, renew_token, stop_feed
+from models.due_list import CHECK, DOSIMETER, REFRESHER, SURVEY, DueItem
+from models.due_list import calendar_items, lab_items, pending, person_items
+from models.people import Role
+from webapp.due import bp
+from webapp.extensions import db, limiter
+from webapp.formatting import settings
+from webapp.slots import Attention, Severity, attention, home_panels, navigation, settings_sections
+
+STATE_CLASS = {due.OVERDUE: "state-bad", due.NEVER_DONE: "state-bad", due.DUE_SOON: "state-warn",
+               due.OK: "state-good"}
+
+# Where to act on items that are not about an instrument as a whole; the owning areas' pages,
+# with the instrument page or the due list as the fallback while an area is not merged yet.
+OTHER_TARGETS = {"meter": ("surveys.meter", "meter_id"), "permit": ("surveys.permit", "permit_id"),
+                 "dosimeter": ("doses.dosimeter", "dosimeter_id")}
+
+# Which attention line a late item makes; training shows as soon as it is due soon. Meter
+# calibrations and bypass permits are left out: the surveys area reports those itself.
+LATE_SEVERITY = {CHECK: Severity.OVERDUE, SURVEY: Severity.OVERDUE,
+                 DOSIMETER: Severity.DOSIMETER_NOT_RETURNED, REFRESHER: Severity.TRAINING}
+
+navigation.add("What is due", "due.index", {Role.OPERATOR, Role.SAFETY_OFFICER}, order=30)
+
+
+def target_url(item: DueItem, external: bool = False) -> str:
+    """The page where the item is acted on."""
+    if item.target_kind in OTHER_TARGETS:
+        endpoint, arg = OTHER_TARGETS[item.target_kind]
+        try:
+            return url_for(endpoint, **{arg: item.target_id}, _external=external)
+        except BuildError:
+            pass
+    if item.instrument_id is not None:
+        return url_for("instruments.show", instrument_id=item.instrument_id, _external=external)
+    return url_for("due.index", _external=external)
+
+
+@bp.app_context_processor
+def _helpers() -> dict:
+    """Let templates link and colour due items."""
+    return {"due_url": target_url, "due_class": STATE_CLASS}
+
+
+@bp.route("/due")
+@login_required
+def index():
+    """The safety officer sees the whole lab, latest first; others see their own tasks."""
+    now = utcnow()
+    lab = current_user.has_role(Role.SAFETY_OFFICER)
+    items = lab_items(db.session, now) if lab else person_items(db.session, current_user, now)
+    show_all = request.args.get("all") == "1"
+    return render_template("due/index.html", items=items if show_all else pending(items),
+                           lab=lab, show_all=show_all, soon_days=settings().due_soon_days)
+
+
+@home_panels.add("due/_panel.html", roles={Role.OPERATOR}, order=20)
+def _panel(person) -> dict:
+    """The operator's own tasks that are due soon or late."""
+    return {"tasks": pending(person_items(db.session, person, utcnow())),
+            "soon_days": settings().due_soon_days}
+
+
+@settings_sections.add("due/_settings.html", order=20)
+def _settings(lab) -> dict:
+    """The check interval's published bounds, the due-soon window and the reminder command."""
+    return {"lab": lab, "bounds": due.CHECK_INTERVAL_OUTER_BOUNDS,
+            "check_days": due.DEFAULT_CHECK_INTERVAL_DAYS,
+            "survey_days": due.DEFAULT_SURVEY_INTERVAL_DAYS,
+            "meter_months": due.METER_CALIBRATION_MONTHS, "refresher_months": due.REFRESHER_MONTHS}
+
+
+@attention.add
+def _attention() -> list[Attention]:
+    """Late or never-done tasks across the lab, and training running out soon."""
+    lines = []
+    for item in lab_items(db.session, utcnow()):
+        if item.kind not in LATE_SEVERITY:
+            continue
+        late = item.state in (due.OVERDUE, due.NEVER_DONE)
+        if late or (item.kind == REFRESHER and item.state == due.DUE_SOON):
+            when = (f"{item.days_late} day{'s' if item.days_late != 1 else ''} late"
+                    if item.state == due.OVERDUE else f"due {item.due}")
+            if item.state == due.NEVER_DONE:
+                when = "never done"
+            lines.append(Attention(LATE_SEVERITY[item.kind], f"{item.what}: {item.subject}, {when}.",
+                                   target_url(item), item.state_label))
+    return lines
+
+
+@bp.route("/calendar", methods=["GET"])
+@login_required
+def calendar():
+    """The person's feed: whether it is on, and buttons to renew or stop it."""
+    return render_template("due/calendar.html", feed_url=None)
+
+
+@bp.route("/calendar/renew", methods=["POST"])
+@login_required
+def renew():
+    """Make a new secret address; the old one stops working. The address is shown only now."""
+    token = renew_token(db.session, current_user)
+    db.session.commit()
+    return render_template("due/calendar.html",
+                           feed_url=url_for("due.feed", token=token, _external=True))
+
+
+@bp.route("/calendar/stop", methods=["POST"])
+@login_required
+def stop():
+    """Turn the feed off."""
+    stop_feed(db.session, current_user)
+    db.session.commit()
+    return render_template("due/calendar.html", feed_url=None)
+
+
+@bp.route("/calendar/<token>.ics")
+@limiter.limit("60 per minute")
+def feed(token: str):
+    """The person's due dates as iCalendar; no login, the secret address is the key."""
+    person = person_for_token(db.session, token)
+    if person is None:
+        abort(404)
+    now = utcnow()
+    body = build_calendar(calendar_items(db.session, person, now),
+                          f"{settings().lab_name}: due dates for {person.name}", now,
+                          lambda item: target_url(item, external=True))
+    return Response(body, mimetype="text/calendar",
+                    headers={"Cache-Control": "private, no-store"})

@@ -1,0 +1,95 @@
+"""The safety officer authorises people on instruments; the posted list of authorised users."""
+from __future__ import annotations
+
+import sqlalchemy as sa
+from flask import abort, flash, redirect, render_template, url_for
+from flask_login import current_user, login_required
+
+from models import audit
+from models.authorisations import (
+    authorised_users,
+    check_authorisation,
+    grant_authorisation,
+    revoke_authorisation,
+    safety_officers,
+)
+from models.errors import Invalid
+from models.instruments import Authorisation, AuthorisationLevel, Instrument
+from models.people import Person, Role
+from webapp.access import roles_required
+from webapp.extensions import db
+from webapp.formatting import lab_today
+from webapp.forms import validate_with
+from webapp.sessions import bp
+from webapp.sessions.forms import AuthoriseForm, RevokeForm, optional_id
+from webapp.slots import instrument_sections
+
+
+def _form_values(form: AuthoriseForm) -> dict:
+    """The authorisation form's values as the domain takes them."""
+    return {"person": db.session.get(Person, optional_id(form.person_id.data) or 0),
+            "level": AuthorisationLevel(form.level.data) if form.level.data else None,
+            "trained_on": form.trained_on.data, "refresher_due_on": form.refresher_due.data}
+
+
+@bp.route("/instruments/<int:instrument_id>/authorisations", methods=["GET", "POST"])
+@roles_required(Role.SAFETY_OFFICER)
+def authorisations(instrument_id: int):
+    """Who may run the instrument, with a form to authorise someone."""
+    instrument = db.session.get(Instrument, instrument_id) or abort(404)
+    form = AuthoriseForm()
+    people = db.session.scalars(sa.select(Person).where(Person.active.is_(True))
+                                .order_by(Person.name)).all()
+    form.person_id.choices = [("", "—")] + [(str(p.id), f"{p.name} ({p.login})") for p in people]
+    if validate_with(form, lambda f: check_authorisation(db.session, instrument=instrument,
+                                                         **_form_values(f))):
+        granted = grant_authorisation(db.session, instrument=instrument, granted_by=current_user,
+                                      **_form_values(form))
+        db.session.commit()
+        flash(f"{granted.person.name} is authorised on {instrument.name} until "
+              f"{granted.refresher_due.isoformat()}.", "info")
+        return redirect(url_for("sessions.authorisations", instrument_id=instrument.id))
+    history = db.session.scalars(sa.select(Authorisation).where(
+        Authorisation.instrument_id == instrument.id).order_by(Authorisation.granted_at.desc())).all()
+    return render_template("sessions/authorisations.html", instrument=instrument, form=form,
+                           history=history, revoke_form=RevokeForm(), today=lab_today())
+
+
+@bp.route("/authorisations/<int:authorisation_id>/revoke", methods=["POST"])
+@roles_required(Role.SAFETY_OFFICER)
+def revoke(authorisation_id: int):
+    """Withdraw an authorisation, with the reason kept in the audit trail."""
+    authorisation = db.session.get(Authorisation, authorisation_id) or abort(404)
+    form = RevokeForm()
+    back = redirect(url_for("sessions.authorisations", instrument_id=authorisation.instrument_id))
+    if not form.validate_on_submit():
+        flash("Say why the authorisation is revoked.", "error")
+        return back
+    try:
+        with audit.reason(db.session, form.reason.data.strip()):
+            revoke_authorisation(db.session, authorisation)
+    except Invalid as error:
+        db.session.rollback()
+        flash(" ".join(error.errors.values()), "error")
+        return back
+    db.session.commit()
+    flash(f"{authorisation.person.name}'s authorisation on {authorisation.instrument.name} "
+          "is revoked.", "info")
+    return back
+
+
+@bp.route("/instruments/<int:instrument_id>/authorised/print")
+@login_required
+def printable(instrument_id: int):
+    """The list of authorised users to post beside the instrument."""
+    instrument = db.session.get(Instrument, instrument_id) or abort(404)
+    return render_template("sessions/print.html", instrument=instrument,
+                           users=authorised_users(db.session, instrument),
+                           officers=safety_officers(db.session), today=lab_today())
+
+
+@instrument_sections.add("sessions/_authorised.html", order=15)
+def _authorised(instrument: Instrument) -> dict:
+    """Who may run this instrument, and until when."""
+    return {"instrument": instrument, "users": authorised_users(db.session, instrument),
+            "today": lab_today()}

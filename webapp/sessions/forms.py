@@ -1,0 +1,111 @@
+"""Forms for sessions and authorisations."""
+from __future__ import annotations
+
+from datetime import datetime, timezone
+
+from flask_wtf import FlaskForm
+from wtforms import (
+    BooleanField,
+    DateField,
+    DateTimeLocalField,
+    FloatField,
+    SelectField,
+    StringField,
+    TextAreaField,
+)
+from wtforms.validators import InputRequired, Length, Optional
+
+from models.instruments import AuthorisationLevel
+from webapp.formatting import lab_zone
+
+NUMBER = "Enter a number."
+WHEN = "Enter a date and time."
+
+
+def from_local(moment: datetime | None) -> datetime | None:
+    """A naive datetime typed in the lab's time zone, as aware UTC."""
+    if moment is None:
+        return None
+    return moment.replace(tzinfo=lab_zone()).astimezone(timezone.utc)
+
+
+def optional_id(value: str | None) -> int | None:
+    """A select's value as an id, or None for the empty choice."""
+    return int(value) if value not in (None, "", "None") else None
+
+
+class StartForm(FlaskForm):
+    """Settings and confirmations for a session that starts now."""
+
+    kv = FloatField("Tube voltage (kV)", validators=[InputRequired(NUMBER)])
+    ma = FloatField("Tube current (mA)", validators=[InputRequired(NUMBER)])
+    purpose = StringField("Purpose or sample", validators=[Length(max=300)])
+    pre_use_checks_confirmed = BooleanField(
+        "I saw the warning light and the shutter indicators working before starting")
+    dosimeter_worn = BooleanField("I am wearing my dosimeter")
+    dosimeter_id = SelectField("Which dosimeter", choices=[("", "—")], validate_choice=False)
+    alignment = BooleanField("This is alignment work")
+    configuration_changed = BooleanField("I changed the configuration")
+    configuration_change = TextAreaField("What changed", validators=[Length(max=5000)],
+                                         description="Optics, slits, shielding, sample stage…")
+    notes = TextAreaField("Notes", validators=[Length(max=5000)])
+    caution_acknowledged = BooleanField("I have read the caution above")
+
+    def values(self) -> dict:
+        """The submitted values as the session rules take them."""
+        return {
+            "kv": self.kv.data, "ma": self.ma.data, "purpose": self.purpose.data,
+            "pre_use_checks_confirmed": self.pre_use_checks_confirmed.data,
+            "dosimeter_worn": self.dosimeter_worn.data,
+            "dosimeter_id": optional_id(self.dosimeter_id.data),
+            "alignment": self.alignment.data,
+            "configuration_changed": self.configuration_changed.data,
+            "configuration_change": self.configuration_change.data, "notes": self.notes.data,
+            "caution_acknowledged": self.caution_acknowledged.data,
+        }
+
+
+class LogForm(StartForm):
+    """A session written up after it ended."""
+
+    instrument = SelectField("Instrument", choices=[], validate_choice=False)
+    started_at = DateTimeLocalField("Started", format="%Y-%m-%dT%H:%M",
+                                    validators=[InputRequired(WHEN)])
+    ended_at = DateTimeLocalField("Ended", format="%Y-%m-%dT%H:%M",
+                                  validators=[InputRequired(WHEN)])
+    beam_on_minutes = FloatField("Beam-on time (min)", validators=[Optional()],
+                                 description="Leave empty if the beam was on the whole session.")
+    pre_use_checks_confirmed = BooleanField(
+        "I saw the warning light and the shutter indicators working before the session")
+    dosimeter_worn = BooleanField("I wore my dosimeter")
+
+    def values(self) -> dict:
+        """Adds the times, converted from the lab's time to UTC."""
+        return {**super().values(), "started_at": from_local(self.started_at.data),
+                "ended_at": from_local(self.ended_at.data),
+                "beam_on_minutes": self.beam_on_minutes.data}
+
+
+class EndForm(FlaskForm):
+    """Beam-on time, asked when a session ends."""
+
+    beam_on_minutes = FloatField("Beam-on time (min)", validators=[Optional()],
+                                 description="Leave empty if the beam was on the whole session.")
+
+
+class AuthoriseForm(FlaskForm):
+    """The safety officer authorises a person on an instrument."""
+
+    person_id = SelectField("Person", choices=[], validate_choice=False)
+    level = SelectField("Level", choices=[(AuthorisationLevel.SUPERVISED.value, "Supervised"),
+                                          (AuthorisationLevel.INDEPENDENT.value, "Independent")])
+    trained_on = DateField("Trained on", validators=[InputRequired("Enter the training date.")])
+    refresher_due = DateField("Refresher due", validators=[Optional()],
+                              description="Leave empty for 12 months after training "
+                                          "(common practice).")
+
+
+class RevokeForm(FlaskForm):
+    """Why an authorisation is withdrawn."""
+
+    reason = TextAreaField("Reason", validators=[InputRequired("Say why."), Length(max=1000)])

@@ -1,0 +1,170 @@
+"""Sessions: start, end, write up afterwards, and the lists with their derived figures."""
+from __future__ import annotations
+
+from datetime import datetime, time, timedelta
+
+import sqlalchemy as sa
+from flask import abort, flash, redirect, render_template, request, url_for
+from flask_login import current_user, login_required
+
+from models.base import utcnow
+from models.dosimetry import Dosimeter
+from models.errors import Invalid
+from models.instruments import Instrument, active_instruments, current_authorisations
+from models.logbook import (
+    active_bypass_permit,
+    check_finished,
+    check_opening,
+    close_session,
+    figures,
+    find_sessions,
+    instrument_usage,
+    log_finished_session,
+    open_session,
+    open_sessions_of,
+    usage,
+)
+from models.people import Person, Role
+from models.sessions import InstrumentSession
+from webapp.access import roles_required
+from webapp.extensions import db
+from webapp.formatting import lab_today, lab_zone
+from webapp.forms import attach_errors, validate_with
+from webapp.sessions import bp
+from webapp.sessions.forms import EndForm, LogForm, StartForm, optional_id
+from webapp.slots import home_panels, instrument_sections, navigation
+
+OPERATING = {Role.OPERATOR, Role.SAFETY_OFFICER}
+
+navigation.add("Sessions", "sessions.index", order=20)
+
+
+def _dosimeter_choices(person: Person) -> list[tuple[str, str]]:
+    """The person's dosimeters still issued, for the 'which dosimeter' choice."""
+    rows = db.session.scalars(sa.select(Dosimeter).where(
+        Dosimeter.wearer_id == person.id, Dosimeter.returned_on.is_(None)).order_by(Dosimeter.serial))
+    return [("", "—")] + [(str(d.id), f"{d.serial} ({d.kind.value.replace('_', ' ')})") for d in rows]
+
+
+@home_panels.add("sessions/_home.html", roles=OPERATING, order=10)
+def _home(person: Person) -> dict:
+    """My open sessions and the instruments I may start a session on."""
+    open_rows = open_sessions_of(db.session, person)
+    busy = {s.instrument_id for s in find_sessions(db.session, start=utcnow()) if s.is_open}
+    return {"open": [(s, figures(s)) for s in open_rows],
+            "authorisations": current_authorisations(db.session, person, lab_today()),
+            "busy": busy, "end_form": EndForm()}
+
+
+@bp.route("/sessions/start/<int:instrument_id>", methods=["GET", "POST"])
+@roles_required(*OPERATING)
+def start(instrument_id: int):
+    """Start a session now on one instrument: settings, checks, dosimeter."""
+    instrument = db.session.get(Instrument, instrument_id) or abort(404)
+    form = StartForm()
+    form.dosimeter_id.choices = _dosimeter_choices(current_user)
+    if not form.is_submitted():
+        form.dosimeter_worn.data = True
+    now = utcnow()
+    if validate_with(form, lambda f: check_opening(db.session, instrument, current_user,
+                                                   f.values(), now=now)):
+        open_session(db.session, instrument, current_user, form.values(), now=now)
+        db.session.commit()
+        flash(f"Session started on {instrument.name}.", "info")
+        return redirect(url_for("home.index"))
+    return render_template("sessions/start.html", form=form, instrument=instrument,
+                           permit=active_bypass_permit(db.session, instrument, now))
+
+
+def _own_session(session_id: int) -> InstrumentSession:
+    """A session the current person may end: their own, or any for the safety officer."""
+    entry = db.session.get(InstrumentSession, session_id) or abort(404)
+    if entry.operator_id != current_user.id and not current_user.has_role(Role.SAFETY_OFFICER):
+        abort(403)
+    return entry
+
+
+@bp.route("/sessions/<int:session_id>/end", methods=["GET", "POST"])
+@login_required
+def end(session_id: int):
+    """End an open session; beam-on time defaults to the whole session."""
+    entry = _own_session(session_id)
+    form = EndForm()
+    if form.validate_on_submit():
+        try:
+            close_session(db.session, entry, beam_on_minutes=form.beam_on_minutes.data)
+        except Invalid as error:
+            db.session.rollback()
+            attach_errors(form, error)
+        else:
+            db.session.commit()
+            flash(f"Session on {entry.instrument.name} ended.", "info")
+            return redirect(url_for("sessions.show", session_id=entry.id))
+    return render_template("sessions/end.html", form=form, entry=entry, figures=figures(entry))
+
+
+@bp.route("/sessions/log", methods=["GET", "POST"])
+@roles_required(*OPERATING)
+def log():
+    """Write up a session after it ended."""
+    form = LogForm()
+    form.dosimeter_id.choices = _dosimeter_choices(current_user)
+    form.instrument.choices = [("", "—")] + [(str(i.id), i.name) for i in active_instruments(db.session)]
+    instrument = db.session.get(Instrument, optional_id(form.instrument.data) or 0)
+    now = utcnow()
+    if validate_with(form, lambda f: check_finished(db.session, instrument, current_user,
+                                                    f.values(), now=now)):
+        entry = log_finished_session(db.session, instrument, current_user, form.values(), now=now)
+        db.session.commit()
+        flash(f"Session on {instrument.name} logged.", "info")
+        return redirect(url_for("sessions.show", session_id=entry.id))
+    return render_template("sessions/log.html", form=form)
+
+
+@bp.route("/sessions/<int:session_id>")
+@login_required
+def show(session_id: int):
+    """One session with its derived figures."""
+    entry = db.session.get(InstrumentSession, session_id) or abort(404)
+    dosimeter = db.session.get(Dosimeter, entry.dosimeter_id) if entry.dosimeter_id else None
+    return render_template("sessions/show.html", entry=entry, figures=figures(entry),
+                           dosimeter=dosimeter)
+
+
+def _day_start(text: str | None) -> datetime | None:
+    """The first moment of a lab-local date given as YYYY-MM-DD, or None if absent or bad."""
+    try:
+        day = datetime.strptime(text or "", "%Y-%m-%d").date()
+    except ValueError:
+        return None
+    return datetime.combine(day, time.min, tzinfo=lab_zone())
+
+
+@bp.route("/sessions/")
+@login_required
+def index():
+    """Sessions filtered by instrument, person and date range, with usage totals."""
+    instrument = db.session.get(Instrument, request.args.get("instrument", 0, type=int))
+    person = db.session.get(Person, request.args.get("person", 0, type=int))
+    start = _day_start(request.args.get("from"))
+    until = _day_start(request.args.get("to"))
+    end = until + timedelta(days=1) if until else None
+    rows = find_sessions(db.session, instrument=instrument, operator=person, start=start, end=end)
+    return render_template(
+        "sessions/index.html", rows=[(s, figures(s)) for s in rows], totals=usage(rows),
+        instrument=instrument, person=person, instruments=active_instruments(db.session),
+        people=db.session.scalars(sa.select(Person).order_by(Person.name)).all(),
+        args=request.args)
+
+
+@instrument_sections.add("sessions/_instrument.html", order=20)
+def _instrument(instrument: Instrument) -> dict:
+    """Recent sessions and tube use over the last 30 days and this year."""
+    now = utcnow()
+    today = lab_today()
+    year_start = datetime.combine(today.replace(month=1, day=1), time.min, tzinfo=lab_zone())
+    recent = find_sessions(db.session, instrument=instrument, limit=10)
+    return {"instrument": instrument, "recent": [(s, figures(s)) for s in recent],
+            "last_30": instrument_usage(db.session, instrument, now - timedelta(days=30), now),
+            "this_year": instrument_usage(db.session, instrument, year_start, now),
+            "year": today.year}
