@@ -38,8 +38,9 @@ def run(path: str, people: int, years: int, runs: int):
         raise RuntimeError(f"{lab.n_records} records generated, {lab.expected_records()} expected")
     yield (f"Synthetic lab: {lab.n_people:,} people x {lab.n_months} months; "
            f"{lab.ring_wearers:,} ring wearers, {lab.lens_wearers:,} lens wearers")
-    yield (f"Dose records: {lab.n_records:,} = {lab.n_months} x (2 x {lab.n_people:,} whole body"
-           f" + 2 x {lab.ring_wearers:,} rings + {lab.lens_wearers:,} lens)")
+    yield (f"Dose records in force: {lab.n_records:,} = {lab.n_months} x (2 x {lab.n_people:,} "
+           f"whole body + 2 x {lab.ring_wearers:,} rings + {lab.lens_wearers:,} lens); "
+           f"{int(lab.estimated.sum()):,} of them are estimates that replaced a lost result")
     yield f"Built and inserted in {built:.1f} s into {path}; evaluation date {on}"
     yield ""
     with app.app_context():

@@ -3,8 +3,10 @@
 Every person wears a whole-body dosimeter (Hp(10) and Hp(0.07) each month); a fixed share also
 wear rings on both hands (Hp(0.07)) and a fixed share a lens dosimeter (Hp(3)). Half exchange on
 the 1st of the month, half on the 15th, so wear periods straddle month, quarter and year ends.
-A few busy people get enough dose to cross investigation levels. A fixed seed makes the records
-the same on every run (dates are counted back from the month before the evaluation date).
+A few busy people get enough dose to cross investigation levels; a few results are unused or
+lost, and the safety officer has entered an estimate (a second version) for every lost badge
+except those of the last two months. A fixed seed makes the records the same on every run
+(dates are counted back from the month before the evaluation date).
 
 Records go in with Core `insert` executemany: fast, and it bypasses the audit listener, which
 fires only for ORM flushes. That is fine for a bench, but it also means the evaluation cache
@@ -33,12 +35,15 @@ OFFICER_PASSWORD = "bench password"
 # Typical minimum reportable doses: 0.01 mSv photon, 0.3 mSv ring (REFERENCE.md, one US programme).
 WHOLE_BODY_MRD_MSV = 0.01
 RING_MRD_MSV = 0.3
+# Lost badges whose wear period ended within this many days have no estimate yet.
+ESTIMATE_AFTER_DAYS = 60
 
 
 @dataclass(frozen=True)
 class SyntheticLab:
     """What was generated: sizes and the columns of the records (person as 0..P-1)."""
 
+    on: date
     n_people: int
     n_months: int
     ring_wearers: int
@@ -47,8 +52,14 @@ class SyntheticLab:
 
     @property
     def n_records(self) -> int:
-        """Exact record count."""
+        """Exact count of records in force (estimates replace the lost results they amend)."""
         return len(self.columns["person"])
+
+    @property
+    def estimated(self) -> np.ndarray:
+        """Mask of the lost results that have an estimate by now."""
+        cutoff = np.datetime64(self.on) - np.timedelta64(ESTIMATE_AFTER_DAYS, "D")
+        return (self.columns["result"] == "lost") & (self.columns["wear_end"] < cutoff)
 
     def expected_records(self) -> int:
         """months x (2 whole-body + 2 rings per ring wearer + 1 lens per lens wearer)."""
@@ -95,13 +106,14 @@ def generate(n_people: int, years: int, on: date, seed: int = SEED) -> Synthetic
         result = np.where(value < mrd, "below_mrd", "measured").astype(object)
         result[draw < 0.01] = "unused"
         result[(draw >= 0.01) & (draw < 0.015)] = "lost"
+        estimate = np.where(result == "lost", value, np.nan)
         value = np.where(result == "measured", value, np.nan)
-        parts.append({"person": person, "quantity": np.full(len(person), quantity, dtype=object),
+        parts.append({"estimate": estimate, "person": person, "quantity": np.full(len(person), quantity, dtype=object),
                       "location": np.full(len(person), location, dtype=object),
                       "wear_start": starts, "wear_end": ends, "value": value, "result": result,
                       "mrd": np.where(result == "below_mrd", mrd, np.nan)})
     columns = {key: np.concatenate([part[key] for part in parts]) for key in parts[0]}
-    return SyntheticLab(n_people, n_months, len(ring_wearers), len(lens_wearers), columns)
+    return SyntheticLab(on, n_people, n_months, len(ring_wearers), len(lens_wearers), columns)
 
 
 def _nullable(values: np.ndarray) -> list:
@@ -110,7 +122,7 @@ def _nullable(values: np.ndarray) -> list:
 
 
 def insert(connection: sa.Connection, lab: SyntheticLab) -> np.ndarray:
-    """Insert the people and their records with Core executemany; returns the person ids."""
+    """Insert the people, their records and the estimates with Core executemany; person ids."""
     now = datetime.now(timezone.utc)
     connection.execute(sa.insert(Person.__table__), [
         {"login": f"worker{i:04d}", "name": f"Worker {i:04d}", "email": None,
@@ -130,7 +142,29 @@ def insert(connection: sa.Connection, lab: SyntheticLab) -> np.ndarray:
         for p, s, e, q, l, v, r, m in zip(c["person"].tolist(), starts, ends, c["quantity"],
                                           c["location"], values, c["result"], mrds)
     ])
+    _insert_estimates(connection, lab, ids, now)
     return ids
+
+
+def _insert_estimates(connection: sa.Connection, lab: SyntheticLab, ids: np.ndarray,
+                      now: datetime) -> None:
+    """A second version, the safety officer's estimate, for each lost result old enough."""
+    c = lab.columns
+    at = np.flatnonzero(lab.estimated)
+    wanted = {(int(ids[c["person"][i]]), c["quantity"][i], c["location"][i],
+               c["wear_start"][i].astype(object)): float(c["estimate"][i]) for i in at}
+    lost = connection.execute(sa.select(
+        DoseRecord.id, DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location,
+        DoseRecord.wear_start, DoseRecord.wear_end).where(DoseRecord.result == "lost")).all()
+    connection.execute(sa.insert(DoseRecord.__table__), [
+        {"person_id": person_id, "wear_start": start, "wear_end": end, "quantity": quantity,
+         "location": location, "value_msv": wanted[key], "result": "measured", "mrd_msv": None,
+         "source": "rso_estimate", "basis": "The wearer's usual dose for this dosimeter.",
+         "supersedes_id": record_id, "version": 2, "reason": "Dosimeter lost; estimate entered.",
+         "entered_unit": "mSv", "created_at": now}
+        for record_id, person_id, quantity, location, start, end in lost
+        if (key := (person_id, str(quantity), str(location), start)) in wanted
+    ])
 
 
 def build(path: str, n_people: int, years: int, on: date, seed: int = SEED):

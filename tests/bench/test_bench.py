@@ -3,10 +3,12 @@ from datetime import date
 
 import numpy as np
 import pytest
+import sqlalchemy as sa
 
 from bench import synthetic, timing
 from bench.__main__ import run
 from models.dose_codes import PeriodKind, Series, code
+from models.dosimetry import DoseRecord
 from models.engine import compute_doses
 from models.exposure import policies_of, read_records
 from models.settings import lab_settings
@@ -31,8 +33,8 @@ def test_wear_periods_end_before_the_evaluation_date_and_straddle_months():
 
 @pytest.fixture
 def tiny(tmp_path):
-    """A 5-person, 1-year lab in a fresh SQLite file."""
-    app, lab = synthetic.build(str(tmp_path / "bench.sqlite"), 5, 1, ON)
+    """A 10-person, 2-year lab in a fresh SQLite file."""
+    app, lab = synthetic.build(str(tmp_path / "bench.sqlite"), 10, 2, ON)
     with app.app_context():
         yield app, lab
         db.engine.dispose()
@@ -53,6 +55,15 @@ def test_the_plain_loop_gives_the_engine_sums(tiny):
                 expected)
 
 
+def test_old_lost_results_have_an_estimate_that_replaces_them(tiny):
+    app, lab = tiny
+    assert lab.estimated.sum() > 0
+    rows = db.session.scalar(sa.select(sa.func.count()).select_from(DoseRecord))
+    assert rows == lab.n_records + lab.estimated.sum()
+    people, _ = timing.people_of(db.session)
+    assert len(read_records(db.session, people)) == lab.n_records
+
+
 def test_each_timing_runs(tiny):
     app, lab = tiny
     seconds, records = timing.time_read(db.session, 1)
@@ -68,7 +79,7 @@ def test_each_timing_runs(tiny):
 def test_the_command_prints_the_figures_and_ratios(tmp_path):
     lines = list(run(str(tmp_path / "bench.sqlite"), 5, 1, 1))
     text = "\n".join(lines)
-    assert "Dose records: 192 = 12 x (2 x 5 whole body + 2 x 2 rings + 2 lens)" in text
+    assert "Dose records in force: 192 = 12 x (2 x 5 whole body + 2 x 2 rings + 2 lens)" in text
     for label in ("(a) engine", "(b) read", "(c) plain Python loop", "(d) safety officer's home",
                   "engine / read =", "loop / engine =", "home page warm ="):
         assert label in text
