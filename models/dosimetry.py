@@ -8,7 +8,7 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from models.base import Base, IdMixin, enum_column, utcnow
-from models.dose_codes import Level, Location, PeriodKind, Quantity, Result
+from models.dose_codes import Level, Location, PeriodKind, Quantity, Result, Series
 from models.people import Person
 
 
@@ -166,6 +166,8 @@ class Investigation(IdMixin, Base):
     __tablename__ = "investigation"
 
     person_id: Mapped[int] = mapped_column(sa.ForeignKey("person.id"), index=True)
+    # Which row crossed: the lens and the skin can read the same Hp(0.07) whole-body records.
+    series: Mapped[Series] = mapped_column(enum_column(Series))
     quantity: Mapped[Quantity] = mapped_column(enum_column(Quantity))
     location: Mapped[Location] = mapped_column(enum_column(Location))
     period: Mapped[PeriodKind] = mapped_column(enum_column(PeriodKind))
@@ -183,7 +185,7 @@ class Investigation(IdMixin, Base):
 
     __table_args__ = (
         sa.UniqueConstraint(
-            "person_id", "quantity", "location", "period", "period_start", "level",
+            "person_id", "series", "quantity", "location", "period", "period_start", "level",
             name="uq_investigation_crossing",
         ),
     )

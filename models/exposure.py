@@ -21,28 +21,39 @@ from models.settings import LabSettings, lab_settings
 NO_LIMIT_SET = limit_presets.LimitSet("none", "No limit set chosen", ())
 
 
-def _record_columns() -> sa.Select:
-    """The columns the engine needs, of the records in force, in one query."""
-    return sa.select(
-        DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location, DoseRecord.wear_start,
-        DoseRecord.wear_end, DoseRecord.value_msv, DoseRecord.result, DoseRecord.mrd_msv,
-    ).where(is_current())
+# Read as the driver gives them, these skip a Python conversion per row (enum lookup, date parse).
+_AS_STORED = ("quantity", "location", "wear_start", "wear_end", "result")
+
+
+def _record_columns(as_stored: bool = False) -> sa.Select:
+    """The columns the engine needs, of the records in force, in one query.
+
+    as_stored: the enum and date columns come back as stored (text; dates on PostgreSQL).
+    """
+    columns = (DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location,
+               DoseRecord.wear_start, DoseRecord.wear_end, DoseRecord.value_msv,
+               DoseRecord.result, DoseRecord.mrd_msv)
+    return sa.select(*(
+        sa.type_coerce(c, sa.String) if as_stored and c.key in _AS_STORED else c for c in columns
+    )).where(is_current())
 
 
 def read_records(session: Session, people: np.ndarray) -> DoseRecords:
     """Every record in force as engine columns, people given as positions in `people`."""
-    rows = session.execute(_record_columns()).all()
+    session.flush()  # Core execution below does not autoflush
+    # Core rows: the ORM's per-row loading costs more than the query itself at 100,000s of rows.
+    rows = session.connection().execute(_record_columns(as_stored=True)).all()
     columns = list(zip(*rows)) if rows else [()] * 8
     person_ids, quantity, location, start, end, value, result, mrd = columns
     return DoseRecords(
         person=person_index(np.asarray(person_ids, dtype=np.int64), people),
-        quantity=np.asarray([str(q) for q in quantity], dtype=str),
-        location=np.asarray([str(x) for x in location], dtype=str),
+        quantity=np.asarray(quantity, dtype=str),
+        location=np.asarray(location, dtype=str),
         wear_start=np.asarray(start, dtype="datetime64[D]"),
         wear_end=np.asarray(end, dtype="datetime64[D]"),
-        value=np.asarray([np.nan if v is None else v for v in value], dtype=float),
-        result=np.asarray([str(r) for r in result], dtype=str),
-        mrd=np.asarray([np.nan if v is None else v for v in mrd], dtype=float),
+        value=np.asarray(value, dtype=float),  # None becomes NaN
+        result=np.asarray(result, dtype=str),
+        mrd=np.asarray(mrd, dtype=float),
     )
 
 

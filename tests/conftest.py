@@ -404,3 +404,17 @@ def make_meter(app):
         return meter
 
     return make
+
+
+# --- exposure factories ---
+@pytest.fixture
+def use_limit_set(app):
+    """Factory: install a shipped preset and put it in force."""
+    from models.limit_sets import install_preset
+    from models.settings import lab_settings
+
+    def use(key: str = "icrp103"):
+        lab_settings(db.session).limit_set = install_preset(db.session, key)
+        db.session.commit()
+
+    return use

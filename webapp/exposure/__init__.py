@@ -3,4 +3,4 @@ from flask import Blueprint
 
 bp = Blueprint("exposure", __name__, template_folder="templates", cli_group="exposure")
 
-from webapp.exposure import limit_pages, pages  # noqa: E402,F401
+from webapp.exposure import cli, limit_pages, pages, views  # noqa: E402,F401

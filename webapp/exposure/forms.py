@@ -1,8 +1,8 @@
-"""Forms for limit sets and the counting policies; every change carries a reason for the audit."""
+"""Forms for limit sets, the counting policies (each change with a reason) and investigations."""
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
-from wtforms import FloatField, IntegerField, SelectField, StringField, TextAreaField
+from wtforms import FloatField, IntegerField, SelectField, StringField, SubmitField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
 from models.dose_codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
@@ -75,3 +75,20 @@ class RuleForm(FlaskForm):
     def values(self) -> dict:
         """The rule's values as the domain check takes them."""
         return {name: self[name].data for name in RULE_COLUMNS}
+
+
+NOTE_LENGTH = 5000
+
+
+class ReviewForm(FlaskForm):
+    """The safety officer's review of an investigation: what was asked, found and done."""
+
+    questions = TextAreaField("Questions asked", validators=[Length(max=NOTE_LENGTH)],
+                              description="Whom you asked what: work done, dosimeter handling, "
+                                          "incidents, instruments used.")
+    findings = TextAreaField("Findings", validators=[Length(max=NOTE_LENGTH)],
+                             description="What explains the dose, or that nothing does.")
+    actions = TextAreaField("Actions", validators=[Length(max=NOTE_LENGTH)],
+                            description="What was changed or decided; 'none needed' if so.")
+    save = SubmitField("Save the review")
+    sign = SubmitField("Save and sign off")

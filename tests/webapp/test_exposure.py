@@ -1,0 +1,240 @@
+"""`flask exposure show` and `review`, investigation pages, the dose lines of the attention list."""
+import json
+from datetime import date, datetime
+from zoneinfo import ZoneInfo
+
+import pytest
+import sqlalchemy as sa
+
+from models import exposure
+from models.dosimetry import Investigation
+from models.people import Role
+from models.settings import lab_settings
+from webapp.slots import Attention, Severity, attention
+
+ON = date(2026, 11, 15)  # day 46 of the 92-day fourth quarter: half of it has gone
+OCTOBER = {"wear_start": date(2026, 10, 1), "wear_end": date(2026, 10, 31)}
+KEYS = {"quantity", "location", "period", "start", "end", "dose_msv", "limit_msv", "fraction",
+        "level", "projected_msv"}
+
+
+def _show(app, *args):
+    return app.test_cli_runner().invoke(args=["exposure", "show", *args])
+
+
+def _rows(app, login, on):
+    result = _show(app, "--person", login, "--on", on, "--json")
+    assert result.exit_code == 0, result.output
+    return json.loads(result.output)
+
+
+def _row(rows, quantity, location, period):
+    return next(r for r in rows if (r["quantity"], r["location"], r["period"]) ==
+                (quantity, location, period))
+
+
+def test_show_json_splits_a_wear_period_across_the_new_year(app, make_person, make_dose,
+                                                            use_limit_set):
+    use_limit_set("icrp103")
+    person = make_person("ada")
+    # 31 days, both ends inclusive
+    make_dose(person, value=3.1, wear_start=date(2025, 12, 15), wear_end=date(2026, 1, 14))
+    first_year = _row(_rows(app, "ada", "2025-12-31"), "Hp(10)", "whole_body", "year")
+    assert first_year["start"] == "2025-01-01" and first_year["end"] == "2025-12-31"
+    assert first_year["dose_msv"] == pytest.approx(3.1 * 17 / 31)  # 15-31 December: 17 days
+    rows = _rows(app, "ada", "2026-01-31")
+    next_year = _row(rows, "Hp(10)", "whole_body", "year")
+    assert next_year["dose_msv"] == pytest.approx(3.1 * 14 / 31)  # 1-14 January: 14 days
+    assert next_year["limit_msv"] == 50.0  # ICRP Publication 103, Table 6: 50 mSv in one year
+    assert next_year["fraction"] == pytest.approx(1.4 / 50)
+    assert next_year["level"] == "below_1"
+    # One month of the year has gone (31 of 365 days): the projection scales the rate so far.
+    assert next_year["projected_msv"] == pytest.approx(1.4 * 365 / 31)
+    month = _row(rows, "Hp(10)", "whole_body", "month")
+    assert month["limit_msv"] is None and month["fraction"] is None
+    for row in rows:
+        assert KEYS <= set(row)
+        assert row["level"] in {"below_1", "level_1", "level_2", "limit_reached"}
+    assert {r["period"] for r in rows} == {"year", "rolling_12_months", "quarter", "month",
+                                           "five_year_block", "rolling_five_years"}
+
+
+def test_show_json_gives_the_level_reached(app, make_person, make_dose, use_limit_set):
+    use_limit_set("icrp103")
+    make_dose(make_person("ada"), value=1.5, **OCTOBER)
+    quarter = _row(_rows(app, "ada", "2026-10-31"), "Hp(10)", "whole_body", "quarter")
+    # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md, investigation levels)
+    assert quarter["level"] == "level_1"
+    assert quarter["dose_msv"] == pytest.approx(1.5)
+
+
+def test_show_prints_a_table_with_the_policies_in_force(app, make_person, make_dose,
+                                                        use_limit_set):
+    use_limit_set("icrp103")
+    make_dose(make_person("ada", name="Ada Example"), value=1.5, **OCTOBER)
+    result = _show(app, "--person", "ada", "--on", "2026-10-31")
+    assert result.exit_code == 0, result.output
+    text = result.output
+    assert "Ada Example (ada) on 2026-10-31" in text
+    assert "ICRP 103 (2007) with the ICRP 2011 lens statement" in text
+    assert "spread over its wear days" in text and "count as zero" in text
+    assert "not the official dose record" in text
+    header = next(line for line in text.splitlines() if line.startswith("For "))
+    quarter = next(line for line in text.splitlines()
+                   if line.startswith("effective") and " quarter " in line)
+    assert "Hp(10)" in quarter and "whole body" in quarter
+    assert "1.500" in quarter and "level I" in quarter
+    # Aligned: the dose column ends where its heading ends.
+    assert quarter.index("1.500") + len("1.500") == header.index("mSv", header.index("Dose")) + 3
+
+
+def test_show_refuses_an_unknown_login_and_a_bad_date(app, make_person):
+    make_person("ada")
+    unknown = _show(app, "--person", "nobody", "--on", "2026-10-31")
+    assert unknown.exit_code != 0 and "No person has the login 'nobody'" in unknown.output
+    bad = _show(app, "--person", "ada", "--on", "31/10/2026")
+    assert bad.exit_code != 0 and "--on" in bad.output
+
+
+def test_show_defaults_to_today_in_the_lab_time_zone(app, session, make_person):
+    make_person("ada")
+    lab_settings(session).timezone = "Pacific/Kiritimati"
+    session.commit()
+    result = _show(app, "--person", "ada", "--json")
+    assert result.exit_code == 0, result.output
+    month = next(r for r in json.loads(result.output) if r["period"] == "month")
+    today = datetime.now(ZoneInfo("Pacific/Kiritimati")).date()
+    assert month["start"] == today.replace(day=1).isoformat()
+
+
+class TestReview:
+    """`flask exposure review` with mail going to a real SMTP server on loopback."""
+
+    @pytest.fixture
+    def app_config(self, mail_app_config):
+        return mail_app_config
+
+    def test_each_new_investigation_mails_the_person_and_the_officer_once(
+            self, app, session, smtp_server, make_person, make_dose, use_limit_set):
+        _, mailbox = smtp_server
+        use_limit_set("icrp103")
+        make_person("rso", roles=(Role.SAFETY_OFFICER,), email="rso@example.org")
+        person = make_person("ada", name="Ada Example", email="ada@example.org")
+        make_dose(person, value=1.5, **OCTOBER)
+        runner = app.test_cli_runner()
+        result = runner.invoke(args=["exposure", "review", "--on", "2026-11-30"])
+        assert result.exit_code == 0, result.output
+        assert "1 new investigation" in result.output
+        assert sorted(m["To"] for m in mailbox.messages) == ["ada@example.org", "rso@example.org"]
+        to_officer = next(m for m in mailbox.messages if m["To"] == "rso@example.org")
+        item = session.scalar(sa.select(Investigation))
+        assert f"/exposure/investigations/{item.id}" in to_officer.get_content()
+        assert "Ada Example" in to_officer["Subject"]
+        assert "level I" in next(m for m in mailbox.messages if m["To"] == "ada@example.org")[
+            "Subject"]
+        again = runner.invoke(args=["exposure", "review", "--on", "2026-11-30"])
+        assert "0 new investigation" in again.output
+        assert len(mailbox.messages) == 2
+
+
+@pytest.fixture
+def crossing(session, make_person, make_dose, use_limit_set):
+    """An open level I investigation of Ada's quarter."""
+    from models.exposure import evaluate_lab
+    from models.investigations import raise_investigations
+
+    use_limit_set("icrp103")
+    person = make_person("ada", name="Ada Example")
+    make_dose(person, value=1.5, **OCTOBER)
+    (item,) = raise_investigations(session, evaluate_lab(session, ON))
+    session.commit()
+    return item
+
+
+@pytest.mark.parametrize("role", [Role.OPERATOR, Role.ADMIN])
+def test_investigation_pages_are_for_the_safety_officer_only(make_person, login, crossing, role):
+    client = login(make_person(roles=(role,)))
+    assert client.get("/exposure/investigations/").status_code == 403
+    assert client.get(f"/exposure/investigations/{crossing.id}").status_code == 403
+    response = client.post(f"/exposure/investigations/{crossing.id}", data={"findings": "x"})
+    assert response.status_code == 403
+    assert crossing.findings is None
+
+
+def test_the_person_concerned_cannot_open_their_own_investigation(session, login, crossing):
+    assert login(crossing.person).get(f"/exposure/investigations/{crossing.id}").status_code == 403
+
+
+def test_review_and_sign_off(session, make_person, login, crossing):
+    client = login(make_person("rso", roles=(Role.SAFETY_OFFICER,)))
+    url = f"/exposure/investigations/{crossing.id}"
+    listing = client.get("/exposure/investigations/").get_data(as_text=True)
+    assert "Ada Example" in listing and "Hp(10) whole body, quarter from 2026-10-01" in listing
+    page = client.get(url).get_data(as_text=True)
+    assert "Hp(10) whole body, quarter from 2026-10-01, level I" in page
+    assert 'href="/exposure/person/%d"' % crossing.person_id in page
+    refused = client.post(url, data={"questions": "Alignment?", "sign": "1"})
+    assert refused.status_code == 200
+    assert "Write the findings before signing off." in refused.get_data(as_text=True)
+    session.refresh(crossing)
+    assert crossing.questions is None and crossing.signed_off_at is None
+    saved = client.post(url, data={"questions": "Alignment?", "findings": "Badge near tube.",
+                                   "actions": "", "save": "1"})
+    assert saved.status_code == 302
+    session.refresh(crossing)
+    assert crossing.findings == "Badge near tube." and crossing.signed_off_at is None
+    signed = client.post(url, data={"questions": "Alignment?", "findings": "Badge near tube.",
+                                    "actions": "Badge board moved.", "sign": "1"})
+    assert signed.status_code == 302
+    session.refresh(crossing)
+    assert crossing.signed_off_at is not None and crossing.actions == "Badge board moved."
+    read_only = client.get(url).get_data(as_text=True)
+    assert "<textarea" not in read_only and "Signed off" in read_only
+    late = client.post(url, data={"findings": "rewritten", "save": "1"})
+    assert "can no longer change" in late.get_data(as_text=True)
+    session.refresh(crossing)
+    assert crossing.findings == "Badge near tube."
+
+
+def test_the_attention_list_puts_doses_first_in_order_of_severity(
+        session, monkeypatch, make_person, login, make_dose, use_limit_set):
+    monkeypatch.setattr("webapp.exposure.views.lab_today", lambda: ON)
+    use_limit_set("icrp103")
+    # ICRP Publication 103, Table 6: 50 mSv in a year; common practice quarterly levels 1.25 / 3.75
+    for login_name, value in [("projected", 1.0), ("one", 1.5), ("two", 4.0), ("limit", 60.0),
+                              ("calm", 0.1)]:
+        make_dose(make_person(login_name, name=f"Name {login_name}"), value=value, **OCTOBER)
+    session.add(Investigation(person_id=make_person("old", name="Name old").id,
+                              series="effective", quantity="Hp(10)", location="whole_body",
+                              period="quarter", period_start=date(2026, 7, 1), level="level_1",
+                              dose_msv=1.3))
+    session.commit()
+    other = Attention(Severity.OUT_OF_SERVICE, "Name instrument out of service", "/x", "")
+    monkeypatch.setattr(attention, "sources", [lambda: [other], *attention.sources])
+    page = login(make_person("rso", roles=(Role.SAFETY_OFFICER,))).get("/")
+    html = page.get_data(as_text=True)
+    order = ["Name limit", "Name two", "Name one", "Name projected", "Investigation open: Name old",
+             "Name instrument"]
+    positions = [html.index(name) for name in order]
+    assert positions == sorted(positions)
+    assert "Name calm" not in html
+    assert "Name one: Hp(10) whole body, quarter: 1.500 mSv, level I" in html
+    assert ("Name projected: Hp(10) whole body, quarter: 1.000 mSv, projected to reach level I "
+            "by the end of the quarter") in html
+    assert 'href="/exposure/person/' in html
+
+
+def test_the_home_page_reads_the_records_only_when_they_change(
+        session, monkeypatch, make_person, login, make_dose):
+    calls = []
+    real = exposure.evaluate_lab
+    monkeypatch.setattr(exposure, "evaluate_lab", lambda *a: calls.append(a) or real(*a))
+    exposure._cache.clear()
+    person = make_person("ada")
+    client = login(make_person("rso", roles=(Role.SAFETY_OFFICER,)))
+    client.get("/")
+    client.get("/")
+    assert len(calls) == 1
+    make_dose(person, value=1.0, **OCTOBER)
+    client.get("/")
+    assert len(calls) == 2

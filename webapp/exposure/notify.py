@@ -1,0 +1,51 @@
+"""After dose records change: raise investigations for new crossings, ask for surveys, send e-mail."""
+from __future__ import annotations
+
+from datetime import date
+
+from flask import current_app
+
+from models.dose_codes import Level
+from models.dose_labels import LEVEL_LABELS
+from models.dosimetry import Investigation
+from models.exposure import cached_lab_evaluation
+from models.investigations import investigation_label, raise_investigations, raise_survey_tasks
+from webapp.extensions import db
+from webapp.formatting import dose, lab_today, lab_zone
+from webapp.mail import send_mail, tell_safety_officer
+
+
+def investigation_path(investigation_id: int) -> str:
+    """Where the safety officer reviews an investigation."""
+    return f"/exposure/investigations/{investigation_id}"
+
+
+def review_dose_levels(on: date | None = None) -> list[Investigation]:
+    """Evaluate the lab on `on` (default today), commit new investigations, then e-mail each one.
+
+    Dose entry and import call this after committing their records; `flask exposure review`
+    runs it from cron so crossings that only a date change reveals are raised too.
+    """
+    on = on or lab_today()
+    lab = cached_lab_evaluation(db.session, on)
+    new = raise_investigations(db.session, lab)
+    raise_survey_tasks(db.session, new, on, lab_zone())
+    db.session.commit()
+    for investigation in new:
+        _tell(investigation)
+    return new
+
+
+def _tell(investigation: Investigation) -> None:
+    """One message to the person, one to the safety officer."""
+    what = investigation_label(investigation)
+    figure = dose(investigation.dose_msv)
+    person = investigation.person
+    send_mail([person.email or ""], f"Your recorded dose reached {LEVEL_LABELS[Level(investigation.level)]}",
+              f"Your recorded dose reached an investigation level or limit:\n\n"
+              f"  {what}: {figure}\n\n"
+              f"The radiation safety officer has been told and will review it with you.")
+    link = current_app.config["BASE_URL"].rstrip("/") + investigation_path(investigation.id)
+    tell_safety_officer(f"Investigation needed: {person.name}",
+                        f"{person.name}'s recorded dose reached an investigation level or limit:"
+                        f"\n\n  {what}: {figure}\n\nRecord the review and sign it off at {link}")

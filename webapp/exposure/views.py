@@ -1,0 +1,150 @@
+"""Investigation pages and the dose lines of the safety officer's attention list."""
+from __future__ import annotations
+
+import numpy as np
+import sqlalchemy as sa
+from flask import abort, flash, redirect, render_template, url_for
+from flask_login import current_user
+
+from models.dose_codes import Level, Location, PeriodKind, Quantity, Series, code, decode
+from models.dose_labels import LEVEL_LABELS, PERIOD_LABELS, dose_row_label
+from models.dosimetry import Investigation
+from models.evaluation import worst_levels
+from models.exposure import cached_lab_evaluation
+from models.investigations import (
+    check_review,
+    investigation_label,
+    open_investigations,
+    record_review,
+    sign_off,
+)
+from models.people import Person, Role
+from webapp.access import roles_required
+from webapp.exposure import bp
+from webapp.exposure.forms import ReviewForm
+from webapp.extensions import db
+from webapp.exposure.notify import investigation_path
+from webapp.formatting import dose, lab_today, local
+from webapp.forms import validate_with
+from webapp.slots import Attention, Severity, attention, navigation
+
+navigation.add("Investigations", "exposure.investigations", {Role.SAFETY_OFFICER}, order=60)
+
+# What a projection reaches, in words that read after "projected to reach".
+REACH = {code(Level.LEVEL_1): "level I", code(Level.LEVEL_2): "level II",
+         code(Level.LIMIT_REACHED): "the limit"}
+LEVEL_SEVERITY = {
+    code(Level.LIMIT_REACHED): Severity.LIMIT_REACHED,
+    code(Level.LEVEL_2): Severity.LEVEL_2,
+    code(Level.LEVEL_1): Severity.LEVEL_1,
+}
+
+
+def person_exposure_path(person_id: int) -> str:
+    """The person's exposure page (endpoint exposure.person, built in pages.py)."""
+    return f"/exposure/person/{person_id}"
+
+
+@bp.route("/exposure/investigations/")
+@roles_required(Role.SAFETY_OFFICER)
+def investigations():
+    """Every investigation: open ones first, then the signed-off ones, newest first."""
+    rows = db.session.execute(
+        sa.select(Investigation, Person.name).join(Person, Person.id == Investigation.person_id)
+        .order_by(Investigation.signed_off_at.is_not(None), Investigation.raised_at.desc(),
+                  Investigation.id.desc())).all()
+    return render_template("exposure/investigations.html", rows=rows, label=investigation_label)
+
+
+@bp.route("/exposure/investigations/<int:investigation_id>", methods=["GET", "POST"])
+@roles_required(Role.SAFETY_OFFICER)
+def investigation(investigation_id: int):
+    """Record the review of an investigation and sign it off; signed off, it is read-only."""
+    item = db.session.get(Investigation, investigation_id) or abort(404)
+    form = ReviewForm(obj=item)
+    if validate_with(form, lambda f: check_review(item, f.sign.data, f.findings.data,
+                                                  f.actions.data)):
+        record_review(db.session, item, questions=form.questions.data,
+                      findings=form.findings.data, actions=form.actions.data)
+        if form.sign.data:
+            sign_off(db.session, item, current_user)
+        db.session.commit()
+        flash("Signed off." if form.sign.data else "Review saved.", "info")
+        return redirect(url_for("exposure.investigation", investigation_id=item.id))
+    signer = item.signed_off_by_id and db.session.get(Person, item.signed_off_by_id)
+    return render_template("exposure/investigation.html", item=item, form=form, signer=signer,
+                           label=investigation_label(item),
+                           person_url=person_exposure_path(item.person_id))
+
+
+@attention.add
+def dose_levels() -> list[Attention]:
+    """People at a level or a limit, or projected to cross one, from the cached evaluation."""
+    lab = cached_lab_evaluation(db.session, lab_today())
+    evaluation = lab.evaluation
+    worst = worst_levels(evaluation)
+    people = worst.attention
+    if not len(people):
+        return []
+    names = dict(db.session.execute(sa.select(Person.id, Person.name).where(
+        Person.id.in_(lab.person_ids[people].tolist()))).all())
+    lines = []
+    for p, (s_proj, t_proj) in zip(people, _projected_rows(evaluation, people)):
+        level = int(worst.level[p])
+        name = names[int(lab.person_ids[p])]
+        reach = s_proj >= 0 and int(evaluation.projected_level[p, s_proj, t_proj])
+        if level:
+            row = _row_text(lab, p, worst.series[p], worst.period[p])
+            text = f"{name}: {row}, {LEVEL_LABELS[decode(Level, [level])[0]]}"
+            if reach > level:
+                text += (f"; {_row_label(lab, p, s_proj, t_proj)} projected to reach "
+                         f"{REACH[reach]} by its end")
+            severity, label = LEVEL_SEVERITY[level], LEVEL_LABELS[decode(Level, [level])[0]]
+        else:
+            text = (f"{name}: {_row_text(lab, p, s_proj, t_proj)}, projected to reach "
+                    f"{REACH[reach]} by the end of the {_period(t_proj)}")
+            severity, label = Severity.PROJECTED, "projected"
+        lines.append(Attention(severity, text, person_exposure_path(int(lab.person_ids[p])),
+                               label))
+    return lines
+
+
+def _projected_rows(evaluation, people: np.ndarray) -> list[tuple[int, int]]:
+    """(series, period) of each person's worst projected crossing, (-1, -1) for none."""
+    rises = evaluation.projected_level[people] - evaluation.level[people]
+    worst_reach = np.where(rises > 0, evaluation.projected_level[people], -1)
+    flat = worst_reach.reshape(len(people), -1)
+    at = flat.argmax(axis=1)
+    n_periods = len(PeriodKind)
+    return [(int(a // n_periods), int(a % n_periods)) if flat[i, a] >= 0 else (-1, -1)
+            for i, a in enumerate(at)]
+
+
+def _period(t: int) -> str:
+    """The plain name of a period kind code."""
+    return PERIOD_LABELS[decode(PeriodKind, [t])[0]]
+
+
+def _row_label(lab, p: int, s: int, t: int) -> str:
+    """'Hp(10) whole body, quarter' for one row of the arrays."""
+    totals = lab.totals
+    return dose_row_label(decode(Series, [s])[0], decode(Quantity, [totals.quantity[p, s]])[0],
+                          decode(Location, [totals.location[p, s, t]])[0],
+                          decode(PeriodKind, [t])[0])
+
+
+def _row_text(lab, p: int, s: int, t: int) -> str:
+    """'Hp(10) whole body, quarter: 1.600 mSv' for one row of the arrays."""
+    return f"{_row_label(lab, p, s, t)}: {dose(float(lab.totals.dose[p, s, t]))}"
+
+
+@attention.add
+def investigations_open() -> list[Attention]:
+    """Investigations waiting for the safety officer's review and sign-off."""
+    return [
+        Attention(Severity.OPEN_INVESTIGATION,
+                  f"Investigation open: {name}, {investigation_label(item)} "
+                  f"(raised {local(item.raised_at, '%Y-%m-%d')})",
+                  investigation_path(item.id), "investigation")
+        for item, name in open_investigations(db.session)
+    ]
