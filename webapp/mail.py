@@ -35,6 +35,12 @@ def send_mail(to: list[str], subject: str, body: str) -> bool:
     return True
 
 
+def link(endpoint: str, **values) -> str:
+    """An absolute address for an e-mail, on BASE_URL; works in a request and from the command line."""
+    path = current_app.url_map.bind("localhost").build(endpoint, values)
+    return current_app.config["BASE_URL"].rstrip("/") + path
+
+
 def safety_officer_addresses() -> list[str]:
     """Every active safety officer's address, plus the lab's alert address."""
     addresses = db.session.scalars(

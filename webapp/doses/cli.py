@@ -8,7 +8,9 @@ import sqlalchemy as sa
 
 from models.dose_import import PRODUCT_LAYOUT, check_report, commit_report, layout_of
 from models.dosimetry import ImportMapping
+from models.investigations import investigation_label
 from webapp.doses import bp
+from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 
 
@@ -46,3 +48,6 @@ def import_report(file, mapping, dry_run):
     batch = commit_report(db.session, preview)
     db.session.commit()
     click.echo(f"Imported {batch.row_count} dose records as batch #{batch.id}.")
+    for investigation in review_dose_levels():
+        click.echo(f"Investigation raised: {investigation_label(investigation)} "
+                   f"({investigation.person.name}).")

@@ -1,13 +1,13 @@
 """Import of a dosimetry report: upload, map the columns once, preview every row, commit all or none."""
 from __future__ import annotations
 
+from hashlib import sha256
 import os
 import re
-from hashlib import sha256
 
-import sqlalchemy as sa
 from flask import abort, current_app, flash, redirect, render_template, request, url_for
 from flask_login import current_user
+import sqlalchemy as sa
 
 from models.dose_import import (
     FIELDS,
@@ -26,6 +26,7 @@ from models.people import Role
 from webapp.access import roles_required
 from webapp.doses import bp
 from webapp.doses.forms import MappingForm, UploadForm
+from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 from webapp.forms import attach_errors
 
@@ -147,6 +148,7 @@ def import_commit(sha: str):
         flash(f"This file was already imported (batch #{preview.earlier.id}); nothing was added.", "warning")
         return redirect(url_for("doses.import_batch", batch_id=preview.earlier.id))
     db.session.commit()
+    review_dose_levels()
     os.remove(_upload_path(sha))
     flash(f"Imported {batch.row_count} dose records as batch #{batch.id}.", "info")
     return redirect(url_for("doses.import_batch", batch_id=batch.id))

@@ -20,6 +20,7 @@ from webapp.access import roles_required
 from webapp.doses import bp
 from webapp.doses.forms import DeclareForm, EndForm
 from webapp.doses.views import DOSE_ROLES, person_or_403
+from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 from webapp.formatting import lab_today
 from webapp.forms import attach_errors
@@ -102,6 +103,7 @@ def pregnancy_change(person_id: int, action: str):
         attach_errors(form, error)
         return _page(person_id, declare_form, end_form, 400)
     db.session.commit()
+    review_dose_levels()
     if action == "declare" and current_user.id == person_id:
         tell_safety_officer("A declaration needs your review",
                             f"{subject.name} recorded a pregnancy declaration dated "

@@ -1,12 +1,18 @@
 """Dose records: the safety officer's overview, entry and correction; each person's own records."""
 from __future__ import annotations
 
-import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user
+import sqlalchemy as sa
 from sqlalchemy.orm import joinedload
 
-from models.dose_ops import add_dose_record, amend_dose_record, check_amendment, check_entry, entry_of
+from models.dose_ops import (
+    add_dose_record,
+    amend_dose_record,
+    check_amendment,
+    check_entry,
+    entry_of,
+)
 from models.dose_versions import chains, history, is_current
 from models.dosimeters import describe_dosimeter, missing_results, wear_period
 from models.dosimetry import DoseRecord, Dosimeter
@@ -15,6 +21,7 @@ from models.pregnancy import declarations_of
 from webapp.access import can_see_dose_of, roles_required
 from webapp.doses import bp
 from webapp.doses.forms import LOCATION_LABELS, RESULT_LABELS, SOURCE_LABELS, AmendForm, DoseForm
+from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 from webapp.formatting import lab_today
 from webapp.forms import validate_with
@@ -108,6 +115,7 @@ def new():
     if validate_with(form, lambda f: f.entry() and check_entry(db.session, f.entry())):
         added = add_dose_record(db.session, form.entry(), created_by_id=current_user.id)
         db.session.commit()
+        review_dose_levels()
         flash("Dose record saved.", "info")
         return redirect(url_for("doses.record", record_id=added.id))
     return render_template("doses/record_form.html", form=form, original=None)
@@ -138,6 +146,7 @@ def amend(record_id: int):
         version = amend_dose_record(db.session, original, entry(form), form.reason.data,
                                     created_by_id=current_user.id)
         db.session.commit()
+        review_dose_levels()
         flash(f"Saved as version {version.version}; version {original.version} stays on file.", "info")
         return redirect(url_for("doses.record", record_id=version.id))
     return render_template("doses/record_form.html", form=form, original=original)

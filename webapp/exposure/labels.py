@@ -5,13 +5,14 @@ from models.dose_codes import (
     LensSource,
     Level,
     LevelKind,
-    Location,
     MrdPolicy,
     PeriodKind,
     Proration,
     Series,
     WorkerCategory,
 )
+from models.dose_labels import LEVEL_LABELS, LOCATION_LABELS
+from models.people import CATEGORY_LABELS
 
 SERIES = {
     Series.EFFECTIVE: "Whole body, Hp(10)",
@@ -31,31 +32,15 @@ PERIOD = {
     PeriodKind.ROLLING_FIVE_YEARS: "Last five years",
     PeriodKind.PREGNANCY: "Since the pregnancy declaration",
 }
-LEVEL = {
-    Level.BELOW_1: "below level I",
-    Level.LEVEL_1: "level I",
-    Level.LEVEL_2: "level II",
-    Level.LIMIT_REACHED: "limit reached",
-}
+LEVEL = LEVEL_LABELS
 LEVEL_CSS = {
     Level.BELOW_1: "state-good",
     Level.LEVEL_1: "state-warn",
     Level.LEVEL_2: "state-bad",
     Level.LIMIT_REACHED: "state-bad",
 }
-LOCATION = {
-    Location.WHOLE_BODY: "whole body",
-    Location.LEFT_HAND: "left hand",
-    Location.RIGHT_HAND: "right hand",
-    Location.EYE: "eye",
-    Location.ABDOMEN: "abdomen",
-}
-CATEGORY = {
-    WorkerCategory.ADULT_WORKER: "Adult worker",
-    WorkerCategory.TRAINEE: "Trainee or student (16-18)",
-    WorkerCategory.DECLARED_PREGNANT: "Declared pregnant worker",
-    WorkerCategory.PUBLIC: "Member of the public",
-}
+LOCATION = LOCATION_LABELS
+CATEGORY = {**CATEGORY_LABELS, WorkerCategory.DECLARED_PREGNANT: "Declared pregnant worker"}
 PRORATION = {
     Proration.PRORATE_DAYS: "Spread each record over its wear days; a period counts the days "
                             "inside it",

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 from datetime import date
+import smtplib
 
 from flask import current_app
 
@@ -12,12 +13,7 @@ from models.exposure import cached_lab_evaluation
 from models.investigations import investigation_label, raise_investigations, raise_survey_tasks
 from webapp.extensions import db
 from webapp.formatting import dose, lab_today, lab_zone
-from webapp.mail import send_mail, tell_safety_officer
-
-
-def investigation_path(investigation_id: int) -> str:
-    """Where the safety officer reviews an investigation."""
-    return f"/exposure/investigations/{investigation_id}"
+from webapp.mail import link, send_mail, tell_safety_officer
 
 
 def review_dose_levels(on: date | None = None) -> list[Investigation]:
@@ -32,7 +28,11 @@ def review_dose_levels(on: date | None = None) -> list[Investigation]:
     raise_survey_tasks(db.session, new, on, lab_zone())
     db.session.commit()
     for investigation in new:
-        _tell(investigation)
+        try:
+            _tell(investigation)
+        except (smtplib.SMTPException, OSError):
+            # The investigation is saved and heads the attention list; a lost e-mail is logged.
+            current_app.logger.exception("Could not e-mail about investigation %s", investigation.id)
     return new
 
 
@@ -45,7 +45,7 @@ def _tell(investigation: Investigation) -> None:
               f"Your recorded dose reached an investigation level or limit:\n\n"
               f"  {what}: {figure}\n\n"
               f"The radiation safety officer has been told and will review it with you.")
-    link = current_app.config["BASE_URL"].rstrip("/") + investigation_path(investigation.id)
+    address = link("exposure.investigation", investigation_id=investigation.id)
     tell_safety_officer(f"Investigation needed: {person.name}",
                         f"{person.name}'s recorded dose reached an investigation level or limit:"
-                        f"\n\n  {what}: {figure}\n\nRecord the review and sign it off at {link}")
+                        f"\n\n  {what}: {figure}\n\nRecord the review and sign it off at {address}")

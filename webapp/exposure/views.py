@@ -23,7 +23,6 @@ from webapp.access import roles_required
 from webapp.exposure import bp
 from webapp.exposure.forms import ReviewForm
 from webapp.extensions import db
-from webapp.exposure.notify import investigation_path
 from webapp.formatting import dose, lab_today, local
 from webapp.forms import validate_with
 from webapp.slots import Attention, Severity, attention, navigation
@@ -38,11 +37,6 @@ LEVEL_SEVERITY = {
     code(Level.LEVEL_2): Severity.LEVEL_2,
     code(Level.LEVEL_1): Severity.LEVEL_1,
 }
-
-
-def person_exposure_path(person_id: int) -> str:
-    """The person's exposure page (endpoint exposure.person, built in pages.py)."""
-    return f"/exposure/person/{person_id}"
 
 
 @bp.route("/exposure/investigations/")
@@ -74,7 +68,7 @@ def investigation(investigation_id: int):
     signer = item.signed_off_by_id and db.session.get(Person, item.signed_off_by_id)
     return render_template("exposure/investigation.html", item=item, form=form, signer=signer,
                            label=investigation_label(item),
-                           person_url=person_exposure_path(item.person_id))
+                           person_url=url_for("exposure.person", person_id=item.person_id))
 
 
 @attention.add
@@ -104,7 +98,7 @@ def dose_levels() -> list[Attention]:
             text = (f"{name}: {_row_text(lab, p, s_proj, t_proj)}, projected to reach "
                     f"{REACH[reach]} by the end of the {_period(t_proj)}")
             severity, label = Severity.PROJECTED, "projected"
-        lines.append(Attention(severity, text, person_exposure_path(int(lab.person_ids[p])),
+        lines.append(Attention(severity, text, url_for("exposure.person", person_id=int(lab.person_ids[p])),
                                label))
     return lines
 
@@ -145,6 +139,6 @@ def investigations_open() -> list[Attention]:
         Attention(Severity.OPEN_INVESTIGATION,
                   f"Investigation open: {name}, {investigation_label(item)} "
                   f"(raised {local(item.raised_at, '%Y-%m-%d')})",
-                  investigation_path(item.id), "investigation")
+                  url_for("exposure.investigation", investigation_id=item.id), "investigation")
         for item, name in open_investigations(db.session)
     ]

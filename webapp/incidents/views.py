@@ -3,12 +3,11 @@ from __future__ import annotations
 
 import smtplib
 
-import sqlalchemy as sa
 from flask import abort, current_app, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
+import sqlalchemy as sa
 
 from models import audit
-from models.units import to_msv
 from models.dose_codes import Location, Quantity
 from models.errors import Invalid
 from models.incident_ops import (
@@ -26,13 +25,15 @@ from models.incident_ops import (
 from models.incidents import Incident, IncidentType
 from models.instruments import Instrument, active_instruments
 from models.people import Person, Role
+from models.units import to_msv
 from webapp.access import can_see_dose_of, roles_required
+from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 from webapp.formatting import from_local, local
 from webapp.forms import attach_errors, validate_with
 from webapp.incidents import bp
 from webapp.incidents.forms import CloseForm, DoseForm, NoteForm, ReportForm, StopForm
-from webapp.mail import tell_safety_officer
+from webapp.mail import link, tell_safety_officer
 from webapp.sessions.forms import optional_id
 from webapp.slots import Attention, Severity, attention, navigation
 
@@ -87,13 +88,13 @@ def _report_values(form: ReportForm) -> dict:
 def _mail_body(incident: Incident) -> str:
     """The safety officer's e-mail: what, where, who, and the link."""
     people = ", ".join(p.name for p in incident.people) or "none named"
-    link = current_app.config["BASE_URL"].rstrip("/") + url_for("incidents.show", incident_id=incident.id)
+    address = link("incidents.show", incident_id=incident.id)
     return (f"{TYPE_LABELS[incident.type]} reported by {incident.reported_by.name}.\n\n"
             f"When: {local(incident.occurred_at)}\n"
             f"Instrument: {incident.instrument.name if incident.instrument else 'none named'}\n"
             f"People involved: {people}\n\nWhat happened:\n{incident.description}\n\n"
             f"What was done at once:\n{incident.immediate_actions or '(nothing stated)'}\n\n"
-            f"Follow it up: {link}\n")
+            f"Follow it up: {address}\n")
 
 
 @bp.route("/incidents/new", methods=["GET", "POST"])
@@ -163,8 +164,8 @@ _FORM_NAMES = {NoteForm: "note_form", StopForm: "stop_form", DoseForm: "dose_for
                CloseForm: "close_form"}
 
 
-def _follow_up(incident_id: int, form, action, done: str, reason: str | None = None):
-    """Run one follow-up action from a form; commit and redirect, or show the errors."""
+def _follow_up(incident_id: int, form, action, done: str, reason: str | None = None, after=None):
+    """Run one follow-up action from a form; commit, run `after`, redirect; or show the errors."""
     incident = db.session.get(Incident, incident_id) or abort(404)
     if form.validate_on_submit():
         try:
@@ -175,6 +176,8 @@ def _follow_up(incident_id: int, form, action, done: str, reason: str | None = N
             attach_errors(form, error)
         else:
             db.session.commit()
+            if after is not None:
+                after()
             flash(done, "info")
             return redirect(url_for("incidents.show", incident_id=incident.id))
     return _show(incident, **{_FORM_NAMES[type(form)]: form})
@@ -214,7 +217,8 @@ def _record_dose(incident: Incident, form: DoseForm) -> None:
 @roles_required(Role.SAFETY_OFFICER)
 def dose(incident_id: int):
     """Record an estimated dose for one person."""
-    return _follow_up(incident_id, DoseForm(), _record_dose, "Estimated dose recorded.")
+    return _follow_up(incident_id, DoseForm(), _record_dose, "Estimated dose recorded.",
+                      after=review_dose_levels)
 
 
 @bp.route("/incidents/<int:incident_id>/close", methods=["POST"])
