@@ -9,6 +9,7 @@ import numpy as np
 import sqlalchemy as sa
 
 from models import exposure
+from models.cache import UntilChanged
 from models.dose_codes import Result
 from models.engine import DoseRecords, compute_doses
 from models.evaluation import evaluate
@@ -93,7 +94,7 @@ def time_home(client, login: str, password: str, runs: int) -> tuple[float, floa
     response = client.post("/login", data={"login": login, "password": password})
     if response.status_code != 302:
         raise RuntimeError("the bench could not log in as the safety officer")
-    exposure._cache.clear()
+    UntilChanged.forget_all()
     cold, page = median_seconds(lambda: client.get("/"), 1)
     warm, page = median_seconds(lambda: client.get("/"), runs)
     if page.status_code != 200:

@@ -9,7 +9,7 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
 from models import limit_presets
-from models.audit import AuditEvent
+from models.cache import UntilChanged
 from models.dose_versions import is_current
 from models.dosimetry import DoseRecord, PregnancyDeclaration
 from models.engine import DoseRecords, DoseTotals, Policies, compute_doses, person_index
@@ -118,18 +118,12 @@ def evaluate_lab(session: Session, on: date) -> LabEvaluation:
     return LabEvaluation(on, person_ids, evaluation)
 
 
-_cache: dict[tuple, LabEvaluation] = {}
+# Everything the evaluation reads: the records, declarations, people's categories, policies, limits.
+EVALUATION_INPUTS = frozenset({"dose_record", "pregnancy_declaration", "person", "lab_settings",
+                               "limit_set", "limit_rule"})
+_evaluations: UntilChanged[LabEvaluation] = UntilChanged(EVALUATION_INPUTS)
 
 
 def cached_lab_evaluation(session: Session, on: date) -> LabEvaluation:
-    """The lab's evaluation, recomputed only when anything was written or the date changed.
-
-    Every write appends an audit event, so the newest audit event id is a version of the data.
-    """
-    lab_settings(session)  # created first if missing, so creating it does not change the version
-    version = session.scalar(sa.select(sa.func.max(AuditEvent.id)))
-    key = (str(session.get_bind().url), version, on)
-    if key not in _cache:
-        _cache.clear()
-        _cache[key] = evaluate_lab(session, on)
-    return _cache[key]
+    """The lab's evaluation, recomputed only when one of its inputs was written or the date changed."""
+    return _evaluations.get(session, on, lambda: evaluate_lab(session, on))

@@ -15,9 +15,11 @@ from werkzeug.security import generate_password_hash
 from werkzeug.serving import make_server
 
 from models import Base
+from models.cache import UntilChanged
 from models.dose_codes import WorkerCategory
 from models.instruments import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind, save_instrument
 from models.people import Role, add_person
+from models.settings import LabSettings
 from webapp import create_app
 from webapp.extensions import db
 
@@ -89,6 +91,8 @@ def database_url(request, tmp_path) -> str:
     engine = sa.create_engine(url)
     with engine.begin() as conn:
         conn.execute(sa.text(f"TRUNCATE {tables} RESTART IDENTITY CASCADE"))
+        # The first migration creates the settings row; put it back as a fresh database has it.
+        conn.execute(LabSettings.__table__.insert().values(id=1))
     engine.dispose()
     return url
 
@@ -103,6 +107,7 @@ def app_config() -> dict:
 def app(database_url, app_config):
     """The app bound to a fresh database, inside an app context."""
     app = create_app(base_config(database_url, **app_config))
+    UntilChanged.forget_all()  # PostgreSQL ids restart per test, so data versions may repeat
     with app.app_context():
         yield app
         db.session.remove()

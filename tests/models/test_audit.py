@@ -53,3 +53,14 @@ def test_deleted_event_is_reported(session, make_person):
     problem = verify_chain(session)
     assert problem is not None and problem.event_id == following.id
     assert "removed" in problem.message
+
+
+def test_data_version_follows_only_the_named_record_types(session, make_person, make_instrument):
+    from models.audit import data_version
+
+    make_person()
+    people = data_version(session, {"person"})
+    make_instrument()
+    assert data_version(session, {"person"}) == people
+    assert data_version(session, {"person", "instrument"}) > people
+    assert data_version(session, {"nothing_here"}) == 0

@@ -53,10 +53,13 @@ def test_pregnancy_window_follows_the_declaration(session, make_person):
     assert abs(row["dose_msv"] - 3.1 * 16 / 31) < 1e-9  # 16 of the record's 31 days fall inside
 
 
-def test_cache_is_renewed_by_any_write(session, make_person):
+def test_cache_is_renewed_by_a_dose_write_only(session, make_person, make_instrument):
     person = make_person()
     first = cached_lab_evaluation(session, ON)
+    assert cached_lab_evaluation(session, ON) is first
+    make_instrument()  # not an input of the evaluation
     assert cached_lab_evaluation(session, ON) is first
     session.add(_record(person, 1.0))
     session.commit()
     assert cached_lab_evaluation(session, ON) is not first
+    assert cached_lab_evaluation(session, date(2026, 12, 1)) is not first

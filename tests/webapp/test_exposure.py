@@ -7,6 +7,7 @@ import pytest
 import sqlalchemy as sa
 
 from models import exposure
+from models.cache import UntilChanged
 from models.dosimetry import Investigation
 from models.people import Role
 from models.settings import lab_settings
@@ -229,7 +230,7 @@ def test_the_home_page_reads_the_records_only_when_they_change(
     calls = []
     real = exposure.evaluate_lab
     monkeypatch.setattr(exposure, "evaluate_lab", lambda *a: calls.append(a) or real(*a))
-    exposure._cache.clear()
+    UntilChanged.forget_all()
     person = make_person("ada")
     client = login(make_person("rso", roles=(Role.SAFETY_OFFICER,)))
     client.get("/")

@@ -6,6 +6,7 @@ from flask_login import current_user
 import sqlalchemy as sa
 from sqlalchemy.orm import joinedload
 
+from models.cache import UntilChanged
 from models.dose_ops import (
     add_dose_record,
     amend_dose_record,
@@ -30,7 +31,6 @@ from webapp.slots import Attention, Severity, attention, home_panels, navigation
 # Everyone who may have dose records of their own; an admin alone has none to see.
 DOSE_ROLES = (Role.OPERATOR, Role.SAFETY_OFFICER)
 
-navigation.add("My dose records", "doses.mine", {Role.OPERATOR}, order=40)
 navigation.add("Doses", "doses.index", {Role.SAFETY_OFFICER}, order=41)
 
 
@@ -154,7 +154,17 @@ def amend(record_id: int):
 
 @attention.add
 def _not_returned() -> list[Attention]:
-    """Dosimeters whose result never came, for the safety officer's list."""
+    """Dosimeters whose result never came, for the safety officer's list (kept until records change)."""
+    return _not_returned_lines.get(db.session, lab_today(), _not_returned_now)
+
+
+# The scan reads every dose record, so its lines are kept until a dose, dosimeter or person changes.
+_not_returned_lines: UntilChanged[list[Attention]] = UntilChanged(
+    frozenset({"dose_record", "dosimeter", "person"}))
+
+
+def _not_returned_now() -> list[Attention]:
+    """The lines, computed afresh."""
     lines = []
     for missing in missing_results(db.session, lab_today()):
         what = f"dosimeter {missing.dosimeter.serial}" if missing.dosimeter else "dose record"

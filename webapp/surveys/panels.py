@@ -25,7 +25,6 @@ from webapp.surveys import bp
 
 navigation.add("Surveys", "surveys.surveys", order=30)
 navigation.add("Bypass permits", "surveys.permits", order=35)
-navigation.add("Survey meters", "surveys.meters", {Role.SAFETY_OFFICER}, order=38)
 
 
 @bp.app_context_processor
