@@ -33,17 +33,18 @@ LEVEL_LABELS = {
     Level.LIMIT_REACHED: "limit reached",
 }
 PRORATION_LABELS = {
-    Proration.PRORATE_DAYS: "each record spread over its wear days",
-    Proration.WEAR_END: "whole record at its wear-period end date",
+    Proration.PRORATE_DAYS: "Spread each record over its wear days; a period counts the days "
+                            "inside it",
+    Proration.WEAR_END: "Whole record in the period of its wear-period end date",
 }
 MRD_LABELS = {
-    MrdPolicy.ZERO: "below-MRD results count as zero",
-    MrdPolicy.HALF: "below-MRD results count as half the MRD",
-    MrdPolicy.FULL: "below-MRD results count as the MRD",
+    MrdPolicy.ZERO: "Below the minimum reportable dose counts as zero",
+    MrdPolicy.HALF: "Below the minimum reportable dose counts as half the MRD",
+    MrdPolicy.FULL: "Below the minimum reportable dose counts as the MRD",
 }
 LENS_LABELS = {
-    LensSource.HP007: "lens from Hp(3), else from Hp(0.07) whole body",
-    LensSource.HP10: "lens from Hp(3), else from Hp(10) whole body",
+    LensSource.HP007: "Lens from Hp(0.07) whole body where no Hp(3) is measured",
+    LensSource.HP10: "Lens from Hp(10) whole body where no Hp(3) is measured",
 }
 
 

@@ -78,7 +78,7 @@ def test_show_prints_a_table_with_the_policies_in_force(app, make_person, make_d
     text = result.output
     assert "Ada Example (ada) on 2026-10-31" in text
     assert "ICRP 103 (2007) with the ICRP 2011 lens statement" in text
-    assert "spread over its wear days" in text and "count as zero" in text
+    assert "Spread each record over its wear days" in text and "counts as zero" in text
     assert "not the official dose record" in text
     header = next(line for line in text.splitlines() if line.startswith("For "))
     quarter = next(line for line in text.splitlines()

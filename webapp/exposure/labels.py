@@ -2,16 +2,19 @@
 from __future__ import annotations
 
 from models.dose_codes import (
-    LensSource,
     Level,
     LevelKind,
-    MrdPolicy,
     PeriodKind,
-    Proration,
     Series,
     WorkerCategory,
 )
-from models.dose_labels import LEVEL_LABELS, LOCATION_LABELS
+from models.dose_labels import (
+    LENS_LABELS,
+    LEVEL_LABELS,
+    LOCATION_LABELS,
+    MRD_LABELS,
+    PRORATION_LABELS,
+)
 from models.people import CATEGORY_LABELS
 
 SERIES = {
@@ -41,20 +44,9 @@ LEVEL_CSS = {
 }
 LOCATION = LOCATION_LABELS
 CATEGORY = {**CATEGORY_LABELS, WorkerCategory.DECLARED_PREGNANT: "Declared pregnant worker"}
-PRORATION = {
-    Proration.PRORATE_DAYS: "Spread each record over its wear days; a period counts the days "
-                            "inside it",
-    Proration.WEAR_END: "Whole record in the period of its wear-period end date",
-}
-MRD = {
-    MrdPolicy.ZERO: "Below the minimum reportable dose counts as zero",
-    MrdPolicy.HALF: "Below the minimum reportable dose counts as half the MRD",
-    MrdPolicy.FULL: "Below the minimum reportable dose counts as the MRD",
-}
-LENS = {
-    LensSource.HP007: "Lens from Hp(0.07) whole body where no Hp(3) is measured",
-    LensSource.HP10: "Lens from Hp(10) whole body where no Hp(3) is measured",
-}
+PRORATION = PRORATION_LABELS
+MRD = MRD_LABELS
+LENS = LENS_LABELS
 LEVEL_KIND = {LevelKind.FRACTION: "fraction of the limit", LevelKind.ABSOLUTE: "mSv per period"}
 RESULT = {
     "measured": "measured",
