@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 from datetime import date, datetime
 
 import sqlalchemy as sa
+from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, joinedload
 
 from models.dose_codes import Location, Quantity, Result
@@ -315,7 +316,11 @@ def commit_report(session: Session, preview: Preview, *, imported_by_id: int | N
                         mapping_name=preview.layout.name, row_count=len(preview.rows),
                         imported_by_id=imported_by_id)
     session.add(batch)
-    session.flush()
+    try:
+        session.flush()
+    except IntegrityError as error:  # the same file committed by someone else a moment ago
+        raise Invalid.one("file", "This file has just been imported by someone else; nothing "
+                                  "was added.") from error
     session.add_all(record_from(row.entry, import_batch_id=batch.id, created_by_id=imported_by_id)
                     for row in preview.rows)
     session.flush()

@@ -72,7 +72,7 @@ class ImportBatch(IdMixin, Base):
     __tablename__ = "import_batch"
 
     filename: Mapped[str] = mapped_column(sa.String(255))
-    sha256: Mapped[str] = mapped_column(sa.String(64), index=True)
+    sha256: Mapped[str] = mapped_column(sa.String(64), unique=True)
     mapping_name: Mapped[str | None] = mapped_column(sa.String(120))
     row_count: Mapped[int]
     imported_by_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))

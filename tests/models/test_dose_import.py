@@ -148,3 +148,21 @@ def test_mapping_refusals(session):
         save_mapping(session, name=" ", columns={"value": "Dose"}, date_format="%Q", default_unit="Sv")
     assert set(caught.value.errors) == {"name", "person", "wear_start", "wear_end", "quantity",
                                         "location", "date_format", "default_unit"}
+
+
+def test_a_file_committed_meanwhile_by_someone_else_is_refused_cleanly(session, make_person):
+    """Two people committing the same file at once: the second gets a message, not a crash."""
+    import hashlib
+
+    from models.dose_import import PRODUCT_LAYOUT, check_report, commit_report
+    from models.dosimetry import ImportBatch
+
+    make_person("ada")
+    data = (b"person,dosimeter,wear_start,wear_end,quantity,location,value,unit,result,mrd\n"
+            b"ada,,2026-01-01,2026-01-31,Hp(10),whole_body,0.2,mSv,measured,\n")
+    preview = check_report(session, data, PRODUCT_LAYOUT, "report.csv")
+    session.add(ImportBatch(filename="report.csv", sha256=hashlib.sha256(data).hexdigest(),
+                            row_count=1))
+    session.flush()
+    with pytest.raises(Invalid, match="just been imported by someone else"):
+        commit_report(session, preview)

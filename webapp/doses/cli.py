@@ -8,6 +8,7 @@ import sqlalchemy as sa
 
 from models.dose_import import PRODUCT_LAYOUT, check_report, commit_report, layout_of
 from models.dosimetry import ImportMapping
+from models.errors import Invalid
 from models.investigations import investigation_label
 from webapp.doses import bp
 from webapp.exposure.notify import review_dose_levels
@@ -45,7 +46,11 @@ def import_report(file, mapping, dry_run):
     if dry_run:
         click.echo(f"All {len(preview.rows)} rows are valid; nothing written (dry run).")
         return
-    batch = commit_report(db.session, preview)
+    try:
+        batch = commit_report(db.session, preview)
+    except Invalid as error:
+        db.session.rollback()
+        raise click.ClickException(" ".join(error.errors.values())) from error
     db.session.commit()
     click.echo(f"Imported {batch.row_count} dose records as batch #{batch.id}.")
     for investigation in review_dose_levels():
