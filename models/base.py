@@ -5,7 +5,7 @@ import enum
 from datetime import datetime, timezone
 
 import sqlalchemy as sa
-from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
+from sqlalchemy.orm import DeclarativeBase, InstrumentedAttribute, Mapped, Session, mapped_column
 
 # Named constraints make migrations portable between SQLite and PostgreSQL.
 NAMING_CONVENTION = {
@@ -62,6 +62,12 @@ class Base(DeclarativeBase):
 
     metadata = sa.MetaData(naming_convention=NAMING_CONVENTION)
     type_annotation_map = {datetime: UTCDateTime()}
+
+
+def taken(session: Session, column: InstrumentedAttribute, value, current=None) -> bool:
+    """True when a row other than `current` already holds this value in a unique column."""
+    holder = session.scalar(sa.select(column.class_).where(column == value))
+    return holder is not None and holder is not current
 
 
 class IdMixin:

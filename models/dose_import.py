@@ -16,6 +16,7 @@ import sqlalchemy as sa
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, joinedload
 
+from models.base import taken
 from models.dose_codes import Location, Quantity, Result
 from models.dose_ops import (
     DoseEntry,
@@ -86,7 +87,7 @@ def save_mapping(session: Session, *, name: str, columns: dict[str, str | None],
     errors = {}
     if not name:
         errors["name"] = "Name the mapping (for example after the dosimetry service)."
-    elif session.scalar(sa.select(ImportMapping).where(ImportMapping.name == name)) is not None:
+    elif taken(session, ImportMapping.name, name):
         errors["name"] = f"A mapping named '{name}' already exists."
     if "person" not in columns and "dosimeter" not in columns:
         errors["person"] = "Choose the column with the wearer's login, or the one with the dosimeter serial."

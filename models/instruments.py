@@ -7,7 +7,7 @@ from datetime import date, datetime
 import sqlalchemy as sa
 from sqlalchemy.orm import Mapped, Session, mapped_column, relationship
 
-from models.base import Base, IdMixin, enum_column, utcnow
+from models.base import Base, IdMixin, enum_column, taken, utcnow
 from models.errors import Invalid
 from models.people import Person
 
@@ -189,10 +189,8 @@ def check_instrument(session: Session, values: dict, current: Instrument | None 
     name = (values.get("name") or "").strip()
     if not name:
         errors["name"] = "Enter the instrument's name."
-    else:
-        clash = session.scalar(sa.select(Instrument).where(Instrument.name == name))
-        if clash is not None and clash is not current:
-            errors["name"] = f"An instrument called '{name}' already exists."
+    elif taken(session, Instrument.name, name, current):
+        errors["name"] = f"An instrument called '{name}' already exists."
     if values.get("anode") not in ELEMENT_SYMBOLS:
         errors["anode"] = "Give the anode as an element symbol, e.g. Cu or Mo."
     for key, label in (("max_kv", "Maximum tube voltage"), ("max_ma", "Maximum tube current"),

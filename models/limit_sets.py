@@ -5,6 +5,7 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
 from models import limit_presets
+from models.base import taken
 from models.errors import Invalid
 from models.limits import LimitRule, LimitSet
 
@@ -49,7 +50,7 @@ def copy_limit_set(session: Session, source: LimitSet, name: str) -> LimitSet:
     name = name.strip()
     if not name:
         raise Invalid.one("name", "Name the copy.")
-    if session.scalar(sa.select(LimitSet).where(LimitSet.name == name)) is not None:
+    if taken(session, LimitSet.name, name):
         raise Invalid.one("name", f"A limit set called '{name}' already exists.")
     copy = LimitSet(name=name, description=f"Copy of {source.name}",
                     rules=[stored_rule(rule) for rule in as_rules(source).rules])

@@ -7,7 +7,7 @@ from datetime import date, timedelta
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
-from models.base import utcnow
+from models.base import taken, utcnow
 from models.due import calibration_due, calibration_valid_on, due_state
 from models.errors import Invalid
 from models.surveys import SurveyMeter
@@ -22,10 +22,8 @@ def check_meter(session: Session, values: dict, today: date, current: SurveyMete
     serial = (values.get("serial") or "").strip()
     if not serial:
         errors["serial"] = "Enter the meter's serial number."
-    else:
-        clash = session.scalar(sa.select(SurveyMeter).where(SurveyMeter.serial == serial))
-        if clash is not None and clash is not current:
-            errors["serial"] = f"A meter with serial '{serial}' is already registered."
+    elif taken(session, SurveyMeter.serial, serial, current):
+        errors["serial"] = f"A meter with serial '{serial}' is already registered."
     errors.update(_calibration_errors(values.get("calibrated_on"),
                                       values.get("calibration_interval_months"), today))
     factor = values.get("correction_factor")
