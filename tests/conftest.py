@@ -165,11 +165,12 @@ def make_instrument(app):
 
 @pytest.fixture
 def authorise(app):
-    """Factory: authorise a person on an instrument, trained today, refresher in a year."""
+    """Factory: authorise a person on an instrument, trained 30 days ago, refresher in a year."""
 
     def make(person, instrument, *, level=AuthorisationLevel.INDEPENDENT,
              trained_on: date | None = None, refresher_due: date | None = None):
-        trained_on = trained_on or date.today()
+        # Trained a while ago, so sessions from earlier today are covered whatever the hour.
+        trained_on = trained_on or date.today() - timedelta(days=30)
         auth = Authorisation(person_id=person.id, instrument_id=instrument.id, level=level,
                              trained_on=trained_on,
                              refresher_due=refresher_due or trained_on + timedelta(days=365))
