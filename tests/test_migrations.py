@@ -19,3 +19,15 @@ def test_sqlite_has_foreign_keys_and_wal(app):
     with db.engine.connect() as conn:
         assert conn.exec_driver_sql("PRAGMA foreign_keys").scalar() == 1
         assert conn.exec_driver_sql("PRAGMA journal_mode").scalar() == "wal"
+
+
+def test_a_new_database_takes_its_time_zone_from_the_environment(tmp_path, monkeypatch):
+    import sqlite3
+
+    from tests.conftest import migrate_to_head
+
+    monkeypatch.setenv("LAB_TIMEZONE", "America/Chicago")
+    path = tmp_path / "zoned.sqlite"
+    migrate_to_head(f"sqlite:///{path}")
+    with sqlite3.connect(path) as conn:
+        assert conn.execute("SELECT timezone FROM lab_settings").fetchone() == ("America/Chicago",)

@@ -24,7 +24,6 @@ def from_environment(instance_path: str) -> dict:
     return {
         "SECRET_KEY": os.environ.get("SECRET_KEY") or _instance_secret(instance_path),
         "SQLALCHEMY_DATABASE_URI": database_url,
-        "LAB_TIMEZONE": os.environ.get("LAB_TIMEZONE", "UTC"),
         "MAIL_SERVER": os.environ.get("MAIL_SERVER", ""),
         "MAIL_PORT": int(os.environ.get("MAIL_PORT", "25")),
         "MAIL_USERNAME": os.environ.get("MAIL_USERNAME", ""),

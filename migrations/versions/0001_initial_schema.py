@@ -5,6 +5,9 @@ Revises:
 Create Date: 2026-12-01 23:05:15.436431
 
 """
+import os
+from zoneinfo import ZoneInfo
+
 from alembic import op
 import sqlalchemy as sa
 
@@ -539,11 +542,16 @@ def upgrade():
 
     # ### end Alembic commands ###
 
-    # The lab settings row exists from the start, so reading settings never writes.
+    # The lab settings row exists from the start, so reading settings never writes. A new
+    # database takes its time zone from LAB_TIMEZONE; the Settings page changes it afterwards.
+    zone = os.environ.get("LAB_TIMEZONE") or "UTC"
+    ZoneInfo(zone)  # an unknown zone stops the migration here, not every page later
     op.execute(
-        "INSERT INTO lab_settings (id, lab_name, timezone, proration, mrd_policy, lens_source, "
-        "display_unit, five_year_first_year, due_soon_days, reminders_enabled) VALUES "
-        "(1, 'X-ray laboratory', 'UTC', 'prorate_days', 'zero', 'hp007', 'mSv', 2026, 7, true)"
+        sa.text(
+            "INSERT INTO lab_settings (id, lab_name, timezone, proration, mrd_policy, lens_source, "
+            "display_unit, five_year_first_year, due_soon_days, reminders_enabled) VALUES "
+            "(1, 'X-ray laboratory', :zone, 'prorate_days', 'zero', 'hp007', 'mSv', 2026, 7, true)"
+        ).bindparams(zone=zone)
     )
 
 
