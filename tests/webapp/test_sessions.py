@@ -130,3 +130,16 @@ def test_bad_numbers_are_explained_not_500(make_person, make_instrument, authori
     response = login(operator).post(f"/sessions/start/{instrument.id}", data={**START, "kv": "lots"})
     assert response.status_code == 200
     assert re.search(r"Enter a number\.|Not a valid float value\.", _text(response))
+
+
+def test_the_start_form_chooses_my_whole_body_dosimeter(make_person, make_instrument, authorise,
+                                                        login, make_dosimeter):
+    from models.dosimetry import DosimeterKind, Hand
+
+    operator = make_person("op")
+    instrument = make_instrument()
+    authorise(operator, instrument)
+    make_dosimeter(operator, serial="R-1", kind=DosimeterKind.RING, hand=Hand.LEFT)
+    body = make_dosimeter(operator, serial="W-1")
+    page = _text(login(operator).get(f"/sessions/start/{instrument.id}"))
+    assert f'<option selected value="{body.id}">W-1 (whole body)</option>' in page

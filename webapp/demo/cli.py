@@ -10,6 +10,7 @@ from models import audit
 from models.demo_lab import DEMO_PASSWORD, LAB_ZONE, PEOPLE, is_empty, load_demo_lab
 from models.people import CATEGORY_LABELS, ROLE_LABELS, find_person
 from webapp.demo import bp
+from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 from webapp.passwords import hash_password
 
@@ -31,10 +32,12 @@ def load(if_empty, today):
     with audit.reason(db.session, "Demo lab loaded"):
         summary = load_demo_lab(db.session, day, hash_password(DEMO_PASSWORD))
     db.session.commit()
+    # As after any import: doses over a level raise investigations for the safety officer.
+    raised = review_dose_levels(day)
     click.echo(f"Loaded the demo lab up to {day.isoformat()}: {summary.people} people, "
                f"{summary.instruments} instruments, {summary.sessions} sessions, "
                f"{summary.checks} checks, {summary.surveys} surveys, "
-               f"{summary.dose_records} dose records.")
+               f"{summary.dose_records} dose records, {len(raised)} investigations raised.")
 
 
 @bp.cli.command("logins")

@@ -8,7 +8,7 @@ from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from models.base import utcnow
-from models.dosimetry import Dosimeter
+from models.dosimetry import Dosimeter, DosimeterKind
 from models.errors import Invalid
 from models.instruments import Instrument, active_instruments, current_authorisations
 from models.logbook import (
@@ -39,11 +39,15 @@ OPERATING = {Role.OPERATOR, Role.SAFETY_OFFICER}
 navigation.add("Sessions", "sessions.index", order=20)
 
 
-def _dosimeter_choices(person: Person) -> list[tuple[str, str]]:
-    """The person's dosimeters still issued, for the 'which dosimeter' choice."""
+def _offer_dosimeters(form, person: Person) -> None:
+    """Offer the person's dosimeters still issued; on a new form, choose their whole-body one."""
     rows = db.session.scalars(sa.select(Dosimeter).where(
-        Dosimeter.wearer_id == person.id, Dosimeter.returned_on.is_(None)).order_by(Dosimeter.serial))
-    return [("", "—")] + [(str(d.id), f"{d.serial} ({d.kind.value.replace('_', ' ')})") for d in rows]
+        Dosimeter.wearer_id == person.id, Dosimeter.returned_on.is_(None)).order_by(Dosimeter.serial)).all()
+    form.dosimeter_id.choices = [("", "—")] + [
+        (str(d.id), f"{d.serial} ({d.kind.value.replace('_', ' ')})") for d in rows]
+    if not form.is_submitted():
+        form.dosimeter_id.data = next(
+            (str(d.id) for d in rows if d.kind == DosimeterKind.WHOLE_BODY), "")
 
 
 @home_panels.add("sessions/_home.html", roles=OPERATING, order=10)
@@ -62,7 +66,7 @@ def start(instrument_id: int):
     """Start a session now on one instrument: settings, checks, dosimeter."""
     instrument = db.session.get(Instrument, instrument_id) or abort(404)
     form = StartForm()
-    form.dosimeter_id.choices = _dosimeter_choices(current_user)
+    _offer_dosimeters(form, current_user)
     if not form.is_submitted():
         form.dosimeter_worn.data = True
     now = utcnow()
@@ -108,7 +112,7 @@ def end(session_id: int):
 def log():
     """Write up a session after it ended."""
     form = LogForm()
-    form.dosimeter_id.choices = _dosimeter_choices(current_user)
+    _offer_dosimeters(form, current_user)
     form.instrument.choices = [("", "—")] + [(str(i.id), i.name) for i in active_instruments(db.session)]
     instrument = db.session.get(Instrument, optional_id(form.instrument.data) or 0)
     now = utcnow()
