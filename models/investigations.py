@@ -29,9 +29,10 @@ from models.dose_labels import LEVEL_LABELS, dose_row_label
 from models.dosimetry import Investigation
 from models.errors import Invalid
 from models.exposure import LabEvaluation
-from models.instruments import Authorisation
+from models.instruments import Authorisation, Instrument
 from models.people import Person
 from models.sessions import InstrumentSession
+from models.survey_ops import raise_survey_task
 from models.surveys import SurveyTask, SurveyTrigger
 
 ROLLING = {PeriodKind.ROLLING_12_MONTHS, PeriodKind.ROLLING_FIVE_YEARS}
@@ -163,14 +164,11 @@ def raise_survey_tasks(session: Session, new: list[Investigation], on: date,
         for instrument_id in used:
             if instrument_id in open_already or instrument_id in tasks:
                 continue
-            tasks[instrument_id] = SurveyTask(
-                instrument_id=instrument_id, trigger=SurveyTrigger.DOSE_RISE,
-                reason=(f"Dose rise: a user of this instrument reached "
-                        f"{LEVEL_LABELS[Level(investigation.level)]} "
-                        f"({_row_of(investigation)} from "
-                        f"{investigation.period_start.isoformat()}). Survey the instrument."))
-    session.add_all(tasks.values())
-    session.flush()
+            tasks[instrument_id] = raise_survey_task(
+                session, session.get(Instrument, instrument_id), SurveyTrigger.DOSE_RISE,
+                f"Dose rise: a user of this instrument reached "
+                f"{LEVEL_LABELS[Level(investigation.level)]} ({_row_of(investigation)} from "
+                f"{investigation.period_start.isoformat()}). Survey the instrument.")
     return list(tasks.values())
 
 

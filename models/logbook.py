@@ -22,6 +22,8 @@ from models.people import Person
 from models.permit_ops import active_permits
 from models.permits import BypassPermit
 from models.sessions import EntrySource, InstrumentSession
+from models.survey_ops import ask_for_survey
+from models.surveys import SurveyTrigger
 from models.settings import LabSettings
 
 # Power ratings are round numbers; kV x mA in floating point may land a hair above them.
@@ -237,7 +239,21 @@ def _new_row(
     row.bypass_permit_id = permit.id if permit else None
     session.add(row)
     session.flush()
+    _ask_for_surveys(session, instrument, operator, row)
     return row
+
+
+def _ask_for_surveys(session: Session, instrument: Instrument, operator: Person,
+                     row: InstrumentSession) -> None:
+    """Alignment with the beam on and component changes call for a survey (25 Pa. Code 227a)."""
+    day = lab_date(session, row.started_at)
+    if row.alignment:
+        ask_for_survey(session, instrument, SurveyTrigger.AFTER_ALIGNMENT,
+                       f"Alignment work with the beam on by {operator.name} on {day}.")
+    if row.configuration_changed:
+        ask_for_survey(session, instrument, SurveyTrigger.AFTER_MAINTENANCE,
+                       f"Configuration changed by {operator.name} on {day}: "
+                       f"{row.configuration_change}")
 
 
 def _opening(values: dict, now: datetime) -> dict:

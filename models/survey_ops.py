@@ -213,6 +213,15 @@ def raise_survey_task(session: Session, instrument: Instrument, trigger: SurveyT
     return task
 
 
+def ask_for_survey(session: Session, instrument: Instrument, trigger: SurveyTrigger,
+                   reason: str) -> SurveyTask:
+    """Ask for a survey unless one for the same cause is already waiting; the open task either way."""
+    waiting = session.scalar(sa.select(SurveyTask).where(
+        SurveyTask.instrument_id == instrument.id, SurveyTask.trigger == trigger,
+        SurveyTask.done_at.is_(None)).limit(1))
+    return waiting or raise_survey_task(session, instrument, trigger, reason)
+
+
 def open_survey_tasks(session: Session, instrument: Instrument | None = None) -> list[SurveyTask]:
     """Survey tasks not yet done, oldest first; for one instrument or all."""
     query = sa.select(SurveyTask).where(SurveyTask.done_at.is_(None))

@@ -91,3 +91,28 @@ def test_out_of_service_after_the_session_still_lets_it_be_written_up(session, s
     with pytest.raises(Invalid) as error:
         open_session(session, instrument, operator, GOOD, now=NOW)
     assert "out of service: Warning light failed" in error.value.errors["instrument"]
+
+
+def test_alignment_and_configuration_changes_ask_for_a_survey_once(
+        session, make_person, make_instrument, authorise):
+    # Surveys after component changes and alignment with the beam on: 25 Pa. Code 227a;
+    # Mont. ARM 37.14.1306 (REFERENCE.md, analytical X-ray equipment).
+    from datetime import datetime, timedelta, timezone
+
+    from models.logbook import log_finished_session
+    from models.survey_ops import open_survey_tasks
+
+    operator = make_person("op")
+    instrument = make_instrument()
+    authorise(operator, instrument)
+    start = datetime.now(timezone.utc) - timedelta(hours=5)
+    values = {"kv": 40.0, "ma": 30.0, "pre_use_checks_confirmed": True, "alignment": True,
+              "caution_acknowledged": True, "configuration_changed": True,
+              "configuration_change": "new Goebel mirror"}
+    for hours in (0, 2):
+        log_finished_session(session, instrument, operator, {
+            **values, "started_at": start + timedelta(hours=hours),
+            "ended_at": start + timedelta(hours=hours + 1)})
+    tasks = open_survey_tasks(session, instrument)
+    assert sorted(t.trigger for t in tasks) == ["after_alignment", "after_maintenance"]
+    assert "new Goebel mirror" in next(t.reason for t in tasks if t.trigger == "after_maintenance")
