@@ -70,6 +70,14 @@ def taken(session: Session, column: InstrumentedAttribute, value, current=None) 
     return holder is not None and holder is not current
 
 
+def copy_fields(row, values: dict, fields: tuple[str, ...]) -> None:
+    """Set the given fields present in `values` on a row, text stripped of outer spaces."""
+    for key in fields:
+        if key in values:
+            value = values[key]
+            setattr(row, key, value.strip() if isinstance(value, str) else value)
+
+
 class IdMixin:
     """Integer surrogate primary key."""
 

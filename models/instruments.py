@@ -7,7 +7,7 @@ from datetime import date, datetime
 import sqlalchemy as sa
 from sqlalchemy.orm import Mapped, Session, mapped_column, relationship
 
-from models.base import Base, IdMixin, enum_column, taken, utcnow
+from models.base import Base, IdMixin, copy_fields, enum_column, taken, utcnow
 from models.errors import Invalid
 from models.people import Person
 
@@ -212,10 +212,7 @@ def save_instrument(session: Session, values: dict, instrument: Instrument | Non
     """Create an instrument or change its description; bad values are refused by field."""
     check_instrument(session, values, instrument)
     instrument = instrument or Instrument()
-    for key in INSTRUMENT_FIELDS:
-        if key in values:
-            value = values[key]
-            setattr(instrument, key, value.strip() if isinstance(value, str) else value)
+    copy_fields(instrument, values, INSTRUMENT_FIELDS)
     session.add(instrument)
     session.flush()
     return instrument

@@ -7,7 +7,7 @@ from datetime import date, timedelta
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
-from models.base import taken, utcnow
+from models.base import copy_fields, taken, utcnow
 from models.due import calibration_due, calibration_valid_on, due_state
 from models.errors import Invalid
 from models.surveys import SurveyMeter
@@ -49,10 +49,7 @@ def save_meter(session: Session, values: dict, today: date, meter: SurveyMeter |
     """Register a meter or change its description; bad values are refused by field."""
     check_meter(session, values, today, meter)
     meter = meter or SurveyMeter()
-    for key in METER_FIELDS:
-        if key in values:
-            value = values[key]
-            setattr(meter, key, value.strip() if isinstance(value, str) else value)
+    copy_fields(meter, values, METER_FIELDS)
     session.add(meter)
     session.flush()
     return meter

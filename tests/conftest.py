@@ -286,6 +286,15 @@ def browser():
         browser.close()
 
 
+def browser_log_in(page, url: str, login: str) -> None:
+    """Log a browser page in through the login form and wait for the home page."""
+    page.goto(f"{url}/login")
+    page.fill("input[name=login]", login)
+    page.fill("input[name=password]", PASSWORD)
+    page.click("button[type=submit]")
+    page.wait_for_url(f"{url}/")
+
+
 @pytest.fixture
 def page(browser):
     """A fresh browser page."""

@@ -2,7 +2,7 @@
 import pytest
 
 from models.people import Role, add_person
-from tests.conftest import PASSWORD, PASSWORD_HASH
+from tests.conftest import PASSWORD_HASH, browser_log_in
 from webapp.extensions import db
 from webapp.formatting import CAUTION
 
@@ -22,18 +22,10 @@ def served(live_server):
     return url
 
 
-def _log_in(page, url, login):
-    page.goto(f"{url}/login")
-    page.fill("input[name=login]", login)
-    page.fill("input[name=password]", PASSWORD)
-    page.click("button[type=submit]")
-    page.wait_for_url(f"{url}/")
-
-
 @pytest.mark.parametrize("login, forbidden", [("op", "/people/"), ("rso", "/people/"),
                                               ("adm", "/does-not-exist")])
 def test_each_role_logs_in_and_sees_the_caution(page, served, login, forbidden):
-    _log_in(page, served, login)
+    browser_log_in(page, served, login)
     assert CAUTION in page.inner_text("aside.caution")
     assert f"Demo {login}" in page.inner_text("header")
     response = page.goto(served + forbidden)

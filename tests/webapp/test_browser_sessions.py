@@ -8,7 +8,7 @@ import pytest
 
 from models.instruments import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind, save_instrument
 from models.people import Role, add_person
-from tests.conftest import PASSWORD, PASSWORD_HASH
+from tests.conftest import PASSWORD_HASH, browser_log_in
 from webapp.extensions import db
 
 pytestmark = pytest.mark.browser
@@ -47,11 +47,7 @@ def _shot(page, name):
 
 def test_operator_starts_and_ends_a_session(page, served):
     url, instrument_id = served
-    page.goto(f"{url}/login")
-    page.fill("input[name=login]", "op")
-    page.fill("input[name=password]", PASSWORD)
-    page.click("button[type=submit]")
-    page.wait_for_url(f"{url}/")
+    browser_log_in(page, url, "op")
     _shot(page, "home_before")
 
     page.get_by_role("link", name="Start a session on Cu powder diffractometer").click()  # click 1
@@ -78,10 +74,7 @@ def test_operator_starts_and_ends_a_session(page, served):
 
 def test_a_refused_start_shows_the_reason_in_the_browser(page, served):
     url, instrument_id = served
-    page.goto(f"{url}/login")
-    page.fill("input[name=login]", "op")
-    page.fill("input[name=password]", PASSWORD)
-    page.click("button[type=submit]")
+    browser_log_in(page, url, "op")
     page.goto(f"{url}/sessions/start/{instrument_id}")
     page.fill("input[name=kv]", "65")
     page.fill("input[name=ma]", "40")

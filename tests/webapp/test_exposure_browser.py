@@ -7,7 +7,7 @@ from models.dosimetry import DoseRecord
 from models.limit_sets import install_preset
 from models.people import Role, add_person
 from models.settings import lab_settings
-from tests.conftest import PASSWORD, PASSWORD_HASH
+from tests.conftest import PASSWORD_HASH, browser_log_in
 from webapp.extensions import db
 
 pytestmark = pytest.mark.browser
@@ -36,11 +36,7 @@ def served(live_server):
 
 def test_safety_officer_sees_table_and_chart(page, served, tmp_path):
     url, person_id = served
-    page.goto(f"{url}/login")
-    page.fill("input[name=login]", "rso")
-    page.fill("input[name=password]", PASSWORD)
-    page.click("button[type=submit]")
-    page.wait_for_url(f"{url}/")
+    browser_log_in(page, url, "rso")
     page.click("text=People's dose")
     page.click("text=Ada Operator")
     page.fill("input[name=on]", "2026-11-30")

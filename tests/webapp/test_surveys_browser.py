@@ -5,8 +5,7 @@ import pytest
 
 from models.instruments import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind, save_instrument
 from models.people import Role, add_person
-from tests.conftest import PASSWORD_HASH
-from tests.webapp.test_browser import _log_in
+from tests.conftest import PASSWORD_HASH, browser_log_in
 from webapp.extensions import db
 
 pytestmark = pytest.mark.browser
@@ -26,7 +25,8 @@ def served(live_server):
             "check_interval_days": 30, "survey_interval_days": 365,
             "surface_action_level_usv_h": 2.5, "housing_action_level_usv_h": 25.0})
         db.session.add(Authorisation(person_id=op.id, instrument_id=instrument.id,
-                                     level=AuthorisationLevel.INDEPENDENT, trained_on=date.today(),
+                                     level=AuthorisationLevel.INDEPENDENT,
+                                     trained_on=date.today() - timedelta(days=30),
                                      refresher_due=date.today() + timedelta(days=365)))
         db.session.commit()
     return url
@@ -36,7 +36,7 @@ def test_bypass_request_approval_banner_and_close(browser, served):
     # The live lab runs on UTC (the default), so the browser's local inputs are UTC too.
     now = datetime.now(UTC)
     operator = browser.new_context().new_page()
-    _log_in(operator, served, "op")
+    browser_log_in(operator, served, "op")
     operator.goto(f"{served}/permits/new")
     operator.fill("textarea[name=devices]", "Hutch door interlock")
     operator.fill("textarea[name=reason]", "Align the beam")
@@ -49,7 +49,7 @@ def test_bypass_request_approval_banner_and_close(browser, served):
     assert operator.locator(".banner-bypass").count() == 0
 
     officer = browser.new_context().new_page()
-    _log_in(officer, served, "rso")
+    browser_log_in(officer, served, "rso")
     officer.goto(permit_url)
     officer.fill("textarea[name=note]", "Sign on the housing")
     officer.click("button:has-text('Approve')")
