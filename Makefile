@@ -33,6 +33,8 @@ run: install
 
 ## Install the test needs and run every test (PostgreSQL and browser tests skip when absent).
 test: install-test
+	$(BIN)/ruff check models webapp tests bench migrations wsgi.py
+	$(BIN)/lint-imports
 	$(BIN)/python -m pytest -q
 
 ## Print the performance table (issue-sized synthetic lab; see README).

@@ -4,7 +4,7 @@ from __future__ import annotations
 import argparse
 import os
 import time
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 
 from bench import synthetic, timing
 
@@ -30,7 +30,7 @@ def run(path: str, people: int, years: int, runs: int):
     """Yield the report's lines as the figures come in."""
     from webapp.extensions import db
 
-    on = datetime.now(timezone.utc).date()
+    on = datetime.now(UTC).date()
     started = time.perf_counter()
     app, lab = synthetic.build(path, people, years, on)
     built = time.perf_counter() - started

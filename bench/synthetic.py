@@ -17,14 +17,14 @@ from __future__ import annotations
 
 import os
 from dataclasses import dataclass
-from datetime import date, datetime, timezone
+from datetime import UTC, date, datetime
 
 import numpy as np
 import sqlalchemy as sa
 from dateutil.relativedelta import relativedelta
 
-from models.dosimetry import DoseRecord
-from models.people import Person
+from models.doses.tables import DoseRecord
+from models.people.tables import Person
 
 RING_SHARE = 0.3
 LENS_SHARE = 0.4
@@ -123,7 +123,7 @@ def _nullable(values: np.ndarray) -> list:
 
 def insert(connection: sa.Connection, lab: SyntheticLab) -> np.ndarray:
     """Insert the people, their records and the estimates with Core executemany; person ids."""
-    now = datetime.now(timezone.utc)
+    now = datetime.now(UTC)
     connection.execute(sa.insert(Person.__table__), [
         {"login": f"worker{i:04d}", "name": f"Worker {i:04d}", "email": None,
          "category": "adult_worker", "active": True, "created_at": now}
@@ -171,11 +171,12 @@ def build(path: str, n_people: int, years: int, on: date, seed: int = SEED):
     """A fresh, migrated SQLite file at `path` holding the synthetic lab; returns (app, lab)."""
     from flask_migrate import upgrade
 
-    from models.investigations import raise_investigations
-    from models.exposure import evaluate_lab
-    from models.limit_sets import install_preset
-    from models.people import Role, add_person
-    from models.settings import lab_settings
+    from models.core.settings import lab_settings
+    from models.exposure.investigation_ops import raise_investigations
+    from models.exposure.lab_ops import evaluate_lab
+    from models.exposure.limit_set_ops import install_preset
+    from models.people.person_ops import add_person
+    from models.people.tables import Role
     from webapp import create_app
     from webapp.extensions import db
     from webapp.passwords import hash_password

@@ -8,15 +8,15 @@ from datetime import date
 import numpy as np
 import sqlalchemy as sa
 
-from models import exposure
-from models.cache import UntilChanged
-from models.dose_codes import Result
-from models.engine import DoseRecords, compute_doses
-from models.evaluation import evaluate
-from models.exposure import limit_set_of, policies_of, read_records
-from models.people import Person
-from models.periods import fixed_windows
-from models.settings import lab_settings
+from models.core.codes import Result
+from models.core.settings import lab_settings
+from models.exposure import lab_ops
+from models.exposure.cache import UntilChanged
+from models.exposure.engine import DoseRecords, compute_doses
+from models.exposure.evaluation import evaluate
+from models.exposure.lab_ops import limit_set_of, policies_of, read_records
+from models.exposure.periods import fixed_windows
+from models.people.tables import Person
 
 
 def median_seconds(job, runs: int) -> tuple[float, object]:
@@ -83,7 +83,7 @@ def time_loop(session, on: date, runs: int) -> float:
     """(c) The plain loop over rows already read (the read is timed by itself in (b))."""
     settings = lab_settings(session)
     # The same query as the read floor: the records in force, engine columns.
-    rows = session.execute(exposure._record_columns()).all()
+    rows = session.execute(lab_ops._record_columns()).all()
     seconds, _ = median_seconds(
         lambda: plain_loop(rows, on, settings.five_year_first_year), runs)
     return seconds

@@ -2,27 +2,19 @@
 
 Importing this package registers every table on `Base.metadata` and installs the audit listener.
 """
-from models import database  # noqa: F401  (connection pragmas)
-from models.audit import AuditEvent
-from models.base import Base
-from models.checks import CheckItemResult, SafetyCheck, TemporaryControl
-from models.dosimetry import (
-    Dosimeter,
-    DoseRecord,
-    ImportBatch,
-    ImportMapping,
-    Investigation,
-    PregnancyDeclaration,
-)
-from models.incidents import Incident, IncidentNote
-from models.instruments import ApiToken, Authorisation, ChecklistItem, ChecklistTemplate, Instrument
-from models.limits import LimitRule, LimitSet
-from models.people import Person, PersonRole
-from models.permits import BypassPermit
-from models.reminders import ReminderSent
-from models.sessions import InstrumentSession
-from models.settings import LabSettings
-from models.surveys import Survey, SurveyMeter, SurveyPoint, SurveyTask
+from models.audit.tables import AuditEvent
+from models.checks.tables import CheckItemResult, SafetyCheck, TemporaryControl
+from models.core import database  # noqa: F401  (connection pragmas)
+from models.core.base import Base
+from models.core.settings import LabSettings
+from models.doses.tables import DoseRecord, Dosimeter, ImportBatch, ImportMapping
+from models.due.tables import ReminderSent
+from models.exposure.tables import Investigation, LimitRule, LimitSet, PregnancyDeclaration
+from models.incidents.tables import Incident, IncidentNote
+from models.instruments.tables import ApiToken, Authorisation, ChecklistItem, ChecklistTemplate, Instrument
+from models.people.tables import Person, PersonRole
+from models.sessions.tables import InstrumentSession
+from models.surveys.tables import BypassPermit, Survey, SurveyMeter, SurveyPoint, SurveyTask
 
 __all__ = [
     "ApiToken", "AuditEvent", "Authorisation", "Base", "BypassPermit", "CheckItemResult",

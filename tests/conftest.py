@@ -6,7 +6,7 @@ import shutil
 import socket
 import threading
 import uuid
-from datetime import date, timedelta
+from datetime import UTC, date, timedelta
 
 import psycopg
 import pytest
@@ -15,11 +15,13 @@ from werkzeug.security import generate_password_hash
 from werkzeug.serving import make_server
 
 from models import Base
-from models.cache import UntilChanged
-from models.dose_codes import WorkerCategory
-from models.instruments import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind, save_instrument
-from models.people import Role, add_person
-from models.settings import LabSettings
+from models.core.codes import WorkerCategory
+from models.core.settings import LabSettings
+from models.exposure.cache import UntilChanged
+from models.instruments.instrument_ops import save_instrument
+from models.instruments.tables import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind
+from models.people.person_ops import add_person
+from models.people.tables import Role
 from webapp import create_app
 from webapp.extensions import db
 
@@ -308,8 +310,8 @@ def page(browser):
 @pytest.fixture
 def make_dosimeter(app):
     """Factory: a committed dosimeter issued to a person (whole body, monthly, unless told)."""
-    from models.dosimeters import issue_dosimeter
-    from models.dosimetry import DosimeterKind, ExchangeCycle
+    from models.doses.dosimeter_ops import issue_dosimeter
+    from models.doses.tables import DosimeterKind, ExchangeCycle
 
     counter = iter(range(1, 100_000))
 
@@ -327,8 +329,8 @@ def make_dosimeter(app):
 @pytest.fixture
 def make_dose(app):
     """Factory: a committed dose record (Hp(10) whole body, measured, in mSv, unless told)."""
-    from models.dose_codes import Location, Quantity, Result
-    from models.dose_ops import DoseEntry, add_dose_record
+    from models.core.codes import Location, Quantity, Result
+    from models.doses.record_ops import DoseEntry, add_dose_record
 
     def make(person, *, wear_start: date = date(2025, 1, 1), wear_end: date = date(2025, 1, 31),
              value: float | None = 0.1, **values):
@@ -346,14 +348,14 @@ def make_dose(app):
 @pytest.fixture
 def make_session_entry(app):
     """Factory: a committed session written straight to the table (no rules applied)."""
-    from datetime import datetime, timezone
+    from datetime import datetime
 
-    from models.sessions import InstrumentSession
+    from models.sessions.tables import InstrumentSession
 
     def make(instrument, operator, *, started_at: datetime | None = None,
              ended_at: datetime | None = None, kv: float = 40.0, ma: float = 40.0,
              beam_on_minutes: float | None = None):
-        started_at = started_at or datetime.now(timezone.utc) - timedelta(hours=1)
+        started_at = started_at or datetime.now(UTC) - timedelta(hours=1)
         entry = InstrumentSession(instrument_id=instrument.id, operator_id=operator.id,
                                   started_at=started_at, ended_at=ended_at, kv=kv, ma=ma,
                                   beam_on_minutes=beam_on_minutes, pre_use_checks_confirmed=True)
@@ -367,7 +369,7 @@ def make_session_entry(app):
 @pytest.fixture
 def api_token(app):
     """Factory: a live API token (the secret) for an instrument."""
-    from models.api_tokens import create_token
+    from models.instruments.token_ops import create_token
 
     def make(instrument):
         _row, token = create_token(db.session, instrument)
@@ -381,10 +383,10 @@ def api_token(app):
 @pytest.fixture
 def record_a_check(app):
     """Factory: a committed safety-device check; the named item positions fail, the rest pass."""
-    from models.base import utcnow
-    from models.check_ops import Answer, record_check
-    from models.checklists import active_items, checklist_for
-    from models.checks import ItemResult
+    from models.checks.check_ops import Answer, record_check
+    from models.checks.checklist_ops import active_items, checklist_for
+    from models.checks.tables import ItemResult
+    from models.core.base import utcnow
 
     def make(instrument, person, *, fail: tuple[int, ...] = (), performed_at=None):
         items = active_items(checklist_for(db.session, instrument))
@@ -404,7 +406,7 @@ def record_a_check(app):
 @pytest.fixture
 def make_meter(app):
     """Factory: a committed survey meter, calibrated 30 days ago unless told otherwise."""
-    from models.meter_ops import save_meter
+    from models.surveys.meter_ops import save_meter
 
     counter = iter(range(1, 10_000))
 
@@ -425,8 +427,8 @@ def make_meter(app):
 @pytest.fixture
 def use_limit_set(app):
     """Factory: install a shipped preset and put it in force."""
-    from models.limit_sets import install_preset
-    from models.settings import lab_settings
+    from models.core.settings import lab_settings
+    from models.exposure.limit_set_ops import install_preset
 
     def use(key: str = "icrp103"):
         lab_settings(db.session).limit_set = install_preset(db.session, key)

@@ -7,8 +7,8 @@ from flask import Flask, g, render_template
 from flask_login import current_user
 from flask_wtf.csrf import CSRFError
 
-from models.audit import set_actor
-from models.people import Person
+from models.audit.audit_ops import set_actor
+from models.people.tables import Person
 from webapp import config, formatting
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
 

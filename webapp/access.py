@@ -6,7 +6,7 @@ from functools import wraps
 from flask import abort
 from flask_login import current_user, login_required
 
-from models.people import Role
+from models.people.tables import Role
 
 
 def roles_required(*roles: Role):

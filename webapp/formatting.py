@@ -1,15 +1,14 @@
 """Conversions at the edge: UTC to the lab's time, mSv to the display unit."""
 from __future__ import annotations
 
-from datetime import date, datetime, timezone
+from datetime import UTC, date, datetime
 from zoneinfo import ZoneInfo
 
 from flask import Flask, g
 
-from models.settings import LabSettings, lab_settings
-from models.units import from_msv
+from models.core.settings import LabSettings, lab_settings
+from models.core.units import from_msv
 from webapp.extensions import db
-
 
 CAUTION = (
     "This logbook supports, and does not replace, your local rules, the law that applies to your "
@@ -67,4 +66,4 @@ def from_local(naive: datetime | None) -> datetime | None:
     """A wall-clock time entered in the lab's time zone, as aware UTC (None stays None)."""
     if naive is None:
         return None
-    return naive.replace(tzinfo=lab_zone()).astimezone(timezone.utc)
+    return naive.replace(tzinfo=lab_zone()).astimezone(UTC)

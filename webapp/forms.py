@@ -4,7 +4,7 @@ from __future__ import annotations
 from flask_wtf import FlaskForm
 from wtforms import SelectMultipleField, widgets
 
-from models.errors import Invalid
+from models.core.errors import Invalid
 
 
 class CheckboxesField(SelectMultipleField):

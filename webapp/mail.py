@@ -7,7 +7,7 @@ from email.message import EmailMessage
 import sqlalchemy as sa
 from flask import current_app
 
-from models.people import Person, PersonRole, Role
+from models.people.tables import Person, PersonRole, Role
 from webapp.extensions import db
 from webapp.formatting import CAUTION, settings
 

@@ -2,10 +2,10 @@
 from __future__ import annotations
 
 import enum
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
 
-from models.people import Person, Role
+from models.people.tables import Person, Role
 
 
 class Severity(enum.IntEnum):

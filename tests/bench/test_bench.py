@@ -7,11 +7,11 @@ import sqlalchemy as sa
 
 from bench import synthetic, timing
 from bench.__main__ import run
-from models.dose_codes import PeriodKind, Series, code
-from models.dosimetry import DoseRecord
-from models.engine import compute_doses
-from models.exposure import policies_of, read_records
-from models.settings import lab_settings
+from models.core.codes import PeriodKind, Series, code
+from models.core.settings import lab_settings
+from models.doses.tables import DoseRecord
+from models.exposure.engine import compute_doses
+from models.exposure.lab_ops import policies_of, read_records
 from webapp.extensions import db
 
 ON = date(2026, 11, 30)
@@ -46,7 +46,7 @@ def test_the_plain_loop_gives_the_engine_sums(tiny):
     records = read_records(db.session, people)
     settings = lab_settings(db.session)
     totals = compute_doses(records, len(people), ON, policies_of(settings))
-    rows = db.session.execute(timing.exposure._record_columns()).all()
+    rows = db.session.execute(timing.lab_ops._record_columns()).all()
     sums = timing.plain_loop(rows, ON, settings.five_year_first_year)
     for row, person_id in enumerate(people[:-1]):  # the last person is the safety officer
         for kind in (PeriodKind.YEAR, PeriodKind.QUARTER, PeriodKind.ROLLING_12_MONTHS):

@@ -1,7 +1,7 @@
 """API tokens are shown once and kept only as their SHA-256 hash."""
 import hashlib
 
-from models.api_tokens import PREFIX, create_token, instrument_for_token, revoke_token
+from models.instruments.token_ops import PREFIX, create_token, instrument_for_token, revoke_token
 
 
 def test_token_is_stored_hashed_and_stops_when_revoked(session, make_instrument):

@@ -1,9 +1,10 @@
 """The audit trail records every change and detects tampering."""
 import sqlalchemy as sa
 
-from models import audit
-from models.audit import AuditEvent, verify_chain
-from models.people import set_active
+from models.audit import audit_ops
+from models.audit.audit_ops import verify_chain
+from models.audit.tables import AuditEvent
+from models.people.person_ops import set_active
 
 
 def _events(session):
@@ -13,8 +14,8 @@ def _events(session):
 def test_create_change_and_deactivation_are_recorded(session, make_person):
     admin = make_person("admin")
     person = make_person("op")
-    audit.set_actor(session, admin.id)
-    with audit.reason(session, "left the group"):
+    audit_ops.set_actor(session, admin.id)
+    with audit_ops.reason(session, "left the group"):
         set_active(session, person, False)
     session.commit()
     events = [e for e in _events(session) if e.entity == "person" and e.entity_id == person.id]
@@ -56,7 +57,7 @@ def test_deleted_event_is_reported(session, make_person):
 
 
 def test_data_version_follows_only_the_named_record_types(session, make_person, make_instrument):
-    from models.audit import data_version
+    from models.audit.audit_ops import data_version
 
     make_person()
     people = data_version(session, {"person"})

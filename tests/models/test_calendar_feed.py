@@ -1,10 +1,10 @@
 """The calendar feed: tokens that renew, and valid iCalendar with stable UIDs."""
-from datetime import date, datetime, timezone
+from datetime import UTC, date, datetime
 
 import icalendar
 
-from models.calendar_feed import build_calendar, person_for_token, renew_token, stop_feed
-from models.due_list import check_item, refresher_item
+from models.due.calendar_ops import build_calendar, person_for_token, renew_token, stop_feed
+from models.due.due_list_ops import check_item, refresher_item
 
 
 def test_renewing_the_token_invalidates_the_old_one(session, make_person):
@@ -24,7 +24,7 @@ def test_the_calendar_parses_with_all_day_events_and_stable_uids():
     today = date(2024, 2, 20)
     items = [check_item(1, "XRD", date(2024, 1, 31), 30, date(2020, 1, 1), today, 7),
              refresher_item(5, 2, "Ann", 1, "XRD", date(2024, 2, 29), today, 7)]
-    stamp = datetime(2024, 2, 20, 9, tzinfo=timezone.utc)
+    stamp = datetime(2024, 2, 20, 9, tzinfo=UTC)
     first = build_calendar(items, "Due", stamp, lambda item: f"https://lab.example/{item.key}")
     again = build_calendar(items, "Due", stamp.replace(hour=10))
     events = icalendar.Calendar.from_ical(first).walk("VEVENT")

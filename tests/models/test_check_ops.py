@@ -3,8 +3,7 @@ from datetime import date, timedelta
 
 import pytest
 
-from models.base import utcnow
-from models.check_ops import (
+from models.checks.check_ops import (
     CHECK_HOLD,
     Answer,
     current_control,
@@ -14,12 +13,13 @@ from models.check_ops import (
     record_check,
     record_control,
 )
-from models.checklists import DEFAULT_ITEMS, active_items, checklist_for
-from models.checks import ItemResult
-from models.errors import Invalid
-from models.instruments import return_to_service, set_out_of_service
-from models.people import Role
-from models.surveys import SurveyMeter
+from models.checks.checklist_ops import DEFAULT_ITEMS, active_items, checklist_for
+from models.checks.tables import ItemResult
+from models.core.base import utcnow
+from models.core.errors import Invalid
+from models.instruments.instrument_ops import return_to_service, set_out_of_service
+from models.people.tables import Role
+from models.surveys.tables import SurveyMeter
 
 
 @pytest.fixture

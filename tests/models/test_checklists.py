@@ -1,7 +1,7 @@
 """Checklists: the default list, adding, reordering, deactivating, deleting only unused items."""
 import pytest
 
-from models.checklists import (
+from models.checks.checklist_ops import (
     DEFAULT_ITEMS,
     active_items,
     add_item,
@@ -11,8 +11,8 @@ from models.checklists import (
     reword_item,
     set_item_active,
 )
-from models.errors import Invalid
-from models.people import Role
+from models.core.errors import Invalid
+from models.people.tables import Role
 
 
 def test_an_instrument_without_a_checklist_gets_the_default_list(session, make_instrument):

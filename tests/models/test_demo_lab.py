@@ -1,32 +1,24 @@
 """The demo lab: what it holds and that its records hang together."""
-from datetime import date, datetime, time, timezone
+from datetime import UTC, date, datetime, time
 from zoneinfo import ZoneInfo
 
 import numpy as np
 import pytest
 import sqlalchemy as sa
 
-from models.checks import SafetyCheck
-from models.demo_lab import HIGH_DOSE_PERSON, LAB_ZONE, LIMIT_PRESET, is_empty, load_demo_lab
-from models.dose_codes import (
-    Level,
-    Location,
-    PeriodKind,
-    Quantity,
-    Result,
-    Series,
-    WorkerCategory,
-    code,
-)
-from models.dosimetry import Dosimeter, DosimeterKind, DoseRecord, PregnancyDeclaration
-from models.due import DUE_SOON, OVERDUE, check_due, due_state
-from models.engine import DoseRecords, Policies, compute_doses, person_index
-from models.evaluation import evaluate
-from models.instruments import Authorisation, Enclosure, Instrument
-from models.limit_sets import as_rules
-from models.people import Person, Role
-from models.sessions import InstrumentSession
-from models.settings import lab_settings
+from models.checks.tables import SafetyCheck
+from models.core.codes import Level, Location, PeriodKind, Quantity, Result, Series, WorkerCategory, code
+from models.core.due_dates import DUE_SOON, OVERDUE, check_due, due_state
+from models.core.settings import lab_settings
+from models.doses.tables import DoseRecord, Dosimeter, DosimeterKind
+from models.exposure.engine import DoseRecords, Policies, compute_doses, person_index
+from models.exposure.evaluation import evaluate
+from models.exposure.limit_set_ops import as_rules
+from models.exposure.tables import PregnancyDeclaration
+from models.instruments.tables import Authorisation, Enclosure, Instrument
+from models.people.tables import Person, Role
+from models.sessions.tables import InstrumentSession
+from webapp.demo.lab import HIGH_DOSE_PERSON, LAB_ZONE, LIMIT_PRESET, is_empty, load_demo_lab
 
 TODAY = date(2026, 5, 14)
 # Common practice (REFERENCE.md): quarterly level I for Hp(10).
@@ -79,7 +71,7 @@ def test_sessions_span_two_years_within_ratings_without_overlaps(session):
     sessions = session.scalars(sa.select(InstrumentSession).order_by(
         InstrumentSession.instrument_id, InstrumentSession.started_at)).all()
     zone = ZoneInfo(LAB_ZONE)
-    start_of_today = datetime.combine(TODAY, time(0), zone).astimezone(timezone.utc)
+    start_of_today = datetime.combine(TODAY, time(0), zone).astimezone(UTC)
     assert max(s.ended_at for s in sessions) <= start_of_today
     assert (TODAY - min(s.started_at for s in sessions).astimezone(zone).date()).days >= 700
     for s in sessions:

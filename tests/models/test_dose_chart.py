@@ -5,10 +5,11 @@ from datetime import date
 import numpy as np
 import pytest
 
-from models.dose_chart import engine_records, fetal_months, month_starts, monthly_dose, record_versions
-from models.dose_ops import amend_dose_record, entry_of
-from models.dosimetry import DoseRecord
-from models.engine import Policies
+from models.doses.record_ops import amend_dose_record, entry_of
+from models.doses.tables import DoseRecord
+from models.doses.version_ops import record_versions
+from models.exposure.chart import engine_records, fetal_months, month_starts, monthly_dose
+from models.exposure.engine import Policies
 
 D = date
 

@@ -5,9 +5,9 @@ from datetime import date, timedelta
 import pytest
 import sqlalchemy as sa
 
-from models.dose_import import PRODUCT_LAYOUT, check_report, commit_report, layout_of, save_mapping
-from models.dosimetry import DoseRecord, DosimeterKind, Hand
-from models.errors import Invalid
+from models.core.errors import Invalid
+from models.doses.import_ops import PRODUCT_LAYOUT, commit_report, layout_of, save_mapping, validate_report
+from models.doses.tables import DoseRecord, DosimeterKind, Hand
 
 HEADER = "person,dosimeter,wear_start,wear_end,quantity,location,value,unit,result,mrd\n"
 
@@ -42,7 +42,7 @@ def test_one_bad_row_among_a_thousand_blocks_the_file(session, make_person):
     rows[417] = ",".join(bad)
 
     started = time.perf_counter()
-    preview = check_report(session, report(rows), PRODUCT_LAYOUT, "service.csv")
+    preview = validate_report(session, report(rows), PRODUCT_LAYOUT, "service.csv")
     assert time.perf_counter() - started < 2.0  # checking 1,000 rows must stay interactive
     assert [r.line for r in preview.bad_rows] == [419]  # header is line 1, row 417 is line 419
     assert preview.problems() == ["Line 419: Value: A dose cannot be negative (-0.25 mSv)."]
@@ -53,15 +53,15 @@ def test_one_bad_row_among_a_thousand_blocks_the_file(session, make_person):
     bad[6] = "0.25"
     rows[417] = ",".join(bad)
     data = report(rows)
-    batch = commit_report(session, check_report(session, data, PRODUCT_LAYOUT, "service.csv"))
+    batch = commit_report(session, validate_report(session, data, PRODUCT_LAYOUT, "service.csv"))
     session.commit()
     assert batch.row_count == 1000 and count(session) == 1000
 
-    again = check_report(session, data, PRODUCT_LAYOUT, "service.csv")
+    again = validate_report(session, data, PRODUCT_LAYOUT, "service.csv")
     assert again.earlier.id == batch.id
     assert commit_report(session, again) is None
     # The same rows in a file that differs by a byte are caught row by row.
-    renamed = check_report(session, data + b"\n", PRODUCT_LAYOUT, "copy.csv")
+    renamed = validate_report(session, data + b"\n", PRODUCT_LAYOUT, "copy.csv")
     assert renamed.earlier is None and len(renamed.bad_rows) == 1000
     assert "already exists" in renamed.bad_rows[0].errors["duplicate"]
     assert count(session) == 1000
@@ -87,7 +87,7 @@ def test_each_row_error_names_its_reason(session, make_person, make_dosimeter, r
     ann = make_person("ann")
     make_person("bob")
     make_dosimeter(ann, serial="R-1", kind=DosimeterKind.RING, hand=Hand.LEFT)
-    preview = check_report(session, report([row]), PRODUCT_LAYOUT, "x.csv")
+    preview = validate_report(session, report([row]), PRODUCT_LAYOUT, "x.csv")
     assert words in preview.bad_rows[0].errors[field]
 
 
@@ -100,7 +100,7 @@ def test_good_rows_of_every_kind(session, make_person, make_dosimeter):
         "ann,,2026-01-01,2026-01-31,Hp(3),eye,,mSv,lost,",
         "ann,,2026-01-01,2026-01-31,hp(0.07),Whole Body,,mSv,unused,",
     ]
-    preview = check_report(session, report(rows), PRODUCT_LAYOUT, "x.csv")
+    preview = validate_report(session, report(rows), PRODUCT_LAYOUT, "x.csv")
     assert preview.ready, preview.problems()
     commit_report(session, preview)
     ring, below = session.scalars(sa.select(DoseRecord).order_by(DoseRecord.id)).all()[:2]
@@ -111,7 +111,7 @@ def test_good_rows_of_every_kind(session, make_person, make_dosimeter):
 def test_a_repeated_row_within_the_file(session, make_person):
     make_person("ann")
     row = "ann,,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,"
-    preview = check_report(session, report([row, row]), PRODUCT_LAYOUT, "x.csv")
+    preview = validate_report(session, report([row, row]), PRODUCT_LAYOUT, "x.csv")
     assert [r.line for r in preview.bad_rows] == [3]
     assert "Repeats line 2" in preview.bad_rows[0].errors["duplicate"]
 
@@ -123,7 +123,7 @@ def test_a_repeated_row_within_the_file(session, make_person):
     ("person\n\xe9".encode("latin-1"), "UTF-8"),
 ])
 def test_file_errors(session, data, words):
-    preview = check_report(session, data, PRODUCT_LAYOUT, "x.csv")
+    preview = validate_report(session, data, PRODUCT_LAYOUT, "x.csv")
     assert words in " ".join(preview.file_errors) and not preview.ready
 
 
@@ -133,13 +133,13 @@ def test_a_saved_mapping_reads_a_service_layout(session, make_person, make_dosim
                            columns={"dosimeter": "Badge", "wear_start": "From", "wear_end": "To",
                                     "quantity": "Qty", "location": "Where", "value": "Dose",
                                     "person": ""})
-    data = "Badge;From;To;Qty;Where;Dose\nB-77;01.02.2026;28.02.2026;Hp(10);whole_body;30\n".encode()
-    preview = check_report(session, data, layout_of(mapping), "a.csv")
+    data = b"Badge;From;To;Qty;Where;Dose\nB-77;01.02.2026;28.02.2026;Hp(10);whole_body;30\n"
+    preview = validate_report(session, data, layout_of(mapping), "a.csv")
     assert preview.ready, preview.problems()
     commit_report(session, preview)
     record = session.scalar(sa.select(DoseRecord))
     assert (record.wear_start, record.value_msv) == (date(2026, 2, 1), pytest.approx(0.3))
-    bad = check_report(session, data.replace(b"01.02.2026", b"2026-02-01"), layout_of(mapping), "b.csv")
+    bad = validate_report(session, data.replace(b"01.02.2026", b"2026-02-01"), layout_of(mapping), "b.csv")
     assert "DD.MM.YYYY" in bad.bad_rows[0].errors["wear_start"]
 
 
@@ -154,13 +154,13 @@ def test_a_file_committed_meanwhile_by_someone_else_is_refused_cleanly(session, 
     """Two people committing the same file at once: the second gets a message, not a crash."""
     import hashlib
 
-    from models.dose_import import PRODUCT_LAYOUT, check_report, commit_report
-    from models.dosimetry import ImportBatch
+    from models.doses.import_ops import PRODUCT_LAYOUT, commit_report, validate_report
+    from models.doses.tables import ImportBatch
 
     make_person("ada")
     data = (b"person,dosimeter,wear_start,wear_end,quantity,location,value,unit,result,mrd\n"
             b"ada,,2026-01-01,2026-01-31,Hp(10),whole_body,0.2,mSv,measured,\n")
-    preview = check_report(session, data, PRODUCT_LAYOUT, "report.csv")
+    preview = validate_report(session, data, PRODUCT_LAYOUT, "report.csv")
     session.add(ImportBatch(filename="report.csv", sha256=hashlib.sha256(data).hexdigest(),
                             row_count=1))
     session.flush()

@@ -5,12 +5,12 @@ from datetime import date
 import pytest
 import sqlalchemy as sa
 
-from models.dose_codes import Location, Quantity, Result
-from models.dose_ops import DoseEntry, add_dose_record, amend_dose_record, entry_errors
-from models.units import to_msv
-from models.dose_versions import chains, current_dose_records, history
-from models.dosimetry import DoseRecord, DoseSource, DosimeterKind, Hand
-from models.errors import Invalid
+from models.core.codes import Location, Quantity, Result
+from models.core.errors import Invalid
+from models.core.units import to_msv
+from models.doses.record_ops import DoseEntry, add_dose_record, amend_dose_record, entry_errors
+from models.doses.tables import DoseRecord, DoseSource, DosimeterKind, Hand
+from models.doses.version_ops import chains, current_dose_records, history
 
 BASE = DoseEntry(person_id=1, wear_start=date(2026, 1, 1), wear_end=date(2026, 1, 31),
                  quantity=Quantity.HP10, location=Location.WHOLE_BODY, result=Result.MEASURED, value=0.2)

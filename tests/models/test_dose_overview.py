@@ -4,10 +4,10 @@ from datetime import date
 import numpy as np
 import pytest
 
-from models.dose_overview import COLUMNS, csv_table, overview_rows, sort_rows
-from models.engine import DoseRecords, compute_doses
-from models.evaluation import evaluate
-from models.limit_presets import preset
+from models.exposure.engine import DoseRecords, compute_doses
+from models.exposure.evaluation import evaluate
+from models.exposure.overview import COLUMNS, csv_table, overview_rows, sort_rows
+from models.exposure.presets import preset
 
 ON = date(2026, 5, 31)
 

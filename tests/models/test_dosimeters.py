@@ -4,17 +4,17 @@ from datetime import date
 
 import pytest
 
-from models.dose_codes import Result
-from models.dose_ops import amend_dose_record, entry_of
-from models.dosimeters import (
+from models.core.codes import Result
+from models.core.errors import Invalid
+from models.doses.dosimeter_ops import (
     calendar_period,
     issue_dosimeter,
     last_overdue_period,
     missing_results,
     return_dosimeter,
 )
-from models.dosimetry import DoseSource, Dosimeter, DosimeterKind, ExchangeCycle
-from models.errors import Invalid
+from models.doses.record_ops import amend_dose_record, entry_of
+from models.doses.tables import DoseSource, Dosimeter, DosimeterKind, ExchangeCycle
 
 M, Q = ExchangeCycle.MONTHLY, ExchangeCycle.QUARTERLY
 

@@ -3,7 +3,7 @@ from datetime import UTC, date, datetime, timedelta, timezone
 
 import pytest
 
-from models import due
+from models.core import due_dates
 
 D = date.fromisoformat
 
@@ -28,7 +28,7 @@ def utc(text):
     ],
 )
 def test_add_months(start, months, expected):
-    assert due.add_months(D(start), months) == D(expected)
+    assert due_dates.add_months(D(start), months) == D(expected)
 
 
 @pytest.mark.parametrize(
@@ -44,13 +44,13 @@ def test_add_months(start, months, expected):
 )
 def test_next_due(last_done, interval_days, expected):
     last = None if last_done is None else D(last_done)
-    assert due.next_due(last, interval_days) == (None if expected is None else D(expected))
+    assert due_dates.next_due(last, interval_days) == (None if expected is None else D(expected))
 
 
 @pytest.mark.parametrize("interval_days", [0, -30])
 def test_next_due_refuses_empty_interval(interval_days):
     with pytest.raises(ValueError, match="at least 1 day"):
-        due.next_due(D("2025-01-01"), interval_days)
+        due_dates.next_due(D("2025-01-01"), interval_days)
 
 
 TODAY = D("2025-06-10")
@@ -59,20 +59,20 @@ TODAY = D("2025-06-10")
 @pytest.mark.parametrize(
     ("due_on", "soon_days", "state"),
     [
-        (None, 7, due.NEVER_DONE),
-        ("2025-06-10", 7, due.DUE_SOON),  # due today
-        ("2025-06-11", 7, due.DUE_SOON),  # due tomorrow
-        ("2025-06-17", 7, due.DUE_SOON),  # 7 days left: last day of the soon window
-        ("2025-06-18", 7, due.OK),  # 8 days left
-        ("2025-06-09", 7, due.OVERDUE),  # overdue by one day
-        ("2024-06-10", 7, due.OVERDUE),
-        ("2025-06-10", 0, due.DUE_SOON),  # no warning window: due today still counts
-        ("2025-06-11", 0, due.OK),
-        ("2025-07-10", 30, due.DUE_SOON),
+        (None, 7, due_dates.NEVER_DONE),
+        ("2025-06-10", 7, due_dates.DUE_SOON),  # due today
+        ("2025-06-11", 7, due_dates.DUE_SOON),  # due tomorrow
+        ("2025-06-17", 7, due_dates.DUE_SOON),  # 7 days left: last day of the soon window
+        ("2025-06-18", 7, due_dates.OK),  # 8 days left
+        ("2025-06-09", 7, due_dates.OVERDUE),  # overdue by one day
+        ("2024-06-10", 7, due_dates.OVERDUE),
+        ("2025-06-10", 0, due_dates.DUE_SOON),  # no warning window: due today still counts
+        ("2025-06-11", 0, due_dates.OK),
+        ("2025-07-10", 30, due_dates.DUE_SOON),
     ],
 )
 def test_due_state(due_on, soon_days, state):
-    assert due.due_state(None if due_on is None else D(due_on), TODAY, soon_days) == state
+    assert due_dates.due_state(None if due_on is None else D(due_on), TODAY, soon_days) == state
 
 
 @pytest.mark.parametrize(
@@ -80,7 +80,7 @@ def test_due_state(due_on, soon_days, state):
     [("2025-06-11", 0), ("2025-06-10", 0), ("2025-06-09", 1), ("2025-05-10", 31)],
 )
 def test_days_overdue(due_on, days):
-    assert due.days_overdue(D(due_on), TODAY) == days
+    assert due_dates.days_overdue(D(due_on), TODAY) == days
 
 
 @pytest.mark.parametrize(
@@ -94,7 +94,7 @@ def test_days_overdue(due_on, days):
 def test_check_due(last_pass, interval_days, expected):
     last = None if last_pass is None else D(last_pass)
     args = (last,) if interval_days is None else (last, interval_days)
-    assert due.check_due(*args) == (None if expected is None else D(expected))
+    assert due_dates.check_due(*args) == (None if expected is None else D(expected))
 
 
 @pytest.mark.parametrize(
@@ -109,18 +109,18 @@ def test_check_due(last_pass, interval_days, expected):
 )
 def test_survey_due(last_survey, open_triggered, expected):
     last = None if last_survey is None else D(last_survey)
-    got = due.survey_due(last, open_triggered=open_triggered, today=TODAY)
+    got = due_dates.survey_due(last, open_triggered=open_triggered, today=TODAY)
     assert got == (None if expected is None else D(expected))
 
 
 def test_triggered_survey_state_is_due_today():
-    got = due.survey_due(D("2025-01-15"), 365, open_triggered=True, today=TODAY)
-    assert due.due_state(got, TODAY) == due.DUE_SOON
+    got = due_dates.survey_due(D("2025-01-15"), 365, open_triggered=True, today=TODAY)
+    assert due_dates.due_state(got, TODAY) == due_dates.DUE_SOON
 
 
 def test_triggered_survey_needs_today():
     with pytest.raises(ValueError, match="today is needed"):
-        due.survey_due(D("2025-01-15"), 365, open_triggered=True)
+        due_dates.survey_due(D("2025-01-15"), 365, open_triggered=True)
 
 
 @pytest.mark.parametrize(
@@ -135,7 +135,7 @@ def test_triggered_survey_needs_today():
 def test_calibration_due(calibrated_on, months, expected):
     cal = None if calibrated_on is None else D(calibrated_on)
     args = (cal,) if months is None else (cal, months)
-    assert due.calibration_due(*args) == (None if expected is None else D(expected))
+    assert due_dates.calibration_due(*args) == (None if expected is None else D(expected))
 
 
 @pytest.mark.parametrize(
@@ -152,7 +152,7 @@ def test_calibration_due(calibrated_on, months, expected):
 )
 def test_calibration_valid_on(calibrated_on, on_date, valid):
     cal = None if calibrated_on is None else D(calibrated_on)
-    assert due.calibration_valid_on(cal, 12, D(on_date)) is valid
+    assert due_dates.calibration_valid_on(cal, 12, D(on_date)) is valid
 
 
 @pytest.mark.parametrize(
@@ -165,7 +165,7 @@ def test_calibration_valid_on(calibrated_on, on_date, valid):
 )
 def test_refresher_due(trained_on, months, expected):
     args = (D(trained_on),) if months is None else (D(trained_on), months)
-    assert due.refresher_due(*args) == D(expected)
+    assert due_dates.refresher_due(*args) == D(expected)
 
 
 START = utc("2025-06-10T08:00:00")
@@ -175,17 +175,17 @@ END = utc("2025-06-10T17:00:00")
 @pytest.mark.parametrize(
     ("now", "state"),
     [
-        (START - timedelta(microseconds=1), due.PENDING),
-        (START, due.ACTIVE),  # the window opens at its start
-        (END - timedelta(microseconds=1), due.ACTIVE),
-        (END, due.EXPIRED),  # the approval has run out at its end
-        (utc("2025-06-11T00:00:00"), due.EXPIRED),
+        (START - timedelta(microseconds=1), due_dates.PENDING),
+        (START, due_dates.ACTIVE),  # the window opens at its start
+        (END - timedelta(microseconds=1), due_dates.ACTIVE),
+        (END, due_dates.EXPIRED),  # the approval has run out at its end
+        (utc("2025-06-11T00:00:00"), due_dates.EXPIRED),
         # Same instant as START written in UTC+2: aware comparison, not wall clock.
-        (datetime(2025, 6, 10, 10, 0, tzinfo=timezone(timedelta(hours=2))), due.ACTIVE),
+        (datetime(2025, 6, 10, 10, 0, tzinfo=timezone(timedelta(hours=2))), due_dates.ACTIVE),
     ],
 )
 def test_permit_state(now, state):
-    assert due.permit_state(START, END, now) == state
+    assert due_dates.permit_state(START, END, now) == state
 
 
 @pytest.mark.parametrize(
@@ -199,15 +199,15 @@ def test_permit_state(now, state):
 )
 def test_permit_state_refuses_bad_windows(start, end, now, message):
     with pytest.raises(ValueError, match=message):
-        due.permit_state(start, end, now)
+        due_dates.permit_state(start, end, now)
 
 
 def test_constants_carry_their_sources():
-    assert due.DEFAULT_CHECK_INTERVAL_DAYS == 30  # a lab's own rule (common practice)
-    assert due.CHECK_INTERVAL_OUTER_BOUNDS == (
+    assert due_dates.DEFAULT_CHECK_INTERVAL_DAYS == 30  # a lab's own rule (common practice)
+    assert due_dates.CHECK_INTERVAL_OUTER_BOUNDS == (
         (6, "ANSI N43.2 as quoted in DOE-HDBK-1109-97"),
         (12, "25 Pa. Code 227a.20"),
     )
-    assert due.DEFAULT_SURVEY_INTERVAL_DAYS == 365  # 25 Pa. Code 227a; Mont. ARM 37.14.1306
-    assert due.METER_CALIBRATION_MONTHS == 12  # N.D. Admin. Code 33.1-10-15-08
-    assert due.REFRESHER_MONTHS == 12  # common practice
+    assert due_dates.DEFAULT_SURVEY_INTERVAL_DAYS == 365  # 25 Pa. Code 227a; Mont. ARM 37.14.1306
+    assert due_dates.METER_CALIBRATION_MONTHS == 12  # N.D. Admin. Code 33.1-10-15-08
+    assert due_dates.REFRESHER_MONTHS == 12  # common practice

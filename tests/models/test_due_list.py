@@ -3,11 +3,11 @@ from datetime import UTC, date, datetime, timedelta
 
 import pytest
 
-from models import due
-from models.base import utcnow
-from models.dosimeters import wear_period
-from models.dosimetry import Dosimeter, DosimeterKind, ExchangeCycle
-from models.due_list import (
+from models.core import due_dates
+from models.core.base import utcnow
+from models.doses.dosimeter_ops import wear_period
+from models.doses.tables import Dosimeter, DosimeterKind, ExchangeCycle
+from models.due.due_list_ops import (
     CHECK,
     calibration_item,
     check_item,
@@ -19,9 +19,8 @@ from models.due_list import (
     refresher_item,
     survey_item,
 )
-from models.people import Role
-from models.permits import BypassPermit, PermitStatus
-from models.surveys import SurveyMeter
+from models.people.tables import Role
+from models.surveys.tables import BypassPermit, PermitStatus, SurveyMeter
 
 D = date.fromisoformat
 
@@ -34,12 +33,12 @@ def utc(text):
 @pytest.mark.parametrize(
     ("last_pass", "interval", "today", "due_on", "state", "late"),
     [
-        ("2024-01-31", 30, "2024-02-25", "2024-03-01", due.DUE_SOON, 0),  # leap February: 29 days
-        ("2025-01-31", 30, "2025-02-25", "2025-03-02", due.DUE_SOON, 0),  # common February
-        ("2024-02-29", 30, "2024-03-30", "2024-03-30", due.DUE_SOON, 0),  # due today counts as soon
-        ("2024-02-29", 30, "2024-03-31", "2024-03-30", due.OVERDUE, 1),
-        ("2024-12-31", 30, "2025-01-05", "2025-01-30", due.OK, 0),  # across the year end
-        ("2023-12-31", 182, "2024-07-01", "2024-06-30", due.OVERDUE, 1),  # 6 months, leap year
+        ("2024-01-31", 30, "2024-02-25", "2024-03-01", due_dates.DUE_SOON, 0),  # leap February: 29 days
+        ("2025-01-31", 30, "2025-02-25", "2025-03-02", due_dates.DUE_SOON, 0),  # common February
+        ("2024-02-29", 30, "2024-03-30", "2024-03-30", due_dates.DUE_SOON, 0),  # due today counts as soon
+        ("2024-02-29", 30, "2024-03-31", "2024-03-30", due_dates.OVERDUE, 1),
+        ("2024-12-31", 30, "2025-01-05", "2025-01-30", due_dates.OK, 0),  # across the year end
+        ("2023-12-31", 182, "2024-07-01", "2024-06-30", due_dates.OVERDUE, 1),  # 6 months, leap year
     ],
 )
 def test_check_item(last_pass, interval, today, due_on, state, late):
@@ -49,17 +48,17 @@ def test_check_item(last_pass, interval, today, due_on, state, late):
 
 def test_a_never_checked_instrument_is_late_since_it_was_added():
     item = check_item(1, "XRD", None, 30, D("2024-02-20"), D("2024-03-01"), 7)
-    assert (item.state, item.due, item.days_late) == (due.NEVER_DONE, D("2024-02-20"), 10)
+    assert (item.state, item.due, item.days_late) == (due_dates.NEVER_DONE, D("2024-02-20"), 10)
     assert item.pending
 
 
 @pytest.mark.parametrize(
     ("last", "asked", "today", "due_on", "state"),
     [
-        ("2023-03-01", False, "2024-02-29", "2024-02-29", due.DUE_SOON),  # 365 days over a leap day
-        ("2024-03-01", False, "2025-02-27", "2025-03-01", due.DUE_SOON),
-        ("2025-01-10", True, "2025-02-28", "2025-02-28", due.DUE_SOON),  # asked for: due today
-        ("2024-01-10", True, "2025-02-28", "2025-01-09", due.OVERDUE),  # already late stays late
+        ("2023-03-01", False, "2024-02-29", "2024-02-29", due_dates.DUE_SOON),  # 365 days over a leap day
+        ("2024-03-01", False, "2025-02-27", "2025-03-01", due_dates.DUE_SOON),
+        ("2025-01-10", True, "2025-02-28", "2025-02-28", due_dates.DUE_SOON),  # asked for: due today
+        ("2024-01-10", True, "2025-02-28", "2025-01-09", due_dates.OVERDUE),  # already late stays late
     ],
 )
 def test_survey_item(last, asked, today, due_on, state):
@@ -70,19 +69,19 @@ def test_survey_item(last, asked, today, due_on, state):
 @pytest.mark.parametrize(
     ("calibrated", "months", "today", "last_valid", "state"),
     [
-        ("2024-02-29", 12, "2025-02-27", "2025-02-27", due.DUE_SOON),  # anniversary clamps to 28th
-        ("2024-02-29", 12, "2025-02-28", "2025-02-27", due.OVERDUE),  # unusable on the anniversary
-        ("2025-01-31", 1, "2025-02-27", "2025-02-27", due.DUE_SOON),
-        ("2023-08-31", 6, "2024-02-28", "2024-02-28", due.DUE_SOON),  # leap year: Feb 29 anniversary
-        ("2025-05-15", 12, "2025-06-01", "2026-05-14", due.OK),
+        ("2024-02-29", 12, "2025-02-27", "2025-02-27", due_dates.DUE_SOON),  # anniversary clamps to 28th
+        ("2024-02-29", 12, "2025-02-28", "2025-02-27", due_dates.OVERDUE),  # unusable on the anniversary
+        ("2025-01-31", 1, "2025-02-27", "2025-02-27", due_dates.DUE_SOON),
+        ("2023-08-31", 6, "2024-02-28", "2024-02-28", due_dates.DUE_SOON),  # leap year: Feb 29 anniversary
+        ("2025-05-15", 12, "2025-06-01", "2026-05-14", due_dates.OK),
     ],
 )
 def test_calibration_item(calibrated, months, today, last_valid, state):
     item = calibration_item(1, "M-1", D(calibrated), months, D(today), 7)
     assert (item.due, item.state) == (D(last_valid), state)
     # The due date agrees with the rule for using a meter (common practice: valid for 12 months).
-    assert due.calibration_valid_on(D(calibrated), months, item.due)
-    assert not due.calibration_valid_on(D(calibrated), months, item.due + timedelta(days=1))
+    assert due_dates.calibration_valid_on(D(calibrated), months, item.due)
+    assert not due_dates.calibration_valid_on(D(calibrated), months, item.due + timedelta(days=1))
 
 
 @pytest.mark.parametrize(
@@ -104,7 +103,7 @@ def test_dosimeter_exchange_is_the_end_of_the_current_wear_period(issued, cycle,
 def test_refresher_item_is_late_the_day_after():
     on_day = refresher_item(1, 2, "Ann", 3, "XRD", D("2024-02-29"), D("2024-02-29"), 7)
     after = refresher_item(1, 2, "Ann", 3, "XRD", D("2024-02-29"), D("2024-03-01"), 7)
-    assert (on_day.state, after.state, after.days_late) == (due.DUE_SOON, due.OVERDUE, 1)
+    assert (on_day.state, after.state, after.days_late) == (due_dates.DUE_SOON, due_dates.OVERDUE, 1)
 
 
 def test_a_permit_is_late_from_the_end_of_its_window():
@@ -113,7 +112,7 @@ def test_a_permit_is_late_from_the_end_of_its_window():
                          D("2024-02-29"), 7)
     after = permit_item(1, 2, 3, "XRD", start, end, D("2024-02-29"), utc("2024-02-29T12:00"),
                         D("2024-02-29"), 7)
-    assert (before.state, after.state) == (due.DUE_SOON, due.OVERDUE)
+    assert (before.state, after.state) == (due_dates.DUE_SOON, due_dates.OVERDUE)
 
 
 def test_keys_are_stable_and_distinct():
@@ -134,7 +133,7 @@ def test_the_lab_list_puts_the_overdue_check_first(session, make_instrument, mak
     items = pending(lab_items(session, utcnow()))
     first = items[0]
     assert (first.kind, first.subject, first.state, first.days_late) == (CHECK, "Late XRD",
-                                                                        due.OVERDUE, 10)
+                                                                        due_dates.OVERDUE, 10)
     assert not any(i.kind == CHECK and i.subject == "Fresh XRF" for i in items)
     assert [i.days_late for i in items] == sorted((i.days_late for i in items), reverse=True)
 

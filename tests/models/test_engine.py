@@ -5,7 +5,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from models.dose_codes import (
+from models.core.codes import (
+    SOURCES,
     LensSource,
     Location,
     MrdPolicy,
@@ -18,8 +19,8 @@ from models.dose_codes import (
     decode,
     encode,
 )
-from models.engine import SOURCES, DoseRecords, Policies, compute_doses, person_index
-from models.periods import fixed_windows
+from models.exposure.engine import DoseRecords, Policies, compute_doses, person_index
+from models.exposure.periods import fixed_windows
 
 D = date
 NAN = float("nan")

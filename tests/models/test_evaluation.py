@@ -4,17 +4,10 @@ from datetime import date
 import numpy as np
 import pytest
 
-from models.dose_codes import Level, PeriodKind, Series, WorkerCategory, code, encode
-from models.engine import DoseRecords, compute_doses
-from models.evaluation import (
-    REPORTED,
-    evaluate,
-    level_codes,
-    person_rows,
-    rule_index,
-    worst_levels,
-)
-from models.limit_presets import InvestigationLevel, LimitRule, LimitSet, preset
+from models.core.codes import Level, PeriodKind, Series, WorkerCategory, code, encode
+from models.exposure.engine import DoseRecords, compute_doses
+from models.exposure.evaluation import REPORTED, evaluate, level_codes, person_rows, rule_index, worst_levels
+from models.exposure.presets import InvestigationLevel, LimitRuleSpec, LimitSetSpec, preset
 
 D = date
 NAN = float("nan")
@@ -22,11 +15,11 @@ A, PR = WorkerCategory.ADULT_WORKER, WorkerCategory.DECLARED_PREGNANT
 EFF, FETUS = Series.EFFECTIVE, Series.FETUS
 YEAR, QUARTER, PREG = PeriodKind.YEAR, PeriodKind.QUARTER, PeriodKind.PREGNANCY
 
-LOCAL = LimitSet(
+LOCAL = LimitSetSpec(
     "local",
     "a lab's own test set",
     (
-        LimitRule(
+        LimitRuleSpec(
             A,
             EFF,
             YEAR,
@@ -35,7 +28,7 @@ LOCAL = LimitSet(
             InvestigationLevel("absolute", 10),
             clause="test: year",
         ),
-        LimitRule(
+        LimitRuleSpec(
             A,
             EFF,
             QUARTER,
@@ -44,7 +37,7 @@ LOCAL = LimitSet(
             InvestigationLevel("absolute", 3.75),
             clause="test: quarter",
         ),
-        LimitRule(PR, FETUS, PREG, 1, clause="test: fetus"),
+        LimitRuleSpec(PR, FETUS, PREG, 1, clause="test: fetus"),
     ),
 )
 
@@ -211,9 +204,9 @@ def test_person_rows_shape():
     [(None, 1.0, 1.0), (2.0, 1.0, 1.0), (0.5, 1.0, 0.5)],
 )
 def test_pregnancy_rules_join_own_rules_and_the_lower_limit_wins(own_limit, pregnancy_limit, expected):
-    own = () if own_limit is None else (LimitRule(A, FETUS, PREG, own_limit, clause="own"),)
-    pregnancy = LimitRule(PR, FETUS, PREG, pregnancy_limit, clause="pregnancy")
-    limit_set = LimitSet("x", "x", own + (pregnancy,))
+    own = () if own_limit is None else (LimitRuleSpec(A, FETUS, PREG, own_limit, clause="own"),)
+    pregnancy = LimitRuleSpec(PR, FETUS, PREG, pregnancy_limit, clause="pregnancy")
+    limit_set = LimitSetSpec("x", "x", own + (pregnancy,))
     categories = encode(WorkerCategory, ["adult_worker", "adult_worker"])
     index = rule_index(limit_set, categories, np.array([False, True]))[:, code(FETUS), code(PREG)]
     limits = [None if i < 0 else limit_set.rules[i].limit_msv for i in index]

@@ -1,11 +1,12 @@
 """Stored records evaluated through the engine: versions, pregnancy, and the cache."""
 from datetime import date
 
-from models.dosimetry import DoseRecord, PregnancyDeclaration
-from models.evaluation import person_rows
-from models.exposure import cached_lab_evaluation, evaluate_lab
-from models.limit_sets import install_preset
-from models.settings import lab_settings
+from models.core.settings import lab_settings
+from models.doses.tables import DoseRecord
+from models.exposure.evaluation import person_rows
+from models.exposure.lab_ops import cached_lab_evaluation, evaluate_lab
+from models.exposure.limit_set_ops import install_preset
+from models.exposure.tables import PregnancyDeclaration
 
 ON = date(2026, 11, 30)
 

@@ -6,22 +6,22 @@ import numpy as np
 import pytest
 import sqlalchemy as sa
 
-from models.dose_codes import LevelKind
-from models.dosimetry import Investigation
-from models.engine import DoseRecords, compute_doses
-from models.errors import Invalid
-from models.evaluation import evaluate
-from models.exposure import LabEvaluation, evaluate_lab
-from models.investigations import (
+from models.core.codes import LevelKind
+from models.core.errors import Invalid
+from models.exposure.engine import DoseRecords, compute_doses
+from models.exposure.evaluation import evaluate
+from models.exposure.investigation_ops import (
     investigation_label,
     raise_investigations,
     raise_survey_tasks,
     record_review,
     sign_off,
 )
-from models.limit_presets import InvestigationLevel, LimitRule, LimitSet
-from models.sessions import InstrumentSession
-from models.surveys import SurveyTask
+from models.exposure.lab_ops import LabEvaluation, evaluate_lab
+from models.exposure.presets import InvestigationLevel, LimitRuleSpec, LimitSetSpec
+from models.exposure.tables import Investigation
+from models.sessions.tables import InstrumentSession
+from models.surveys.tables import SurveyTask
 
 ON = date(2026, 11, 30)
 OCTOBER = {"wear_start": date(2026, 10, 1), "wear_end": date(2026, 10, 31)}
@@ -99,12 +99,12 @@ def test_a_lens_assessed_from_the_body_badge_is_raised_as_the_lens(
 
 def _rolling_lab(on: date, person_id: int) -> LabEvaluation:
     """One person with 2 mSv in January 2026 under a rolling-12-month level I of 1 mSv."""
-    rule = LimitRule("adult_worker", "effective", "rolling_12_months", None,
+    rule = LimitRuleSpec("adult_worker", "effective", "rolling_12_months", None,
                      level1=InvestigationLevel(LevelKind.ABSOLUTE, 1.0), clause="test")
     records = DoseRecords(person=[0], quantity=["Hp(10)"], location=["whole_body"],
                           wear_start=[date(2026, 1, 1)], wear_end=[date(2026, 1, 31)],
                           value=[2.0], result=["measured"], mrd=[np.nan])
-    evaluation = evaluate(compute_doses(records, 1, on), LimitSet("t", "test", (rule,)),
+    evaluation = evaluate(compute_doses(records, 1, on), LimitSetSpec("t", "test", (rule,)),
                           ["adult_worker"])
     return LabEvaluation(on, np.array([person_id]), evaluation)
 

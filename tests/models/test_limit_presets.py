@@ -2,15 +2,8 @@ import math
 
 import pytest
 
-from models.dose_codes import LevelKind, PeriodKind, Series, WorkerCategory
-from models.limit_presets import (
-    HANDS,
-    PRESETS,
-    InvestigationLevel,
-    LimitRule,
-    LimitSet,
-    preset,
-)
+from models.core.codes import LevelKind, PeriodKind, Series, WorkerCategory
+from models.exposure.presets import HANDS, PRESETS, InvestigationLevel, LimitRuleSpec, LimitSetSpec, preset
 
 A, TR, PR, PU = (
     WorkerCategory.ADULT_WORKER,
@@ -121,7 +114,7 @@ def _each_hand(rows):
     ]
 
 
-def _rule(key, category, series, period) -> LimitRule:
+def _rule(key, category, series, period) -> LimitRuleSpec:
     (rule,) = [
         r
         for r in preset(key).rules
@@ -185,7 +178,7 @@ def test_investigation_level_msv(level, limit, expected):
 
 
 def test_rule_thresholds():
-    rule = LimitRule(A, EFF, YEAR, 20, InvestigationLevel("fraction", 0.3), None, clause="local rule")
+    rule = LimitRuleSpec(A, EFF, YEAR, 20, InvestigationLevel("fraction", 0.3), None, clause="local rule")
     assert rule.thresholds()[0] == pytest.approx(6.0)
     assert math.isnan(rule.thresholds()[1]) and rule.thresholds()[2] == 20.0
 
@@ -193,16 +186,16 @@ def test_rule_thresholds():
 @pytest.mark.parametrize(
     "make",
     [
-        lambda: LimitRule(A, EFF, YEAR, 20),  # no clause
-        lambda: LimitRule(A, EFF, YEAR, None, clause="x"),  # neither limit nor level
-        lambda: LimitRule(A, EFF, YEAR, None, InvestigationLevel("fraction", 0.5), clause="x"),
-        lambda: LimitRule(A, EFF, YEAR, 20, InvestigationLevel("absolute", 25), clause="x"),
-        lambda: LimitRule(
+        lambda: LimitRuleSpec(A, EFF, YEAR, 20),  # no clause
+        lambda: LimitRuleSpec(A, EFF, YEAR, None, clause="x"),  # neither limit nor level
+        lambda: LimitRuleSpec(A, EFF, YEAR, None, InvestigationLevel("fraction", 0.5), clause="x"),
+        lambda: LimitRuleSpec(A, EFF, YEAR, 20, InvestigationLevel("absolute", 25), clause="x"),
+        lambda: LimitRuleSpec(
             A, EFF, YEAR, 20, InvestigationLevel("absolute", 8), InvestigationLevel("absolute", 4), clause="x"
         ),
         lambda: InvestigationLevel("fraction", 1.5),
         lambda: InvestigationLevel("absolute", 0),
-        lambda: LimitSet("x", "x", (LimitRule(A, EFF, YEAR, 20, clause="x"),) * 2),
+        lambda: LimitSetSpec("x", "x", (LimitRuleSpec(A, EFF, YEAR, 20, clause="x"),) * 2),
     ],
 )
 def test_invalid_rules(make):

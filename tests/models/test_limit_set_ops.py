@@ -1,10 +1,17 @@
 """Editing limit sets: rule checks with field messages, presets read-only, policies."""
 import pytest
 
-from models.errors import Invalid
-from models.limit_set_ops import check_rule, choose_limit_set, remove_rule, save_rule, set_policies
-from models.limit_sets import copy_limit_set, install_preset
-from models.settings import lab_settings
+from models.core.errors import Invalid
+from models.core.settings import lab_settings
+from models.exposure.limit_set_ops import (
+    choose_limit_set,
+    copy_limit_set,
+    install_preset,
+    remove_rule,
+    save_rule,
+    set_policies,
+    validate_rule,
+)
 
 GOOD = {"category": "adult_worker", "series": "effective", "period": "year", "limit_msv": 20.0,
         "level1_kind": "fraction", "level1_value": 0.3, "level2_kind": "absolute",
@@ -12,7 +19,7 @@ GOOD = {"category": "adult_worker", "series": "effective", "period": "year", "li
 
 
 def test_a_good_rule_passes():
-    rule = check_rule(GOOD)
+    rule = validate_rule(GOOD)
     assert rule.thresholds() == pytest.approx((6.0, 10.0, 20.0))
 
 
@@ -35,7 +42,7 @@ def test_a_good_rule_passes():
 ])
 def test_bad_rules_are_refused_beside_the_field(change, field, words):
     with pytest.raises(Invalid) as refused:
-        check_rule({**GOOD, **change})
+        validate_rule({**GOOD, **change})
     assert words in refused.value.errors[field]
 
 

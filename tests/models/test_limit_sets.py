@@ -1,15 +1,15 @@
 """Presets stored in the database read back exactly as shipped."""
 import pytest
 
-from models import limit_presets
-from models.errors import Invalid
-from models.limit_sets import as_rules, copy_limit_set, install_preset
+from models.core.errors import Invalid
+from models.exposure import presets
+from models.exposure.limit_set_ops import as_rules, copy_limit_set, install_preset
 
 
-@pytest.mark.parametrize("key", [p.key for p in limit_presets.PRESETS])
+@pytest.mark.parametrize("key", [p.key for p in presets.PRESETS])
 def test_installed_preset_round_trips(session, key):
     stored = install_preset(session, key)
-    assert as_rules(stored) == limit_presets.preset(key)
+    assert as_rules(stored) == presets.preset(key)
     assert install_preset(session, key) is stored
 
 

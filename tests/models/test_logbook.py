@@ -1,17 +1,17 @@
 """Session rules at their edges, the figures taken from models.tube, and tube usage."""
 from __future__ import annotations
 
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 
 import pytest
 
-from models import tube
-from models.errors import Invalid
-from models.logbook import close_session, figures, instrument_usage, log_finished_session, open_session
-from models.people import Role
-from models.authorisations import whom_to_ask
+from models.core.errors import Invalid
+from models.instruments import tube
+from models.people.person_ops import whom_to_ask
+from models.people.tables import Role
+from models.sessions.session_ops import close_session, figures, instrument_usage, log_finished_session, open_session
 
-T0 = datetime(2025, 3, 10, 9, 0, tzinfo=timezone.utc)
+T0 = datetime(2025, 3, 10, 9, 0, tzinfo=UTC)
 NOW = T0 + timedelta(days=1)
 GOOD = {"kv": 40.0, "ma": 40.0, "pre_use_checks_confirmed": True}
 
@@ -80,7 +80,7 @@ def test_whom_to_ask_names_the_safety_officer(session, make_person):
 
 
 def test_out_of_service_after_the_session_still_lets_it_be_written_up(session, setup):
-    from models.instruments import set_out_of_service
+    from models.instruments.instrument_ops import set_out_of_service
 
     instrument, operator = setup
     set_out_of_service(session, instrument, "Warning light failed")
@@ -97,15 +97,15 @@ def test_alignment_and_configuration_changes_ask_for_a_survey_once(
         session, make_person, make_instrument, authorise):
     # Surveys after component changes and alignment with the beam on: 25 Pa. Code 227a;
     # Mont. ARM 37.14.1306 (REFERENCE.md, analytical X-ray equipment).
-    from datetime import datetime, timedelta, timezone
+    from datetime import datetime, timedelta
 
-    from models.logbook import log_finished_session
-    from models.survey_ops import open_survey_tasks
+    from models.sessions.session_ops import log_finished_session
+    from models.surveys.survey_ops import open_survey_tasks
 
     operator = make_person("op")
     instrument = make_instrument()
     authorise(operator, instrument)
-    start = datetime.now(timezone.utc) - timedelta(hours=5)
+    start = datetime.now(UTC) - timedelta(hours=5)
     values = {"kv": 40.0, "ma": 30.0, "pre_use_checks_confirmed": True, "alignment": True,
               "caution_acknowledged": True, "configuration_changed": True,
               "configuration_change": "new Goebel mirror"}

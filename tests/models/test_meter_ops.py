@@ -3,10 +3,10 @@ from datetime import date
 
 import pytest
 
-from models.due import DUE_SOON, METER_CALIBRATION_MONTHS, OK, OVERDUE
-from models.errors import Invalid
-from models.meter_ops import calibration_on, check_meter_usable, recalibrate
-from models.surveys import SurveyMeter
+from models.core.due_dates import DUE_SOON, METER_CALIBRATION_MONTHS, OK, OVERDUE
+from models.core.errors import Invalid
+from models.surveys.meter_ops import calibration_on, recalibrate, validate_meter_usable
+from models.surveys.tables import SurveyMeter
 
 D = date.fromisoformat
 
@@ -36,7 +36,7 @@ def test_calibration_on(calibrated_on, on, due, state, valid):
 def test_meter_calibrated_after_the_survey_date_is_refused():
     meter = SurveyMeter(serial="X", calibrated_on=D("2025-05-01"), calibration_interval_months=12)
     with pytest.raises(Invalid, match="after the readings' date"):
-        check_meter_usable(meter, D("2025-04-15"))
+        validate_meter_usable(meter, D("2025-04-15"))
 
 
 def test_bad_meters_are_refused_by_field(make_meter, app):

@@ -1,9 +1,10 @@
 """Rules for people and instruments."""
 import pytest
 
-from models.errors import Invalid
-from models.instruments import check_instrument
-from models.people import Role, add_person
+from models.core.errors import Invalid
+from models.instruments.instrument_ops import validate_instrument
+from models.people.person_ops import add_person
+from models.people.tables import Role
 
 
 def test_duplicate_login_is_refused(session, make_person):
@@ -43,9 +44,9 @@ GOOD = {"name": "XRD 1", "anode": "Cu", "max_kv": 60.0, "max_ma": 40.0, "max_pow
 ])
 def test_instrument_rules(session, field, value, message):
     with pytest.raises(Invalid) as caught:
-        check_instrument(session, {**GOOD, field: value})
+        validate_instrument(session, {**GOOD, field: value})
     assert caught.value.errors[field] == message
 
 
 def test_good_instrument_passes(session):
-    check_instrument(session, GOOD)
+    validate_instrument(session, GOOD)

@@ -3,8 +3,8 @@ from datetime import date
 import numpy as np
 import pytest
 
-from models.dose_codes import PeriodKind, code
-from models.periods import fixed_windows, period_bounds, period_windows, years_before
+from models.core.codes import PeriodKind, code
+from models.exposure.periods import fixed_windows, period_bounds, period_windows, years_before
 
 D = date
 NAT = np.datetime64("NaT")

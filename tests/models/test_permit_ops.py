@@ -3,9 +3,9 @@ from datetime import UTC, datetime, timedelta
 
 import pytest
 
-from models.errors import Invalid
-from models.people import Role
-from models.permit_ops import (
+from models.core.errors import Invalid
+from models.people.tables import Role
+from models.surveys.permit_ops import (
     PermitRequest,
     active_permits,
     close_permit,
@@ -14,9 +14,8 @@ from models.permit_ops import (
     expired_unclosed_permits,
     request_permit,
 )
-from models.permits import PermitStatus
-from models.survey_ops import open_survey_tasks
-from models.surveys import SurveyTrigger
+from models.surveys.survey_ops import open_survey_tasks
+from models.surveys.tables import PermitStatus, SurveyTrigger
 
 NOW = datetime.now(UTC)
 HOUR = timedelta(hours=1)

@@ -3,8 +3,15 @@ from datetime import date
 
 import pytest
 
-from models.errors import Invalid
-from models.pregnancy import ENDED, WITHDRAWN, declare, end_declaration, open_declaration, open_declarations
+from models.core.errors import Invalid
+from models.exposure.pregnancy_ops import (
+    ENDED,
+    WITHDRAWN,
+    declare,
+    end_declaration,
+    open_declaration,
+    open_declarations,
+)
 
 TODAY = date(2026, 5, 1)
 

@@ -3,10 +3,10 @@ from datetime import date, timedelta
 
 import pytest
 
-from models.base import utcnow
-from models.due_list import check_item
-from models.people import Role
-from models.reminder_plan import plan_reminders, record_sent, reminder_key
+from models.core.base import utcnow
+from models.due.due_list_ops import check_item
+from models.due.reminder_ops import plan_reminders, record_sent, reminder_key
+from models.people.tables import Role
 
 D = date.fromisoformat
 

@@ -4,15 +4,15 @@ from datetime import UTC, date, datetime, timedelta
 import pytest
 import sqlalchemy as sa
 
-from models.due import calibration_due
-from models.errors import Invalid
-from models.instruments import (
+from models.core.due_dates import calibration_due
+from models.core.errors import Invalid
+from models.instruments.tables import (
     ENCLOSED_SURFACE_ACTION_LEVEL_USV_H,
     HOUSING_LEAKAGE_ACTION_LEVEL_USV_H,
     Instrument,
 )
-from models.people import Role
-from models.survey_ops import (
+from models.people.tables import Role
+from models.surveys.survey_ops import (
     LEVEL_SOURCES,
     PointInput,
     SurveyInput,
@@ -22,7 +22,7 @@ from models.survey_ops import (
     raise_survey_task,
     record_survey,
 )
-from models.surveys import PointLevel, Survey, SurveyTask, SurveyTrigger
+from models.surveys.tables import PointLevel, Survey, SurveyTask, SurveyTrigger
 
 NOW = datetime.now(UTC)
 

@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 import xraydb
 
-from models import tube
+from models.instruments import tube
 
 # Elam et al. (xraydb) and Bearden & Burr differ by up to 0.02 % on these lines
 # (Cu K-alpha1 8046.3 vs 8047.8 eV); 0.05 % leaves room without hiding a wrong line.

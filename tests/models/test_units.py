@@ -1,7 +1,7 @@
 """Dose-rate units on entry, against REFERENCE.md "Units"."""
 import pytest
 
-from models import units
+from models.core import units
 
 
 @pytest.mark.parametrize(

@@ -3,9 +3,9 @@ import re
 
 import sqlalchemy as sa
 
-from models.audit import AuditEvent
-from models.instruments import Instrument
-from models.people import Person, Role
+from models.audit.tables import AuditEvent
+from models.instruments.tables import Instrument
+from models.people.tables import Person, Role
 
 
 def _errors(response) -> list[str]:

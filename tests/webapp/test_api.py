@@ -3,13 +3,13 @@ from __future__ import annotations
 
 import hashlib
 import re
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 
 import sqlalchemy as sa
 
-from models.instruments import ApiToken
-from models.people import Role
-from models.sessions import EntrySource, InstrumentSession
+from models.instruments.tables import ApiToken
+from models.people.tables import Role
+from models.sessions.tables import EntrySource, InstrumentSession
 from webapp.api.openapi import document
 from webapp.extensions import db
 
@@ -41,7 +41,7 @@ def test_open_close_and_list_through_the_api(client, make_person, make_instrumen
 
 def test_finished_session_through_the_api(client, make_person, make_instrument, authorise, api_token):
     _instrument, headers = _setup(make_person, make_instrument, authorise, api_token)
-    start = datetime.now(timezone.utc) - timedelta(hours=2)
+    start = datetime.now(UTC) - timedelta(hours=2)
     response = client.post("/api/v1/sessions/finished", headers=headers, json={
         **BODY, "started_at": start.isoformat(), "ended_at": (start + timedelta(hours=1)).isoformat()})
     assert response.status_code == 201
@@ -59,7 +59,7 @@ def test_missing_bad_and_revoked_tokens_get_401_problems(client, make_person, ma
         assert response.get_json()["status"] == 401
         assert response.headers["WWW-Authenticate"] == "Bearer"
     row = db.session.scalar(sa.select(ApiToken))
-    row.revoked_at = datetime.now(timezone.utc)
+    row.revoked_at = datetime.now(UTC)
     db.session.commit()
     assert client.get("/api/v1/sessions", headers=headers).status_code == 401
 

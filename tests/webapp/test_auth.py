@@ -1,7 +1,7 @@
 """Logging in, roles and CSRF."""
 import pytest
 
-from models.people import Role
+from models.people.tables import Role
 from tests.conftest import PASSWORD
 
 

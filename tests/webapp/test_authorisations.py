@@ -6,9 +6,9 @@ from datetime import date
 
 import sqlalchemy as sa
 
-from models.audit import AuditEvent
-from models.instruments import Authorisation
-from models.people import Role
+from models.audit.tables import AuditEvent
+from models.instruments.tables import Authorisation
+from models.people.tables import Role
 from webapp.extensions import db
 from webapp.formatting import CAUTION
 

@@ -1,7 +1,8 @@
 """A real browser logs in as each role, sees the caution, and meets a 403 where not allowed."""
 import pytest
 
-from models.people import Role, add_person
+from models.people.person_ops import add_person
+from models.people.tables import Role
 from tests.conftest import PASSWORD_HASH, browser_log_in
 from webapp.extensions import db
 from webapp.formatting import CAUTION

@@ -6,8 +6,10 @@ from datetime import date, timedelta
 
 import pytest
 
-from models.instruments import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind, save_instrument
-from models.people import Role, add_person
+from models.instruments.instrument_ops import save_instrument
+from models.instruments.tables import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind
+from models.people.person_ops import add_person
+from models.people.tables import Role
 from tests.conftest import PASSWORD_HASH, browser_log_in
 from webapp.extensions import db
 

@@ -1,7 +1,7 @@
 """Every page, for every role, shows the caution and never fails."""
 import pytest
 
-from models.people import Role
+from models.people.tables import Role
 from webapp.formatting import CAUTION
 
 

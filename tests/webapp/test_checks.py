@@ -3,10 +3,10 @@ from datetime import timedelta
 
 import pytest
 
-from models.base import utcnow
-from models.checklists import active_items, checklist_for
-from models.checks import SafetyCheck
-from models.people import Role
+from models.checks.checklist_ops import active_items, checklist_for
+from models.checks.tables import SafetyCheck
+from models.core.base import utcnow
+from models.people.tables import Role
 from webapp.formatting import local
 
 
@@ -116,7 +116,7 @@ def test_temporary_controls_through_the_page(session, lab, login, record_a_check
 
 def test_expired_controls_put_the_instrument_out_on_the_next_request(
         session, lab, login, record_a_check, smtp_server):
-    from models.check_ops import record_control
+    from models.checks.check_ops import record_control
 
     rso, operator, instrument = lab
     record_a_check(instrument, rso, fail=(2,))

@@ -1,7 +1,8 @@
 """Command-line jobs: people and the audit trail."""
 import sqlalchemy as sa
 
-from models.people import Role, find_person
+from models.people.person_ops import find_person
+from models.people.tables import Role
 
 
 def test_people_add_creates_the_first_admin(app, session):

@@ -1,7 +1,8 @@
 """Every form needs its CSRF token."""
 import pytest
 
-from models.people import Role, find_person
+from models.people.person_ops import find_person
+from models.people.tables import Role
 from tests.conftest import PASSWORD
 
 

@@ -1,8 +1,8 @@
 """`flask demo load` and `flask demo logins`."""
 import sqlalchemy as sa
 
-from models.demo_lab import DEMO_PASSWORD, PEOPLE
-from models.people import Person
+from models.people.tables import Person
+from webapp.demo.lab import DEMO_PASSWORD, PEOPLE
 
 LOAD = ["demo", "load", "--if-empty", "--today", "2026-05-14"]
 

@@ -7,10 +7,10 @@ from zoneinfo import ZoneInfo
 import pytest
 import sqlalchemy as sa
 
-from models.demo_lab import LAB_ZONE, load_demo_lab
-from models.instruments import Instrument
-from models.people import find_person
+from models.instruments.tables import Instrument
+from models.people.person_ops import find_person
 from tests.conftest import PASSWORD_HASH
+from webapp.demo.lab import LAB_ZONE, load_demo_lab
 from webapp.extensions import db
 
 START = {"kv": "40", "ma": "40", "purpose": "phase check", "pre_use_checks_confirmed": "y",

@@ -4,8 +4,8 @@ from datetime import date
 import pytest
 import sqlalchemy as sa
 
-from models.dosimetry import Investigation
-from models.people import Role
+from models.exposure.tables import Investigation
+from models.people.tables import Role
 from webapp.formatting import lab_today
 
 

@@ -8,10 +8,11 @@ from datetime import date, timedelta
 import pytest
 import sqlalchemy as sa
 
-from models.dose_codes import Result
-from models.dosimetry import DoseRecord, ImportBatch, ImportMapping, PregnancyDeclaration
-from models.people import Role
-from models.pregnancy import declare
+from models.core.codes import Result
+from models.doses.tables import DoseRecord, ImportBatch, ImportMapping
+from models.exposure.pregnancy_ops import declare
+from models.exposure.tables import PregnancyDeclaration
+from models.people.tables import Role
 from tests.models.test_dose_import import report, thousand_rows
 
 OFFICER = (Role.SAFETY_OFFICER,)
@@ -308,7 +309,7 @@ def test_operator_home_lists_their_dosimeters(session, make_person, make_dosimet
 def test_admin_audit_log_hides_dosimeters(make_person, login, make_dosimeter):
     admin = make_person("labadmin", roles=(Role.ADMIN,))
     wearer = make_person("wearer")
-    from models.dosimetry import DosimeterKind
+    from models.doses.tables import DosimeterKind
 
     make_dosimeter(wearer, serial="ABD-77", kind=DosimeterKind.ABDOMEN)
     page = login(admin).get("/audit/").data.decode()

@@ -5,9 +5,9 @@ import icalendar
 import pytest
 import sqlalchemy as sa
 
-from models.base import utcnow
-from models.people import Role
-from models.reminders import ReminderSent
+from models.core.base import utcnow
+from models.due.tables import ReminderSent
+from models.people.tables import Role
 
 
 @pytest.fixture

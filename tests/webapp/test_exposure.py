@@ -6,11 +6,11 @@ from zoneinfo import ZoneInfo
 import pytest
 import sqlalchemy as sa
 
-from models import exposure
-from models.cache import UntilChanged
-from models.dosimetry import Investigation
-from models.people import Role
-from models.settings import lab_settings
+from models.core.settings import lab_settings
+from models.exposure import lab_ops
+from models.exposure.cache import UntilChanged
+from models.exposure.tables import Investigation
+from models.people.tables import Role
 from webapp.slots import Attention, Severity, attention
 
 ON = date(2026, 11, 15)  # day 46 of the 92-day fourth quarter: half of it has gone
@@ -141,8 +141,8 @@ class TestReview:
 @pytest.fixture
 def crossing(session, make_person, make_dose, use_limit_set):
     """An open level I investigation of Ada's quarter."""
-    from models.exposure import evaluate_lab
-    from models.investigations import raise_investigations
+    from models.exposure.investigation_ops import raise_investigations
+    from models.exposure.lab_ops import evaluate_lab
 
     use_limit_set("icrp103")
     person = make_person("ada", name="Ada Example")
@@ -173,7 +173,7 @@ def test_review_and_sign_off(session, make_person, login, crossing):
     assert "Ada Example" in listing and "Hp(10) whole body, quarter from 2026-10-01" in listing
     page = client.get(url).get_data(as_text=True)
     assert "Hp(10) whole body, quarter from 2026-10-01, level I" in page
-    assert 'href="/exposure/person/%d"' % crossing.person_id in page
+    assert f'href="/exposure/person/{crossing.person_id}"' in page
     refused = client.post(url, data={"questions": "Alignment?", "sign": "1"})
     assert refused.status_code == 200
     assert "Write the findings before signing off." in refused.get_data(as_text=True)
@@ -228,8 +228,8 @@ def test_the_attention_list_puts_doses_first_in_order_of_severity(
 def test_the_home_page_reads_the_records_only_when_they_change(
         session, monkeypatch, make_person, login, make_dose):
     calls = []
-    real = exposure.evaluate_lab
-    monkeypatch.setattr(exposure, "evaluate_lab", lambda *a: calls.append(a) or real(*a))
+    real = lab_ops.evaluate_lab
+    monkeypatch.setattr(lab_ops, "evaluate_lab", lambda *a: calls.append(a) or real(*a))
     UntilChanged.forget_all()
     person = make_person("ada")
     client = login(make_person("rso", roles=(Role.SAFETY_OFFICER,)))

@@ -3,10 +3,11 @@ from datetime import date
 
 import pytest
 
-from models.dosimetry import DoseRecord
-from models.limit_sets import install_preset
-from models.people import Role, add_person
-from models.settings import lab_settings
+from models.core.settings import lab_settings
+from models.doses.tables import DoseRecord
+from models.exposure.limit_set_ops import install_preset
+from models.people.person_ops import add_person
+from models.people.tables import Role
 from tests.conftest import PASSWORD_HASH, browser_log_in
 from webapp.extensions import db
 

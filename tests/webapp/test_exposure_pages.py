@@ -7,12 +7,12 @@ from datetime import date, timedelta
 
 import pytest
 
-from models.dose_codes import Result
-from models.dose_ops import amend_dose_record, entry_of
-from models.dosimetry import PregnancyDeclaration
-from models.limit_sets import install_preset
-from models.people import Role
-from models.settings import lab_settings
+from models.core.codes import Result
+from models.core.settings import lab_settings
+from models.doses.record_ops import amend_dose_record, entry_of
+from models.exposure.limit_set_ops import install_preset
+from models.exposure.tables import PregnancyDeclaration
+from models.people.tables import Role
 
 D = date
 RSO, ADMIN = (Role.SAFETY_OFFICER,), (Role.ADMIN,)

@@ -1,8 +1,9 @@
 """Home panels: the admin's overview and the operator's instruments."""
 from datetime import timedelta
 
-from models.instruments import AuthorisationLevel, set_out_of_service
-from models.people import Role
+from models.instruments.instrument_ops import set_out_of_service
+from models.instruments.tables import AuthorisationLevel
+from models.people.tables import Role
 from webapp.formatting import lab_today
 
 

@@ -2,15 +2,15 @@
 from __future__ import annotations
 
 import html
-from datetime import date, datetime, timedelta, timezone
+from datetime import UTC, date, datetime, timedelta
 
 import pytest
 import sqlalchemy as sa
 
-from models.dosimetry import DoseRecord, DoseSource
-from models.dose_codes import Result
-from models.incidents import Incident
-from models.people import Role
+from models.core.codes import Result
+from models.doses.tables import DoseRecord, DoseSource
+from models.incidents.tables import Incident
+from models.people.tables import Role
 from webapp.extensions import db
 
 
@@ -34,7 +34,7 @@ def people(make_person, make_instrument):
 
 
 def _report(client, people, **over):
-    when = (datetime.now(timezone.utc) - timedelta(minutes=20)).strftime("%Y-%m-%dT%H:%M")
+    when = (datetime.now(UTC) - timedelta(minutes=20)).strftime("%Y-%m-%dT%H:%M")
     data = {"type": "suspected_exposure", "instrument": str(people["instrument"].id),
             "occurred_at": when, "people": [str(people["op"].id), str(people["peer"].id)],
             "description": "Hand near the beam during alignment with the shutter open.",
@@ -60,7 +60,7 @@ def test_report_sends_exactly_one_email_to_the_safety_officer(people, login, smt
 
 def test_bad_report_is_explained_and_sends_nothing(people, login, smtp_server):
     _port, mailbox = smtp_server
-    future = (datetime.now(timezone.utc) + timedelta(days=1)).strftime("%Y-%m-%dT%H:%M")
+    future = (datetime.now(UTC) + timedelta(days=1)).strftime("%Y-%m-%dT%H:%M")
     page = _text(_report(login(people["op"]), people, type="", description=" ", occurred_at=future))
     assert "Choose what kind of incident it was." in page
     assert "Describe what happened." in page

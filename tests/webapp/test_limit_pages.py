@@ -4,11 +4,11 @@ import re
 import pytest
 import sqlalchemy as sa
 
-from models.audit import AuditEvent
-from models.limit_sets import install_preset
-from models.limits import LimitRule, LimitSet
-from models.people import Role
-from models.settings import lab_settings
+from models.audit.tables import AuditEvent
+from models.core.settings import lab_settings
+from models.exposure.limit_set_ops import install_preset
+from models.exposure.tables import LimitRule, LimitSet
+from models.people.tables import Role
 
 RULE = {"category": "adult_worker", "series": "effective", "period": "year", "limit_msv": "20",
         "level1_kind": "fraction", "level1_value": "0.3", "level2_kind": "absolute",

@@ -4,9 +4,9 @@ from datetime import date
 import pytest
 from werkzeug.routing import IntegerConverter
 
-from models.demo_lab import load_demo_lab
-from models.people import find_person
+from models.people.person_ops import find_person
 from tests.conftest import PASSWORD_HASH
+from webapp.demo.lab import load_demo_lab
 from webapp.extensions import db
 
 JUNK = {"on": "31/02/2026", "from": "yesterday", "to": "2026-13-01", "page": "-3",

@@ -3,14 +3,15 @@ from __future__ import annotations
 
 import html
 import re
-from datetime import date, datetime, timedelta, timezone
+from datetime import UTC, date, datetime, timedelta
 
 import pytest
 import sqlalchemy as sa
 
-from models.instruments import Authorisation, retire_instrument, set_out_of_service
-from models.people import Role
-from models.sessions import InstrumentSession
+from models.instruments.instrument_ops import retire_instrument, set_out_of_service
+from models.instruments.tables import Authorisation
+from models.people.tables import Role
+from models.sessions.tables import InstrumentSession
 from webapp.extensions import db
 
 RSO = "Rae Safety"
@@ -21,7 +22,7 @@ def _minute(moment: datetime) -> datetime:
     return moment.replace(second=0, microsecond=0)
 
 
-NOW = _minute(datetime.now(timezone.utc))
+NOW = _minute(datetime.now(UTC))
 START, END = NOW - timedelta(hours=2), NOW - timedelta(hours=1)
 
 
@@ -97,7 +98,7 @@ def _expired(lab):
 def _revoked(lab):
     auth = db.session.scalar(sa.select(Authorisation).where(
         Authorisation.person_id == lab["operator"].id))
-    auth.revoked_at = datetime.now(timezone.utc)
+    auth.revoked_at = datetime.now(UTC)
 
 
 def _unauthorised(lab):
@@ -209,7 +210,7 @@ def test_values_at_the_ratings_are_accepted(lab):
 
 def test_closing_with_too_much_beam_time_is_refused_by_form_and_api(lab, make_session_entry):
     entry = make_session_entry(lab["instrument"], lab["operator"],
-                               started_at=datetime.now(timezone.utc) - timedelta(minutes=30))
+                               started_at=datetime.now(UTC) - timedelta(minutes=30))
     response = lab["client"].post(f"/sessions/{entry.id}/end", data={"beam_on_minutes": "45"})
     assert "Beam-on time 45 min is longer than the session (30 min)." in html.unescape(response.get_data(as_text=True))
     response = lab["client"].post(f"/api/v1/sessions/{entry.id}/close", json={"beam_on_minutes": 45},
@@ -222,7 +223,7 @@ def test_closing_with_too_much_beam_time_is_refused_by_form_and_api(lab, make_se
 
 def test_closing_with_an_end_in_the_future_is_refused_by_the_api(lab, make_session_entry):
     entry = make_session_entry(lab["instrument"], lab["operator"])
-    later = (datetime.now(timezone.utc) + timedelta(hours=1)).isoformat()
+    later = (datetime.now(UTC) + timedelta(hours=1)).isoformat()
     response = lab["client"].post(f"/api/v1/sessions/{entry.id}/close", json={"ended_at": later},
                                   headers=lab["headers"])
     assert response.status_code == 422

@@ -3,14 +3,14 @@ from __future__ import annotations
 
 import html
 import re
-from datetime import date, datetime, timedelta, timezone
+from datetime import UTC, date, datetime, timedelta
 
 import sqlalchemy as sa
 
-from models import tube
-from models.people import Role
-from models.permits import BypassPermit, PermitStatus
-from models.sessions import InstrumentSession
+from models.instruments import tube
+from models.people.tables import Role
+from models.sessions.tables import InstrumentSession
+from models.surveys.tables import BypassPermit, PermitStatus
 from webapp.extensions import db
 
 START = {"kv": "40", "ma": "40", "purpose": "quartz standard", "pre_use_checks_confirmed": "y",
@@ -57,7 +57,7 @@ def test_written_up_session_shows_figures_of_models_tube(make_person, make_instr
     instrument = make_instrument(name="Mo crystal", anode="Mo", max_kv=50, max_ma=1, max_power_w=50)
     authorise(operator, instrument, trained_on=date.today() - timedelta(days=10))
     client = login(operator)
-    start = (datetime.now(timezone.utc) - timedelta(hours=3)).replace(second=0, microsecond=0)
+    start = (datetime.now(UTC) - timedelta(hours=3)).replace(second=0, microsecond=0)
     response = client.post("/sessions/log", data={
         **START, "kv": "15", "ma": "1", "instrument": str(instrument.id),
         "started_at": start.strftime("%Y-%m-%dT%H:%M"),
@@ -75,7 +75,7 @@ def test_lists_per_instrument_and_person_filter_by_date_and_total_usage(
         make_person, make_instrument, make_session_entry, login):
     operator = make_person("op")
     instrument = make_instrument(name="Cu powder")
-    day = datetime(2025, 3, 10, 9, tzinfo=timezone.utc)
+    day = datetime(2025, 3, 10, 9, tzinfo=UTC)
     make_session_entry(instrument, operator, started_at=day, ended_at=day + timedelta(hours=2),
                        beam_on_minutes=120, kv=40, ma=30)
     make_session_entry(instrument, operator, started_at=day + timedelta(days=40),
@@ -98,7 +98,7 @@ def test_active_bypass_permit_flags_the_session_and_needs_the_caution(
     operator = make_person("op")
     instrument = make_instrument(name="Open beam", max_kv=50, max_ma=40, max_power_w=2000)
     authorise(operator, instrument)
-    now = datetime.now(timezone.utc)
+    now = datetime.now(UTC)
     permit = BypassPermit(instrument_id=instrument.id, devices="door interlock", reason="alignment",
                           requested_by_id=operator.id, window_start=now - timedelta(hours=1),
                           window_end=now + timedelta(hours=2), status=PermitStatus.APPROVED,
@@ -134,7 +134,7 @@ def test_bad_numbers_are_explained_not_500(make_person, make_instrument, authori
 
 def test_the_start_form_chooses_my_whole_body_dosimeter(make_person, make_instrument, authorise,
                                                         login, make_dosimeter):
-    from models.dosimetry import DosimeterKind, Hand
+    from models.doses.tables import DosimeterKind, Hand
 
     operator = make_person("op")
     instrument = make_instrument()

@@ -6,11 +6,10 @@ from datetime import UTC, date, datetime, timedelta
 import pytest
 import sqlalchemy as sa
 
-from models.audit import AuditEvent
-from models.people import Role
-from models.permit_ops import PermitRequest, decide, request_permit
-from models.permits import BypassPermit, PermitStatus
-from models.surveys import Survey, SurveyMeter, SurveyTask
+from models.audit.tables import AuditEvent
+from models.people.tables import Role
+from models.surveys.permit_ops import PermitRequest, decide, request_permit
+from models.surveys.tables import BypassPermit, PermitStatus, Survey, SurveyMeter, SurveyTask
 
 
 @pytest.fixture

@@ -4,11 +4,11 @@ from __future__ import annotations
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 
-from models import audit
-from models.api_tokens import create_token, revoke_token, tokens_of
-from models.errors import Invalid
-from models.instruments import ApiToken, Instrument
-from models.people import Role
+from models.audit import audit_ops
+from models.core.errors import Invalid
+from models.instruments.tables import ApiToken, Instrument
+from models.instruments.token_ops import create_token, revoke_token, tokens_of
+from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.api import bp
 from webapp.extensions import db
@@ -44,7 +44,7 @@ def revoke(token_id: int):
     """Stop a token from working."""
     row = db.session.get(ApiToken, token_id) or abort(404)
     try:
-        with audit.reason(db.session, "API token revoked by an admin"):
+        with audit_ops.reason(db.session, "API token revoked by an admin"):
             revoke_token(db.session, row)
     except Invalid as error:
         db.session.rollback()

@@ -7,21 +7,22 @@ import sqlalchemy as sa
 from flask import abort, g, jsonify, request
 from werkzeug.exceptions import HTTPException
 
-from models.api_tokens import instrument_for_token, token_hash
-from models.audit import set_actor
-from models.dosimetry import Dosimeter
-from models.errors import Invalid
-from models.logbook import (
-    check_finished,
-    check_opening,
+from models.audit.audit_ops import set_actor
+from models.core.errors import Invalid
+from models.doses.tables import Dosimeter
+from models.instruments.token_ops import instrument_for_token, token_hash
+from models.people.person_ops import find_person
+from models.people.tables import Person
+from models.sessions.session_ops import (
     close_session,
     figures,
     find_sessions,
     log_finished_session,
     open_session,
+    validate_finished,
+    validate_opening,
 )
-from models.people import Person, find_person
-from models.sessions import EntrySource, InstrumentSession
+from models.sessions.tables import EntrySource, InstrumentSession
 from webapp.api import v1
 from webapp.api.openapi import document
 from webapp.api.problems import problem
@@ -183,7 +184,7 @@ def as_json(entry: InstrumentSession) -> dict:
 def open_():
     """Open a session on the token's instrument."""
     instrument, body = g.instrument, _body()
-    operator, values = _checked(body, lambda op, v: check_opening(db.session, instrument, op, v))
+    operator, values = _checked(body, lambda op, v: validate_opening(db.session, instrument, op, v))
     entry = open_session(db.session, instrument, operator, values, source=EntrySource.API)
     db.session.commit()
     return jsonify(as_json(entry)), 201
@@ -193,7 +194,7 @@ def open_():
 def finished():
     """Log a session that already ended."""
     instrument, body = g.instrument, _body()
-    operator, values = _checked(body, lambda op, v: check_finished(db.session, instrument, op, v))
+    operator, values = _checked(body, lambda op, v: validate_finished(db.session, instrument, op, v))
     entry = log_finished_session(db.session, instrument, operator, values, source=EntrySource.API)
     db.session.commit()
     return jsonify(as_json(entry)), 201
@@ -225,7 +226,7 @@ def list_():
             try:
                 bounds[key] = _time(request.args[key])
             except ValueError:
-                raise Invalid({key: f"'{key}' must be an ISO 8601 time with its offset."})
+                raise Invalid({key: f"'{key}' must be an ISO 8601 time with its offset."}) from None
     rows = find_sessions(db.session, instrument=g.instrument, start=bounds.get("from"),
                          end=bounds.get("to"),
                          limit=min(max(request.args.get("limit", 100, type=int), 1), 1000))

@@ -1,7 +1,7 @@
 """`flask audit verify`: check that no audit event was altered or removed."""
 import click
 
-from models.audit import verify_chain
+from models.audit.audit_ops import verify_chain
 from webapp.audit import bp
 from webapp.extensions import db
 

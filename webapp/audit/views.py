@@ -5,8 +5,8 @@ import sqlalchemy as sa
 from flask import render_template, request
 from flask_login import current_user
 
-from models.audit import AuditEvent
-from models.people import Person, Role
+from models.audit.tables import AuditEvent
+from models.people.tables import Person, Role
 from webapp.access import roles_required
 from webapp.audit import bp
 from webapp.extensions import db

@@ -4,12 +4,12 @@ from __future__ import annotations
 import sqlalchemy as sa
 from flask import flash, redirect, render_template, request, session, url_for
 from flask_login import current_user, login_required, login_user, logout_user
-from webapp.passwords import password_matches
 
-from models.people import Person
+from models.people.tables import Person
 from webapp.auth import bp
 from webapp.auth.forms import LoginForm
 from webapp.extensions import db, limiter
+from webapp.passwords import password_matches
 
 WRONG_LOGIN = "Login or password not recognised."
 

@@ -7,11 +7,11 @@ from flask_wtf import FlaskForm
 from wtforms import DateTimeLocalField, RadioField, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, Length, Optional
 
-from models.check_ops import RESULT_LABELS, Answer
-from models.checklists import MAX_TEXT
-from models.checks import ItemResult
-from models.instruments import ChecklistItem
-from models.surveys import SurveyMeter
+from models.checks.check_ops import RESULT_LABELS, Answer
+from models.checks.checklist_ops import MAX_TEXT
+from models.checks.tables import ItemResult
+from models.instruments.tables import ChecklistItem
+from models.surveys.tables import SurveyMeter
 from webapp.formatting import from_local, lab_zone
 
 WHEN_FORMAT = "%Y-%m-%dT%H:%M"

@@ -5,12 +5,9 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 
-from models import audit
-from models.base import utcnow
-from models.check_ops import (
+from models.audit import audit_ops
+from models.checks.check_ops import (
     RESULT_LABELS,
-    check_check,
-    check_control,
     check_history,
     current_control,
     end_control,
@@ -20,8 +17,10 @@ from models.check_ops import (
     may_record_check,
     record_check,
     record_control,
+    validate_check,
+    validate_control,
 )
-from models.checklists import (
+from models.checks.checklist_ops import (
     active_items,
     add_item,
     checklist_for,
@@ -31,13 +30,15 @@ from models.checklists import (
     reword_item,
     set_item_active,
 )
-from models.checks import SafetyCheck, TemporaryControl
-from models.due_list import check_item, horizon
-from models.errors import Invalid
-from models.instruments import ChecklistItem, Instrument, active_instruments
-from models.people import Role
-from models.settings import lab_date
-from models.surveys import SurveyMeter
+from models.checks.tables import SafetyCheck, TemporaryControl
+from models.core.base import utcnow
+from models.core.errors import Invalid
+from models.core.settings import lab_date
+from models.due.due_list_ops import check_item, horizon
+from models.instruments.instrument_ops import active_instruments
+from models.instruments.tables import ChecklistItem, Instrument
+from models.people.tables import Role
+from models.surveys.tables import SurveyMeter
 from webapp.access import roles_required
 from webapp.checks import bp
 from webapp.checks.forms import ControlForm, ItemForm, ReasonForm, check_form
@@ -87,7 +88,7 @@ def new(instrument_id: int):
         return db.session.get(SurveyMeter, form.meter_pk()) if form.meter_pk() else None
 
     def check(f):
-        check_check(db.session, instrument, f.performed_at_utc(), f.answers(items), meter(), now)
+        validate_check(db.session, instrument, f.performed_at_utc(), f.answers(items), meter(), now)
 
     if validate_with(form, check):
         safety_check = record_check(db.session, instrument, current_user, form.performed_at_utc(),
@@ -197,7 +198,7 @@ def activate(item_id: int, state: str):
     form = ReasonForm()
 
     def toggle(item):
-        with audit.reason(db.session, form.reason.data):
+        with audit_ops.reason(db.session, form.reason.data):
             set_item_active(db.session, item, state == "on")
 
     return _item_action(item_id, toggle,
@@ -218,7 +219,7 @@ def control(instrument_id: int):
     instrument = _instrument(instrument_id)
     now = utcnow()
     form = ControlForm()
-    check = lambda f: check_control(db.session, instrument, f.description.data,  # noqa: E731
+    check = lambda f: validate_control(db.session, instrument, f.description.data,  # noqa: E731
                                     f.expires_at_utc(), now)
     if validate_with(form, check):
         record_control(db.session, instrument, current_user, form.description.data,
@@ -238,7 +239,7 @@ def end(control_id: int):
     control_row = db.session.get(TemporaryControl, control_id) or abort(404)
     form = ReasonForm()
     if form.validate_on_submit():
-        with audit.reason(db.session, form.reason.data):
+        with audit_ops.reason(db.session, form.reason.data):
             end_control(db.session, control_row, utcnow())
         db.session.commit()
         flash("Temporary controls withdrawn.", "info")

@@ -6,10 +6,11 @@ from zoneinfo import ZoneInfo
 
 import click
 
-from models import audit
-from models.demo_lab import DEMO_PASSWORD, LAB_ZONE, PEOPLE, is_empty, load_demo_lab
-from models.people import CATEGORY_LABELS, ROLE_LABELS, find_person
+from models.audit import audit_ops
+from models.people.person_ops import find_person
+from models.people.tables import CATEGORY_LABELS, ROLE_LABELS
 from webapp.demo import bp
+from webapp.demo.lab import DEMO_PASSWORD, LAB_ZONE, PEOPLE, is_empty, load_demo_lab
 from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 from webapp.passwords import hash_password
@@ -29,7 +30,7 @@ def load(if_empty, today):
         raise click.ClickException("The demo lab loads only into an empty database.")
     day = today.date() if today else datetime.now(ZoneInfo(LAB_ZONE)).date()
     click.echo("Loading the demo lab (hashing the shared password once, then two years of records)...")
-    with audit.reason(db.session, "Demo lab loaded"):
+    with audit_ops.reason(db.session, "Demo lab loaded"):
         summary = load_demo_lab(db.session, day, hash_password(DEMO_PASSWORD))
     db.session.commit()
     # As after any import: doses over a level raise investigations for the safety officer.

@@ -6,10 +6,10 @@ import os
 import click
 import sqlalchemy as sa
 
-from models.dose_import import PRODUCT_LAYOUT, check_report, commit_report, layout_of
-from models.dosimetry import ImportMapping
-from models.errors import Invalid
-from models.investigations import investigation_label
+from models.core.errors import Invalid
+from models.doses.import_ops import PRODUCT_LAYOUT, commit_report, layout_of, validate_report
+from models.doses.tables import ImportMapping
+from models.exposure.investigation_ops import investigation_label
 from webapp.doses import bp
 from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
@@ -31,7 +31,7 @@ def import_report(file, mapping, dry_run):
                                        f"{', '.join(names) or 'none'}.")
         layout = layout_of(saved)
     with open(file, "rb") as report:
-        preview = check_report(db.session, report.read(), layout, os.path.basename(file))
+        preview = validate_report(db.session, report.read(), layout, os.path.basename(file))
     if preview.earlier is not None:
         click.echo(f"Already imported as batch #{preview.earlier.id} on "
                    f"{preview.earlier.imported_at:%Y-%m-%d}; nothing added.")

@@ -5,10 +5,16 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, request, url_for
 from sqlalchemy.orm import joinedload
 
-from models.dosimeters import RESULT_GRACE_DAYS, check_issue, issue_dosimeter, missing_results, return_dosimeter
-from models.dosimetry import Dosimeter, ExchangeCycle
-from models.errors import Invalid
-from models.people import Role
+from models.core.errors import Invalid
+from models.doses.dosimeter_ops import (
+    RESULT_GRACE_DAYS,
+    issue_dosimeter,
+    missing_results,
+    return_dosimeter,
+    validate_issue,
+)
+from models.doses.tables import Dosimeter, ExchangeCycle
+from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.doses import bp
 from webapp.doses.forms import IssueForm, ReturnForm, worn_to_kind
@@ -41,7 +47,7 @@ def issue():
     def check(f):
         """The domain's checks on the submitted dosimeter."""
         kind, hand = worn_to_kind(f.worn.data)
-        check_issue(db.session, serial=f.serial.data, kind=kind, hand=hand, wearer_id=f.wearer.data,
+        validate_issue(db.session, serial=f.serial.data, kind=kind, hand=hand, wearer_id=f.wearer.data,
                     issued_on=f.issued_on.data)
 
     if validate_with(form, check):

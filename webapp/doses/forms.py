@@ -6,11 +6,11 @@ from flask_wtf.file import FileField, FileRequired
 from wtforms import DateField, FloatField, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
-from models.dose_codes import Location, Quantity, Result
-from models.dose_import import FIELD_LABELS, FIELDS, ISO_DATE
-from models.dose_ops import DoseEntry
-from models.units import DOSE_UNITS
-from models.dosimetry import DoseSource, DosimeterKind, ExchangeCycle, Hand
+from models.core.codes import Location, Quantity, Result
+from models.core.units import DOSE_UNITS
+from models.doses.import_ops import FIELD_LABELS, FIELDS, ISO_DATE
+from models.doses.record_ops import DoseEntry
+from models.doses.tables import DoseSource, DosimeterKind, ExchangeCycle, Hand
 from webapp.forms import choices
 
 RESULT_LABELS = {

@@ -1,28 +1,28 @@
 """Import of a dosimetry report: upload, map the columns once, preview every row, commit all or none."""
 from __future__ import annotations
 
-from hashlib import sha256
 import os
 import re
+from hashlib import sha256
 
+import sqlalchemy as sa
 from flask import abort, current_app, flash, redirect, render_template, request, url_for
 from flask_login import current_user
-import sqlalchemy as sa
 
-from models.dose_import import (
+from models.core.errors import Invalid
+from models.doses.import_ops import (
     FIELDS,
     PRODUCT_LAYOUT,
     Layout,
-    check_report,
     commit_report,
     date_format_words,
     layout_of,
     read_csv,
     save_mapping,
+    validate_report,
 )
-from models.dosimetry import DoseRecord, ImportBatch, ImportMapping
-from models.errors import Invalid
-from models.people import Role
+from models.doses.tables import DoseRecord, ImportBatch, ImportMapping
+from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.doses import bp
 from webapp.doses.forms import MappingForm, UploadForm
@@ -126,7 +126,7 @@ def import_preview(sha: str):
     """Every row of the report as it would be recorded, with every error found."""
     layout_key = request.args.get("layout", "")
     filename = request.args.get("filename", "report.csv")
-    preview = check_report(db.session, _stored(sha), _layout(layout_key), filename)
+    preview = validate_report(db.session, _stored(sha), _layout(layout_key), filename)
     return render_template("doses/preview.html", preview=preview, layout_key=layout_key,
                            date_words=date_format_words)
 
@@ -137,7 +137,7 @@ def import_commit(sha: str):
     """Add every row, or none when any row has an error; the same file is added only once."""
     layout_key = request.form.get("layout", "")
     filename = request.form.get("filename", "report.csv")[:255]
-    preview = check_report(db.session, _stored(sha), _layout(layout_key), filename)
+    preview = validate_report(db.session, _stored(sha), _layout(layout_key), filename)
     try:
         batch = commit_report(db.session, preview, imported_by_id=current_user.id)
     except Invalid as error:

@@ -4,9 +4,8 @@ from __future__ import annotations
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 
-from models.errors import Invalid
-from models.people import Role
-from models.pregnancy import (
+from models.core.errors import Invalid
+from models.exposure.pregnancy_ops import (
     END_REASONS,
     ENDED,
     WITHDRAWN,
@@ -16,6 +15,7 @@ from models.pregnancy import (
     open_declaration,
     open_declarations,
 )
+from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.doses import bp
 from webapp.doses.forms import DeclareForm, EndForm

@@ -1,24 +1,18 @@
 """Dose records: the safety officer's overview, entry and correction; each person's own records."""
 from __future__ import annotations
 
+import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user
-import sqlalchemy as sa
 from sqlalchemy.orm import joinedload
 
-from models.cache import UntilChanged
-from models.dose_ops import (
-    add_dose_record,
-    amend_dose_record,
-    check_amendment,
-    check_entry,
-    entry_of,
-)
-from models.dose_versions import chains, history, is_current
-from models.dosimeters import describe_dosimeter, missing_results, wear_period
-from models.dosimetry import DoseRecord, Dosimeter
-from models.people import Person, Role
-from models.pregnancy import declarations_of
+from models.doses.dosimeter_ops import describe_dosimeter, missing_results, wear_period
+from models.doses.record_ops import add_dose_record, amend_dose_record, entry_of, validate_amendment, validate_entry
+from models.doses.tables import DoseRecord, Dosimeter
+from models.doses.version_ops import chains, history, is_current
+from models.exposure.cache import UntilChanged
+from models.exposure.pregnancy_ops import declarations_of
+from models.people.tables import Person, Role
 from webapp.access import can_see_dose_of, roles_required
 from webapp.doses import bp
 from webapp.doses.forms import LOCATION_LABELS, RESULT_LABELS, SOURCE_LABELS, AmendForm, DoseForm
@@ -112,7 +106,7 @@ def new():
     form.dosimeter.choices = _dosimeter_choices()
     if not form.is_submitted():
         form.person.data = request.args.get("person", type=int)
-    if validate_with(form, lambda f: f.entry() and check_entry(db.session, f.entry())):
+    if validate_with(form, lambda f: f.entry() and validate_entry(db.session, f.entry())):
         added = add_dose_record(db.session, form.entry(), created_by_id=current_user.id)
         db.session.commit()
         review_dose_levels()
@@ -141,7 +135,7 @@ def amend(record_id: int):
             getattr(form, name).data = getattr(entry, name).value
         form.dosimeter.data = entry.dosimeter_id
     entry = lambda f: f.entry(person_id=original.person_id)  # noqa: E731
-    if validate_with(form, lambda f: entry(f) and check_amendment(db.session, original, entry(f),
+    if validate_with(form, lambda f: entry(f) and validate_amendment(db.session, original, entry(f),
                                                                     f.reason.data)):
         version = amend_dose_record(db.session, original, entry(form), form.reason.data,
                                     created_by_id=current_user.id)

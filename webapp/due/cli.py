@@ -6,11 +6,11 @@ import smtplib
 import click
 from flask import current_app, url_for
 
-from models.base import utcnow
-from models.check_ops import lapse_expired_controls
-from models.due import OVERDUE
-from models.reminder_plan import Reminder, plan_reminders, record_sent
-from models.settings import lab_date, lab_settings
+from models.checks.check_ops import lapse_expired_controls
+from models.core.base import utcnow
+from models.core.due_dates import OVERDUE
+from models.core.settings import lab_date, lab_settings
+from models.due.reminder_ops import Reminder, plan_reminders, record_sent
 from webapp.due import bp
 from webapp.due.views import target_url
 from webapp.extensions import db

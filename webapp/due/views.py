@@ -5,19 +5,28 @@ from flask import Response, abort, render_template, request, url_for
 from flask_login import current_user, login_required
 from werkzeug.routing import BuildError
 
-from models import due
-from models.base import utcnow
-from models.calendar_feed import build_calendar, person_for_token, renew_token, stop_feed
-from models.due_list import CHECK, DOSIMETER, REFRESHER, SURVEY, DueItem
-from models.due_list import calendar_items, lab_items, pending, person_items
-from models.people import Role
+from models.core import due_dates
+from models.core.base import utcnow
+from models.due.calendar_ops import build_calendar, person_for_token, renew_token, stop_feed
+from models.due.due_list_ops import (
+    CHECK,
+    DOSIMETER,
+    REFRESHER,
+    SURVEY,
+    DueItem,
+    calendar_items,
+    lab_items,
+    pending,
+    person_items,
+)
+from models.people.tables import Role
 from webapp.due import bp
 from webapp.extensions import db, limiter
 from webapp.formatting import settings
 from webapp.slots import Attention, Severity, attention, home_panels, navigation, settings_sections
 
-STATE_CLASS = {due.OVERDUE: "state-bad", due.NEVER_DONE: "state-bad", due.DUE_SOON: "state-warn",
-               due.OK: "state-good"}
+STATE_CLASS = {due_dates.OVERDUE: "state-bad", due_dates.NEVER_DONE: "state-bad", due_dates.DUE_SOON: "state-warn",
+               due_dates.OK: "state-good"}
 
 # Where to act on items that are not about an instrument as a whole; the owning areas' pages,
 # with the instrument page or the due list as the fallback while an area is not merged yet.
@@ -73,10 +82,10 @@ def _panel(person) -> dict:
 @settings_sections.add("due/_settings.html", order=20)
 def _settings(lab) -> dict:
     """The check interval's published bounds, the due-soon window and the reminder command."""
-    return {"lab": lab, "bounds": due.CHECK_INTERVAL_OUTER_BOUNDS,
-            "check_days": due.DEFAULT_CHECK_INTERVAL_DAYS,
-            "survey_days": due.DEFAULT_SURVEY_INTERVAL_DAYS,
-            "meter_months": due.METER_CALIBRATION_MONTHS, "refresher_months": due.REFRESHER_MONTHS}
+    return {"lab": lab, "bounds": due_dates.CHECK_INTERVAL_OUTER_BOUNDS,
+            "check_days": due_dates.DEFAULT_CHECK_INTERVAL_DAYS,
+            "survey_days": due_dates.DEFAULT_SURVEY_INTERVAL_DAYS,
+            "meter_months": due_dates.METER_CALIBRATION_MONTHS, "refresher_months": due_dates.REFRESHER_MONTHS}
 
 
 @attention.add
@@ -86,11 +95,11 @@ def _attention() -> list[Attention]:
     for item in lab_items(db.session, utcnow()):
         if item.kind not in LATE_SEVERITY:
             continue
-        late = item.state in (due.OVERDUE, due.NEVER_DONE)
-        if late or (item.kind == REFRESHER and item.state == due.DUE_SOON):
+        late = item.state in (due_dates.OVERDUE, due_dates.NEVER_DONE)
+        if late or (item.kind == REFRESHER and item.state == due_dates.DUE_SOON):
             when = (f"{item.days_late} day{'s' if item.days_late != 1 else ''} late"
-                    if item.state == due.OVERDUE else f"due {item.due}")
-            if item.state == due.NEVER_DONE:
+                    if item.state == due_dates.OVERDUE else f"due {item.due}")
+            if item.state == due_dates.NEVER_DONE:
                 when = "never done"
             lines.append(Attention(LATE_SEVERITY[item.kind], f"{item.what}: {item.subject}, {when}.",
                                    target_url(item), item.state_label))

@@ -7,7 +7,7 @@ import matplotlib
 import numpy as np
 from matplotlib.figure import Figure
 
-from models.dose_chart import MonthlyDose
+from models.exposure.chart import MonthlyDose
 
 INK, MUTED, BAR, TOTAL, LIMIT = "#1d232b", "#5b6570", "#7fa6c9", "#24303c", "#b3261e"
 STYLE = {

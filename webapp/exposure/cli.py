@@ -6,9 +6,8 @@ from datetime import date
 
 import click
 
-from models.units import from_msv
-from models.dose_codes import LensSource, Level, MrdPolicy, PeriodKind, Proration, Series, code
-from models.dose_labels import (
+from models.core.codes import LensSource, Level, MrdPolicy, PeriodKind, Proration, Series, code
+from models.core.labels import (
     LENS_LABELS,
     LEVEL_LABELS,
     LOCATION_LABELS,
@@ -17,10 +16,11 @@ from models.dose_labels import (
     PRORATION_LABELS,
     SERIES_LABELS,
 )
-from models.evaluation import person_rows
-from models.exposure import LabEvaluation, evaluate_lab, limit_set_of
-from models.people import find_person
-from models.settings import lab_settings
+from models.core.settings import lab_settings
+from models.core.units import from_msv
+from models.exposure.evaluation import person_rows
+from models.exposure.lab_ops import LabEvaluation, evaluate_lab, limit_set_of
+from models.people.person_ops import find_person
 from webapp.exposure import bp
 from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db

@@ -5,10 +5,11 @@ from flask_wtf import FlaskForm
 from wtforms import FloatField, IntegerField, SelectField, StringField, SubmitField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
-from models.dose_codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
-from models.limit_set_ops import RULE_COLUMNS
+from models.core.codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
+from models.exposure.limit_set_ops import RULE_COLUMNS
 from webapp.exposure import labels
 from webapp.forms import choices
+
 
 def _reason() -> TextAreaField:
     """The reason the audit trail keeps with the change."""

@@ -1,21 +1,9 @@
 """Readable names for the dose codes, shared by the exposure pages, the limit pages and their forms."""
 from __future__ import annotations
 
-from models.dose_codes import (
-    Level,
-    LevelKind,
-    PeriodKind,
-    Series,
-    WorkerCategory,
-)
-from models.dose_labels import (
-    LENS_LABELS,
-    LEVEL_LABELS,
-    LOCATION_LABELS,
-    MRD_LABELS,
-    PRORATION_LABELS,
-)
-from models.people import CATEGORY_LABELS
+from models.core.codes import Level, LevelKind, PeriodKind, Series, WorkerCategory
+from models.core.labels import LENS_LABELS, LEVEL_LABELS, LOCATION_LABELS, MRD_LABELS, PRORATION_LABELS
+from models.people.tables import CATEGORY_LABELS
 
 SERIES = {
     Series.EFFECTIVE: "Whole body, Hp(10)",

@@ -4,12 +4,20 @@ from __future__ import annotations
 import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 
-from models import audit, limit_presets
-from models.errors import Invalid
-from models.limit_set_ops import choose_limit_set, is_editable, remove_rule, save_rule, set_policies
-from models.limit_sets import copy_limit_set, install_preset
-from models.limits import LimitRule, LimitSet
-from models.people import Role
+from models.audit import audit_ops
+from models.core.errors import Invalid
+from models.exposure import presets
+from models.exposure.limit_set_ops import (
+    choose_limit_set,
+    copy_limit_set,
+    install_preset,
+    is_editable,
+    remove_rule,
+    save_rule,
+    set_policies,
+)
+from models.exposure.tables import LimitRule, LimitSet
+from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.exposure import bp, labels
 from webapp.exposure.forms import ChooseSetForm, CopyForm, PoliciesForm, ReasonForm, RuleForm
@@ -43,7 +51,7 @@ def _index(choose: ChooseSetForm | None = None, policies: PoliciesForm | None = 
     installed_keys = {s.preset_key for s in sets}
     return render_template(
         "exposure/limits_index.html", lab=lab, sets=sets, choose=choose, policies=policies,
-        presets=[p for p in limit_presets.PRESETS if p.key not in installed_keys],
+        presets=[p for p in presets.PRESETS if p.key not in installed_keys],
         labels=labels), status
 
 
@@ -64,7 +72,7 @@ def limits_choose():
     def check(f):
         """The set must exist and evaluate."""
         chosen = db.session.get(LimitSet, f.limit_set_id.data) if f.limit_set_id.data else None
-        with audit.reason(db.session, f.reason.data):
+        with audit_ops.reason(db.session, f.reason.data):
             choose_limit_set(db.session, settings(), chosen)
 
     if not validate_with(form, check):
@@ -83,7 +91,7 @@ def limits_policies():
 
     def check(f):
         """Apply the policies (rolled back if anything is wrong)."""
-        with audit.reason(db.session, f.reason.data):
+        with audit_ops.reason(db.session, f.reason.data):
             set_policies(db.session, settings(), {name: f[name].data for name in (
                 "proration", "mrd_policy", "lens_source", "five_year_first_year")})
 
@@ -169,7 +177,7 @@ def limit_rule(set_id: int, rule_id: int | None = None):
 
     def check(f):
         """Save the rule with the reason (rolled back if anything is wrong)."""
-        with audit.reason(db.session, f.reason.data):
+        with audit_ops.reason(db.session, f.reason.data):
             save_rule(db.session, stored, f.values(), rule)
 
     if validate_with(form, check):
@@ -194,7 +202,7 @@ def limit_rule_remove(set_id: int, rule_id: int):
     if not form.validate_on_submit():
         flash("Say why the rule is removed; nothing was changed.", "error")
         return redirect(url_for("exposure.limit_set", set_id=stored.id))
-    with audit.reason(db.session, form.reason.data):
+    with audit_ops.reason(db.session, form.reason.data):
         remove_rule(db.session, stored, rule)
     db.session.commit()
     flash("Rule removed.", "info")

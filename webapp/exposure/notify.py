@@ -1,16 +1,16 @@
 """After dose records change: raise investigations for new crossings, ask for surveys, send e-mail."""
 from __future__ import annotations
 
-from datetime import date
 import smtplib
+from datetime import date
 
 from flask import current_app
 
-from models.dose_codes import Level
-from models.dose_labels import LEVEL_LABELS
-from models.dosimetry import Investigation
-from models.exposure import cached_lab_evaluation
-from models.investigations import investigation_label, raise_investigations, raise_survey_tasks
+from models.core.codes import Level
+from models.core.labels import LEVEL_LABELS
+from models.exposure.investigation_ops import investigation_label, raise_investigations, raise_survey_tasks
+from models.exposure.lab_ops import cached_lab_evaluation
+from models.exposure.tables import Investigation
 from webapp.extensions import db
 from webapp.formatting import dose, lab_today, lab_zone
 from webapp.mail import link, send_mail, tell_safety_officer

@@ -10,21 +10,15 @@ import sqlalchemy as sa
 from flask import Response, abort, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
-from models.units import from_msv
-from models.dose_chart import engine_records, fetal_months, monthly_dose, record_versions
-from models.dose_codes import Level, PeriodKind, Series, code
-from models.dose_overview import (
-    COLUMNS,
-    MAIN_SERIES,
-    OVERVIEW_PERIODS,
-    csv_table,
-    overview_rows,
-    sort_rows,
-)
-from models.dosimetry import DoseRecord
-from models.evaluation import person_rows
-from models.exposure import cached_lab_evaluation, policies_of, pregnancy_windows
-from models.people import Person, Role
+from models.core.codes import Level, PeriodKind, Series, code
+from models.core.units import from_msv
+from models.doses.tables import DoseRecord
+from models.doses.version_ops import record_versions
+from models.exposure.chart import engine_records, fetal_months, monthly_dose
+from models.exposure.evaluation import person_rows
+from models.exposure.lab_ops import cached_lab_evaluation, policies_of, pregnancy_windows
+from models.exposure.overview import COLUMNS, MAIN_SERIES, OVERVIEW_PERIODS, csv_table, overview_rows, sort_rows
+from models.people.tables import Person, Role
 from webapp.access import can_see_dose_of, roles_required
 from webapp.exposure import bp, labels
 from webapp.exposure.chart import monthly_chart_svg

@@ -6,19 +6,19 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 
-from models.dose_codes import Level, Location, PeriodKind, Quantity, Series, code, decode
-from models.dose_labels import LEVEL_LABELS, PERIOD_LABELS, dose_row_label
-from models.dosimetry import Investigation
-from models.evaluation import worst_levels
-from models.exposure import cached_lab_evaluation
-from models.investigations import (
-    check_review,
+from models.core.codes import Level, Location, PeriodKind, Quantity, Series, code, decode
+from models.core.labels import LEVEL_LABELS, PERIOD_LABELS, dose_row_label
+from models.exposure.evaluation import worst_levels
+from models.exposure.investigation_ops import (
     investigation_label,
     open_investigations,
     record_review,
     sign_off,
+    validate_review,
 )
-from models.people import Person, Role
+from models.exposure.lab_ops import cached_lab_evaluation
+from models.exposure.tables import Investigation
+from models.people.tables import Person, Role
 from webapp.access import roles_required
 from webapp.exposure import bp
 from webapp.exposure.forms import ReviewForm
@@ -56,7 +56,7 @@ def investigation(investigation_id: int):
     """Record the review of an investigation and sign it off; signed off, it is read-only."""
     item = db.session.get(Investigation, investigation_id) or abort(404)
     form = ReviewForm(obj=item)
-    if validate_with(form, lambda f: check_review(item, f.sign.data, f.findings.data,
+    if validate_with(form, lambda f: validate_review(item, f.sign.data, f.findings.data,
                                                   f.actions.data)):
         record_review(db.session, item, questions=form.questions.data,
                       findings=form.findings.data, actions=form.actions.data)

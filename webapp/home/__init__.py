@@ -3,5 +3,4 @@ from flask import Blueprint
 
 bp = Blueprint("home", __name__, template_folder="templates")
 
-from webapp.home import views  # noqa: E402,F401
-from webapp.home import panels  # noqa: E402,F401
+from webapp.home import panels, views  # noqa: E402,F401

@@ -3,9 +3,10 @@ from __future__ import annotations
 
 import sqlalchemy as sa
 
-from models.due import DUE_SOON, OVERDUE, due_state
-from models.instruments import Authorisation, Instrument, active_instruments
-from models.people import ROLE_LABELS, Person, PersonRole, Role
+from models.core.due_dates import DUE_SOON, OVERDUE, due_state
+from models.instruments.instrument_ops import active_instruments
+from models.instruments.tables import Authorisation, Instrument
+from models.people.tables import ROLE_LABELS, Person, PersonRole, Role
 from webapp.extensions import db
 from webapp.formatting import lab_today, settings
 from webapp.slots import home_panels

@@ -6,7 +6,7 @@ from pathlib import Path
 from flask import current_app, render_template
 from flask_login import current_user, login_required
 
-from models.people import Role
+from models.people.tables import Role
 from webapp.home import bp
 from webapp.slots import attention, home_panels
 

@@ -5,9 +5,9 @@ from flask_wtf import FlaskForm
 from wtforms import DateField, DateTimeLocalField, FloatField, SelectField, TextAreaField
 from wtforms.validators import InputRequired, Length
 
-from models.dose_codes import Location, Quantity
-from models.incident_ops import TYPE_LABELS
-from models.incidents import IncidentType
+from models.core.codes import Location, Quantity
+from models.incidents.incident_ops import TYPE_LABELS
+from models.incidents.tables import IncidentType
 from webapp.forms import CheckboxesField, choices
 
 

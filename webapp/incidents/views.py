@@ -3,17 +3,17 @@ from __future__ import annotations
 
 import smtplib
 
+import sqlalchemy as sa
 from flask import abort, current_app, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
-import sqlalchemy as sa
 
-from models import audit
-from models.dose_codes import Location, Quantity
-from models.errors import Invalid
-from models.incident_ops import (
+from models.audit import audit_ops
+from models.core.codes import Location, Quantity
+from models.core.errors import Invalid
+from models.core.units import to_msv
+from models.incidents.incident_ops import (
     TYPE_LABELS,
     add_note,
-    check_report,
     close_incident,
     estimated_doses,
     incidents_seen_by,
@@ -21,11 +21,12 @@ from models.incident_ops import (
     record_estimated_dose,
     report_incident,
     stop_instrument,
+    validate_report,
 )
-from models.incidents import Incident, IncidentType
-from models.instruments import Instrument, active_instruments
-from models.people import Person, Role
-from models.units import to_msv
+from models.incidents.tables import Incident, IncidentType
+from models.instruments.instrument_ops import active_instruments
+from models.instruments.tables import Instrument
+from models.people.tables import Person, Role
 from webapp.access import can_see_dose_of, roles_required
 from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
@@ -104,7 +105,7 @@ def new():
     form = ReportForm()
     form.instrument.choices = [("", "—")] + [(str(i.id), i.name) for i in active_instruments(db.session)]
     form.people.choices = [(str(p.id), p.name) for p in _people()]
-    if validate_with(form, lambda f: check_report(**_report_values(f))):
+    if validate_with(form, lambda f: validate_report(**_report_values(f))):
         incident = report_incident(db.session, reported_by=current_user, **_report_values(form))
         db.session.commit()
         _tell(incident)
@@ -169,7 +170,7 @@ def _follow_up(incident_id: int, form, action, done: str, reason: str | None = N
     incident = db.session.get(Incident, incident_id) or abort(404)
     if form.validate_on_submit():
         try:
-            with audit.reason(db.session, reason):
+            with audit_ops.reason(db.session, reason):
                 action(incident, form)
         except Invalid as error:
             db.session.rollback()

@@ -4,9 +4,9 @@ from __future__ import annotations
 import click
 import sqlalchemy as sa
 
-from models.api_tokens import create_token
-from models.errors import Invalid
-from models.instruments import Instrument
+from models.core.errors import Invalid
+from models.instruments.tables import Instrument
+from models.instruments.token_ops import create_token
 from webapp.extensions import db
 from webapp.instruments import bp
 

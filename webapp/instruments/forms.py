@@ -5,7 +5,7 @@ from flask_wtf import FlaskForm
 from wtforms import FloatField, IntegerField, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length
 
-from models.instruments import (
+from models.instruments.tables import (
     ENCLOSED_SURFACE_ACTION_LEVEL_USV_H,
     HOUSING_LEAKAGE_ACTION_LEVEL_USV_H,
     KIND_LABELS,

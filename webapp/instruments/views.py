@@ -4,19 +4,18 @@ from __future__ import annotations
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 
-from models import audit
-from models.errors import Invalid
-from models.instruments import (
-    KIND_LABELS,
-    Instrument,
+from models.audit import audit_ops
+from models.core.errors import Invalid
+from models.instruments.instrument_ops import (
     active_instruments,
-    check_instrument,
     retire_instrument,
     return_to_service,
     save_instrument,
     set_out_of_service,
+    validate_instrument,
 )
-from models.people import Role
+from models.instruments.tables import KIND_LABELS, Instrument
+from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.forms import validate_with
@@ -64,7 +63,7 @@ def edit(instrument_id: int):
 
 def _edit(form: InstrumentForm, instrument: Instrument | None):
     """Validate, save and commit an instrument form, or show it with its errors."""
-    if validate_with(form, lambda f: check_instrument(db.session, f.values(), instrument)):
+    if validate_with(form, lambda f: validate_instrument(db.session, f.values(), instrument)):
         instrument = save_instrument(db.session, form.values(), instrument)
         db.session.commit()
         flash(f"Saved {instrument.name}.", "info")
@@ -79,7 +78,7 @@ def retire(instrument_id: int):
     instrument = db.session.get(Instrument, instrument_id) or abort(404)
     form = ServiceForm()
     if form.validate_on_submit():
-        with audit.reason(db.session, form.reason.data):
+        with audit_ops.reason(db.session, form.reason.data):
             retire_instrument(db.session, instrument)
         db.session.commit()
         flash(f"{instrument.name} is retired.", "info")
@@ -98,7 +97,7 @@ def service(instrument_id: int):
         flash("Give a reason.", "error")
         return redirect(url_for("instruments.show", instrument_id=instrument.id))
     try:
-        with audit.reason(db.session, form.reason.data):
+        with audit_ops.reason(db.session, form.reason.data):
             if instrument.in_service:
                 set_out_of_service(db.session, instrument, form.reason.data)
             else:

@@ -5,9 +5,10 @@ import sys
 
 import click
 
-from models.errors import Invalid
-from models.dose_codes import WorkerCategory
-from models.people import PERSON_CATEGORIES, Role, add_person
+from models.core.codes import WorkerCategory
+from models.core.errors import Invalid
+from models.people.person_ops import add_person
+from models.people.tables import PERSON_CATEGORIES, Role
 from webapp.extensions import db
 from webapp.passwords import MIN_LENGTH, hash_password
 from webapp.people import bp

@@ -5,7 +5,7 @@ from flask_wtf import FlaskForm
 from wtforms import EmailField, PasswordField, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, Email, EqualTo, Length, Optional
 
-from models.people import CATEGORY_LABELS, PERSON_CATEGORIES, ROLE_LABELS, Role
+from models.people.tables import CATEGORY_LABELS, PERSON_CATEGORIES, ROLE_LABELS, Role
 from webapp.forms import CheckboxesField, choices
 from webapp.passwords import MIN_LENGTH
 

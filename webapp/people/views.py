@@ -4,10 +4,11 @@ from __future__ import annotations
 import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 
-from models import audit
-from models.errors import Invalid
-from models.dose_codes import WorkerCategory
-from models.people import Person, Role, add_person, check_new_person, set_active, update_person
+from models.audit import audit_ops
+from models.core.codes import WorkerCategory
+from models.core.errors import Invalid
+from models.people.person_ops import add_person, set_active, update_person, validate_new_person
+from models.people.tables import Person, Role
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.forms import attach_errors, validate_with
@@ -29,7 +30,7 @@ def index():
 def new():
     """Add a person with a login and a first password."""
     form = NewPersonForm()
-    if validate_with(form, lambda f: check_new_person(db.session, f.login.data, f.name.data)):
+    if validate_with(form, lambda f: validate_new_person(db.session, f.login.data, f.name.data)):
         person = add_person(
             db.session, login=form.login.data, name=form.name.data, email=form.email.data,
             roles={Role(r) for r in form.roles.data}, category=WorkerCategory(form.category.data),
@@ -73,7 +74,7 @@ def toggle_active(person_id: int):
     if not form.validate_on_submit():
         flash("Give a reason to change whether the account is active.", "error")
         return redirect(url_for("people.edit", person_id=person.id))
-    with audit.reason(db.session, form.reason.data):
+    with audit_ops.reason(db.session, form.reason.data):
         set_active(db.session, person, not person.active)
     db.session.commit()
     flash(f"{person.name} is now {'active' if person.active else 'deactivated'}.", "info")

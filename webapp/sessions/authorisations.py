@@ -5,17 +5,17 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 
-from models import audit
-from models.authorisations import (
+from models.audit import audit_ops
+from models.core.errors import Invalid
+from models.instruments.authorisation_ops import (
     authorised_users,
-    check_authorisation,
     grant_authorisation,
     revoke_authorisation,
-    safety_officers,
+    validate_authorisation,
 )
-from models.errors import Invalid
-from models.instruments import Authorisation, AuthorisationLevel, Instrument
-from models.people import Person, Role
+from models.instruments.tables import Authorisation, AuthorisationLevel, Instrument
+from models.people.person_ops import safety_officers
+from models.people.tables import Person, Role
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today
@@ -41,7 +41,7 @@ def authorisations(instrument_id: int):
     people = db.session.scalars(sa.select(Person).where(Person.active.is_(True))
                                 .order_by(Person.name)).all()
     form.person_id.choices = [("", "—")] + [(str(p.id), f"{p.name} ({p.login})") for p in people]
-    if validate_with(form, lambda f: check_authorisation(db.session, instrument=instrument,
+    if validate_with(form, lambda f: validate_authorisation(db.session, instrument=instrument,
                                                          **_form_values(f))):
         granted = grant_authorisation(db.session, instrument=instrument, granted_by=current_user,
                                       **_form_values(form))
@@ -66,7 +66,7 @@ def revoke(authorisation_id: int):
         flash("Say why the authorisation is revoked.", "error")
         return back
     try:
-        with audit.reason(db.session, form.reason.data.strip()):
+        with audit_ops.reason(db.session, form.reason.data.strip()):
             revoke_authorisation(db.session, authorisation)
     except Invalid as error:
         db.session.rollback()

@@ -13,7 +13,7 @@ from wtforms import (
 )
 from wtforms.validators import InputRequired, Length, Optional
 
-from models.instruments import AuthorisationLevel
+from models.instruments.tables import AuthorisationLevel
 from webapp.formatting import from_local
 
 NUMBER = "Enter a number."

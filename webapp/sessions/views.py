@@ -7,14 +7,14 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
-from models.base import utcnow
-from models.dosimetry import Dosimeter, DosimeterKind
-from models.errors import Invalid
-from models.instruments import Instrument, active_instruments, current_authorisations
-from models.logbook import (
+from models.core.base import utcnow
+from models.core.errors import Invalid
+from models.doses.tables import Dosimeter, DosimeterKind
+from models.instruments.instrument_ops import active_instruments, current_authorisations
+from models.instruments.tables import Instrument
+from models.people.tables import Person, Role
+from models.sessions.session_ops import (
     active_bypass_permit,
-    check_finished,
-    check_opening,
     close_session,
     figures,
     find_sessions,
@@ -23,9 +23,10 @@ from models.logbook import (
     open_session,
     open_sessions_of,
     usage,
+    validate_finished,
+    validate_opening,
 )
-from models.people import Person, Role
-from models.sessions import InstrumentSession
+from models.sessions.tables import InstrumentSession
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, lab_zone
@@ -70,7 +71,7 @@ def start(instrument_id: int):
     if not form.is_submitted():
         form.dosimeter_worn.data = True
     now = utcnow()
-    if validate_with(form, lambda f: check_opening(db.session, instrument, current_user,
+    if validate_with(form, lambda f: validate_opening(db.session, instrument, current_user,
                                                    f.values(), now=now)):
         open_session(db.session, instrument, current_user, form.values(), now=now)
         db.session.commit()
@@ -116,7 +117,7 @@ def log():
     form.instrument.choices = [("", "—")] + [(str(i.id), i.name) for i in active_instruments(db.session)]
     instrument = db.session.get(Instrument, optional_id(form.instrument.data) or 0)
     now = utcnow()
-    if validate_with(form, lambda f: check_finished(db.session, instrument, current_user,
+    if validate_with(form, lambda f: validate_finished(db.session, instrument, current_user,
                                                     f.values(), now=now)):
         entry = log_finished_session(db.session, instrument, current_user, form.values(), now=now)
         db.session.commit()

@@ -4,7 +4,7 @@ from __future__ import annotations
 from flask import flash, redirect, render_template, url_for
 from flask_login import current_user
 
-from models.people import Role
+from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import settings

@@ -5,9 +5,9 @@ import json
 
 import click
 
-from models.meter_ops import active_meters, calibration_on
-from models.permit_ops import active_permits, expired_unclosed_permits
-from models.survey_ops import open_survey_tasks
+from models.surveys.meter_ops import active_meters, calibration_on
+from models.surveys.permit_ops import active_permits, expired_unclosed_permits
+from models.surveys.survey_ops import open_survey_tasks
 from webapp.extensions import db
 from webapp.formatting import lab_today, local, settings
 from webapp.surveys import bp

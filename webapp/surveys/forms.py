@@ -1,7 +1,7 @@
 """Forms for survey meters, surveys and bypass permits."""
 from __future__ import annotations
 
-from datetime import timezone
+from datetime import UTC
 
 from flask_wtf import FlaskForm
 from wtforms import (
@@ -19,11 +19,11 @@ from wtforms import (
 )
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
-from models.due import METER_CALIBRATION_MONTHS
-from models.permit_ops import RING_RULE
-from models.survey_ops import REFERENCE_DISTANCE_CM, TRIGGER_LABELS, PointInput
-from models.surveys import PointLevel, SurveyTrigger
-from models.units import RATE_UNITS
+from models.core.due_dates import METER_CALIBRATION_MONTHS
+from models.core.units import RATE_UNITS
+from models.surveys.permit_ops import RING_RULE
+from models.surveys.survey_ops import REFERENCE_DISTANCE_CM, TRIGGER_LABELS, PointInput
+from models.surveys.tables import PointLevel, SurveyTrigger
 from webapp.formatting import lab_zone
 from webapp.forms import choices
 
@@ -51,7 +51,7 @@ def local_time_field(label: str, **kwargs) -> LocalTimeField:
 
 def utc(field: DateTimeLocalField):
     """A local time field's value as aware UTC."""
-    return field.data.astimezone(timezone.utc) if field.data else None
+    return field.data.astimezone(UTC) if field.data else None
 
 
 class MeterForm(FlaskForm):

@@ -5,11 +5,11 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import login_required
 
-from models import audit
-from models.errors import Invalid
-from models.meter_ops import calibration_on, check_meter, recalibrate, retire_meter, save_meter
-from models.people import Role
-from models.surveys import Survey, SurveyMeter
+from models.audit import audit_ops
+from models.core.errors import Invalid
+from models.people.tables import Role
+from models.surveys.meter_ops import calibration_on, recalibrate, retire_meter, save_meter, validate_meter
+from models.surveys.tables import Survey, SurveyMeter
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, settings
@@ -34,7 +34,7 @@ def new_meter():
     """Register a survey meter."""
     form = MeterForm()
     today = lab_today()
-    if validate_with(form, lambda f: check_meter(db.session, f.values(), today)):
+    if validate_with(form, lambda f: validate_meter(db.session, f.values(), today)):
         meter = save_meter(db.session, form.values(), today)
         db.session.commit()
         flash(f"Registered meter {meter.serial}.", "info")
@@ -68,7 +68,7 @@ def recalibrate_meter(meter_id: int):
     form = CalibrationForm()
     if form.validate_on_submit():
         try:
-            with audit.reason(db.session, form.note.data or "New calibration"):
+            with audit_ops.reason(db.session, form.note.data or "New calibration"):
                 recalibrate(db.session, meter, form.calibrated_on.data,
                             form.calibration_interval_months.data, lab_today())
         except Invalid as error:
@@ -89,7 +89,7 @@ def retire(meter_id: int):
     form = ReasonForm()
     if not form.validate_on_submit():
         return _show(meter, CalibrationForm(), form)
-    with audit.reason(db.session, form.reason.data):
+    with audit_ops.reason(db.session, form.reason.data):
         retire_meter(db.session, meter)
     db.session.commit()
     flash(f"Meter {meter.serial} is retired.", "info")

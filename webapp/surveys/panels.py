@@ -4,20 +4,19 @@ from __future__ import annotations
 from flask import g, has_request_context, url_for
 from flask_login import current_user
 
-from models.base import utcnow
-from models.instruments import Instrument
-from models.due import DUE_SOON, OVERDUE
-from models.meter_ops import active_meters, calibration_on
-from models.people import Role
-from models.permit_ops import (
+from models.core.base import utcnow
+from models.core.due_dates import DUE_SOON, OVERDUE
+from models.instruments.tables import Instrument
+from models.surveys.meter_ops import active_meters, calibration_on
+from models.surveys.permit_ops import (
     active_permits,
     display_state,
     expired_unclosed_permits,
     permits_of,
     requested_permits,
 )
-from models.permits import BypassPermit
-from models.survey_ops import latest_failed_surveys, open_survey_tasks, surveys_of
+from models.surveys.survey_ops import latest_failed_surveys, open_survey_tasks, surveys_of
+from models.surveys.tables import BypassPermit
 from webapp.extensions import db
 from webapp.formatting import lab_today, local, settings
 from webapp.slots import Attention, Severity, attention, instrument_sections, navigation

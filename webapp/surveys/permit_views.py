@@ -4,24 +4,24 @@ from __future__ import annotations
 from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
-from models.base import utcnow
-from models.errors import Invalid
-from models.instruments import Instrument
-from models.people import Role
-from models.permit_ops import (
+from models.core.base import utcnow
+from models.core.errors import Invalid
+from models.instruments.authorisation_ops import authorised_for, instruments_for
+from models.instruments.tables import Instrument
+from models.people.tables import Role
+from models.surveys.permit_ops import (
     RING_RULE,
     SIGN_RULE,
     PermitRequest,
-    check_request,
     close_permit,
     decide,
     display_state,
     may_close,
     permits_of,
     request_permit,
+    validate_request,
 )
-from models.permits import BypassPermit
-from models.survey_ops import authorised_for, instruments_for
+from models.surveys.tables import BypassPermit
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, local
@@ -94,7 +94,7 @@ def _check(form: PermitForm, today) -> None:
                                                             values.instrument, today):
         errors["instrument_id"] = f"You hold no current authorisation on {values.instrument.name}."
     try:
-        check_request(values, utcnow())
+        validate_request(values, utcnow())
     except Invalid as error:
         errors = {**error.errors, **errors}
     if errors:

@@ -4,25 +4,24 @@ from __future__ import annotations
 from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
-from models.base import utcnow
-from models.errors import Invalid
-from models.instruments import Instrument
-from models.meter_ops import active_meters, calibration_on
-from models.people import Role
-from models.survey_ops import (
+from models.core.base import utcnow
+from models.core.errors import Invalid
+from models.core.units import RATE_UNITS
+from models.instruments.authorisation_ops import authorised_for, instruments_for
+from models.instruments.tables import Instrument
+from models.people.tables import Role
+from models.surveys.meter_ops import active_meters, calibration_on
+from models.surveys.survey_ops import (
     LEVEL_SOURCES,
     SurveyInput,
-    authorised_for,
-    check_survey,
     failing_points,
-    instruments_for,
     off_reference_distance,
     open_survey_tasks,
     record_survey,
     surveys_of,
+    validate_survey,
 )
-from models.surveys import Survey, SurveyMeter, SurveyTrigger
-from models.units import RATE_UNITS
+from models.surveys.tables import Survey, SurveyMeter, SurveyTrigger
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, settings
@@ -106,7 +105,7 @@ def _check(form: SurveyForm, today) -> None:
         errors["instrument_id"] = (f"You hold no current authorisation on {values.instrument.name}; "
                                    "an authorised operator or the safety officer records its surveys.")
     try:
-        check_survey(values, utcnow())
+        validate_survey(values, utcnow())
     except Invalid as error:
         errors = {**error.errors, **errors}
     rows = form.filled_rows()

@@ -1,0 +1,1 @@
+"""Audit area of the domain."""

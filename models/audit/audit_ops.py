@@ -1,0 +1,217 @@
+"""Hash-chained audit trail written automatically for every flushed change."""
+from __future__ import annotations
+
+import enum
+import hashlib
+import json
+from collections.abc import Iterable, Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass
+from datetime import date, datetime
+from typing import Any
+
+import sqlalchemy as sa
+from sqlalchemy import event, inspect
+from sqlalchemy.orm import Session
+
+from models.audit.tables import AuditEvent
+from models.core.base import utcnow
+
+GENESIS_HASH = "0" * 64
+# Secrets are audited as changed without putting even their hash in the trail.
+REDACTED_SUFFIX = "_hash"
+# Any fixed number: serialises writers of the chain on PostgreSQL.
+_CHAIN_LOCK_KEY = 7_214_003
+
+
+def _plain(value: Any) -> Any:
+    """Turn a column value into a JSON value."""
+    if isinstance(value, enum.Enum):
+        return value.value
+    if isinstance(value, (datetime, date)):
+        return value.isoformat()
+    return value
+
+
+def event_hash(fields: dict[str, Any]) -> str:
+    """SHA-256 over the canonical JSON of an event's content and the previous hash."""
+    canonical = json.dumps(fields, sort_keys=True, separators=(",", ":"), default=str)
+    return hashlib.sha256(canonical.encode()).hexdigest()
+
+
+def _content(row: Any) -> dict[str, Any]:
+    """The hashed fields of an audit row (mapped object or Core row)."""
+    return {
+        "at": _plain(row.at),
+        "actor_id": row.actor_id,
+        "entity": row.entity,
+        "entity_id": row.entity_id,
+        "action": row.action,
+        "before": row.before,
+        "after": row.after,
+        "reason": row.reason,
+        "prev_hash": row.prev_hash,
+    }
+
+
+def _column_value(key: str, value: Any) -> Any:
+    """A column's value as the trail shows it."""
+    if key.endswith(REDACTED_SUFFIX) and value is not None:
+        return "(secret)"
+    return _plain(value)
+
+
+def _snapshot(obj: Any) -> dict[str, Any]:
+    """Every column of a mapped object."""
+    mapper = inspect(obj).mapper
+    return {a.key: _column_value(a.key, getattr(obj, a.key)) for a in mapper.column_attrs}
+
+
+def _changes(obj: Any, stored: dict[str, Any]) -> tuple[dict[str, Any], dict[str, Any]]:
+    """The changed columns of a dirty object, before and after."""
+    state = inspect(obj)
+    before, after = {}, {}
+    for attr in state.mapper.column_attrs:
+        hist = state.attrs[attr.key].history
+        if hist.has_changes():
+            old = hist.deleted[0] if hist.deleted else stored.get(attr.key)
+            new = hist.added[0] if hist.added else None
+            if old != new:
+                before[attr.key] = _column_value(attr.key, old)
+                after[attr.key] = _column_value(attr.key, new)
+    return before, after
+
+
+def _action(before: dict[str, Any], after: dict[str, Any]) -> str:
+    """Name an update; switching a record off is called out as a deactivation."""
+    if after.get("active") is False or (after.get("retired_at") and not before.get("retired_at")):
+        return "deactivate"
+    return "update"
+
+
+def _pending_events(session: Session) -> Iterator[dict[str, Any]]:
+    """Audit content for everything this flush writes."""
+    for obj in session.new:
+        if not isinstance(obj, AuditEvent):
+            yield {"entity": obj.__tablename__, "entity_id": obj.id, "action": "create",
+                   "before": None, "after": _snapshot(obj)}
+    for obj in session.dirty:
+        if isinstance(obj, AuditEvent) or not session.is_modified(obj, include_collections=False):
+            continue
+        before, after = _changes(obj, session.info.get("_audit_stored", {}).get(id(obj), {}))
+        if after:
+            yield {"entity": obj.__tablename__, "entity_id": obj.id,
+                   "action": _action(before, after), "before": before, "after": after}
+    for obj in session.deleted:
+        if not isinstance(obj, AuditEvent):
+            yield {"entity": obj.__tablename__, "entity_id": obj.id, "action": "delete",
+                   "before": _snapshot(obj), "after": None}
+
+
+def _last_hash(conn: sa.Connection) -> str:
+    """The hash at the head of the chain, taking the chain lock where the database has one."""
+    if conn.dialect.name == "postgresql":
+        conn.execute(sa.text("SELECT pg_advisory_xact_lock(:k)"), {"k": _CHAIN_LOCK_KEY})
+    table = AuditEvent.__table__
+    last = conn.execute(sa.select(table.c.hash).order_by(table.c.id.desc()).limit(1)).scalar()
+    return last or GENESIS_HASH
+
+
+@event.listens_for(Session, "before_flush")
+def _read_unloaded_old_values(session: Session, _flush_context: Any, _instances: Any) -> None:
+    """Fetch the stored value of changed columns whose old value was never loaded (expired)."""
+    stored = {}
+    for obj in session.dirty:
+        state = inspect(obj)
+        if isinstance(obj, AuditEvent) or state.key is None:
+            continue
+        unknown = [a.key for a in state.mapper.column_attrs
+                   if (h := state.attrs[a.key].history).added and not h.deleted]
+        if unknown:
+            table = state.mapper.local_table
+            row = session.connection().execute(
+                sa.select(*(table.c[k] for k in unknown)).where(table.c.id == obj.id)).one()
+            stored[id(obj)] = dict(zip(unknown, row))
+    session.info["_audit_stored"] = stored
+
+
+@event.listens_for(Session, "after_flush")
+def _write_audit_events(session: Session, _flush_context: Any) -> None:
+    """Append one chained audit event for every row this flush creates, changes or deletes."""
+    pending = list(_pending_events(session))
+    if not pending:
+        return
+    conn = session.connection()
+    prev = _last_hash(conn)
+    for item in pending:
+        row = {**item, "at": utcnow(), "actor_id": session.info.get("actor_id"),
+               "reason": session.info.get("audit_reason"), "prev_hash": prev}
+        row["hash"] = prev = event_hash(_content(_Row(**row)))
+        conn.execute(AuditEvent.__table__.insert().values(**row))
+
+
+@dataclass
+class _Row:
+    """Attribute access over a dict, so the same content function serves rows and objects."""
+
+    at: datetime
+    actor_id: int | None
+    entity: str
+    entity_id: int | None
+    action: str
+    before: dict | None
+    after: dict | None
+    reason: str | None
+    prev_hash: str
+    hash: str = ""
+
+
+def data_version(session: Session, entities: Iterable[str]) -> int:
+    """The newest audit event id among these record types: it changes whenever one is written.
+
+    One maximum per type, each read from the (entity, id) index, in a single round trip.
+    """
+    table = AuditEvent.__table__
+    newest = [sa.select(sa.func.max(table.c.id)).where(table.c.entity == entity).scalar_subquery()
+              for entity in sorted(entities)]
+    return max((value or 0) for value in session.execute(sa.select(*newest)).one())
+
+
+def set_actor(session: Session, person_id: int | None) -> None:
+    """Record who is acting for every change this session flushes."""
+    session.info["actor_id"] = person_id
+
+
+@contextmanager
+def reason(session: Session, text: str | None) -> Iterator[None]:
+    """Attach a reason to the audit events of the changes flushed inside the block."""
+    previous = session.info.get("audit_reason")
+    session.info["audit_reason"] = text
+    try:
+        yield
+        session.flush()
+    finally:
+        session.info["audit_reason"] = previous
+
+
+@dataclass(frozen=True)
+class ChainProblem:
+    """The first place where the audit chain does not hold."""
+
+    event_id: int
+    message: str
+
+
+def verify_chain(session: Session) -> ChainProblem | None:
+    """Walk the chain in order; report the first altered event or the first gap."""
+    prev = GENESIS_HASH
+    previous_id = None
+    rows = session.execute(sa.select(AuditEvent.__table__).order_by(AuditEvent.id))
+    for row in rows:
+        if row.prev_hash != prev:
+            after = f"after event {previous_id}" if previous_id else "at the start"
+            return ChainProblem(row.id, f"event {row.id}: an event {after} was removed or reordered")
+        if event_hash(_content(row)) != row.hash:
+            return ChainProblem(row.id, f"event {row.id}: its content was altered")
+        prev, previous_id = row.hash, row.id
+    return None

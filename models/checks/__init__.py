@@ -1,0 +1,1 @@
+"""Checks area of the domain."""

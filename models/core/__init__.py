@@ -1,0 +1,1 @@
+"""Core area of the domain."""

@@ -1,0 +1,67 @@
+"""Plain words for the dose codes, shared by the command line, the pages and the e-mails."""
+from models.core.codes import LensSource, Level, Location, MrdPolicy, PeriodKind, Proration, Series
+
+LOCATION_LABELS = {
+    Location.WHOLE_BODY: "whole body",
+    Location.LEFT_HAND: "left hand",
+    Location.RIGHT_HAND: "right hand",
+    Location.EYE: "eye",
+    Location.ABDOMEN: "abdomen",
+}
+SERIES_LABELS = {
+    Series.EFFECTIVE: "effective",
+    Series.SKIN: "skin",
+    Series.LENS: "lens",
+    Series.LEFT_HAND: "left hand",
+    Series.RIGHT_HAND: "right hand",
+    Series.WORST_HAND: "worse hand",
+    Series.FETUS: "fetus",
+}
+PERIOD_LABELS = {
+    PeriodKind.YEAR: "year",
+    PeriodKind.ROLLING_12_MONTHS: "rolling 12 months",
+    PeriodKind.QUARTER: "quarter",
+    PeriodKind.MONTH: "month",
+    PeriodKind.FIVE_YEAR_BLOCK: "five-year block",
+    PeriodKind.ROLLING_FIVE_YEARS: "rolling five years",
+    PeriodKind.PREGNANCY: "pregnancy",
+}
+LEVEL_LABELS = {
+    Level.BELOW_1: "below level I",
+    Level.LEVEL_1: "level I",
+    Level.LEVEL_2: "level II",
+    Level.LIMIT_REACHED: "limit reached",
+}
+PRORATION_LABELS = {
+    Proration.PRORATE_DAYS: "Spread each record over its wear days; a period counts the days "
+                            "inside it",
+    Proration.WEAR_END: "Whole record in the period of its wear-period end date",
+}
+MRD_LABELS = {
+    MrdPolicy.ZERO: "Below the minimum reportable dose counts as zero",
+    MrdPolicy.HALF: "Below the minimum reportable dose counts as half the MRD",
+    MrdPolicy.FULL: "Below the minimum reportable dose counts as the MRD",
+}
+LENS_LABELS = {
+    LensSource.HP007: "Lens from Hp(0.07) whole body where no Hp(3) is measured",
+    LensSource.HP10: "Lens from Hp(10) whole body where no Hp(3) is measured",
+}
+
+
+# Series whose records may come from another dosimeter, and the location that is their own.
+_OWN_LOCATION = {Series.LENS: (Location.EYE, "lens"), Series.FETUS: (Location.ABDOMEN, "fetus")}
+
+
+def measured_label(series: str, quantity: str, location: str) -> str:
+    """'Hp(10) whole body'; a lens or fetus assessed from another dosimeter says so."""
+    own = f"{quantity} {LOCATION_LABELS[Location(location)]}"
+    if Series(series) in _OWN_LOCATION:
+        home, name = _OWN_LOCATION[Series(series)]
+        if Location(location) is not home:
+            return f"{name} from {own}"
+    return own
+
+
+def dose_row_label(series: str, quantity: str, location: str, period: str) -> str:
+    """'Hp(10) whole body, quarter' or 'lens from Hp(0.07) whole body, quarter'."""
+    return f"{measured_label(series, quantity, location)}, {PERIOD_LABELS[PeriodKind(period)]}"

@@ -1,0 +1,64 @@
+"""The lab's own settings: one row."""
+from __future__ import annotations
+
+from datetime import date, datetime
+from typing import TYPE_CHECKING
+from zoneinfo import ZoneInfo
+
+import sqlalchemy as sa
+from sqlalchemy.orm import Mapped, Session, mapped_column, relationship
+
+from models.core.base import Base, IdMixin, enum_column
+from models.core.codes import LensSource, MrdPolicy, Proration
+
+if TYPE_CHECKING:  # core imports no area; the mapper finds the class by name
+    from models.exposure.tables import LimitSet
+
+
+class LabSettings(IdMixin, Base):
+    """Policies and preferences that apply to the whole lab."""
+
+    __tablename__ = "lab_settings"
+
+    lab_name: Mapped[str] = mapped_column(sa.String(200), default="X-ray laboratory")
+    timezone: Mapped[str] = mapped_column(sa.String(64), default="UTC")
+    limit_set_id: Mapped[int | None] = mapped_column(sa.ForeignKey("limit_set.id"))
+    proration: Mapped[Proration] = mapped_column(
+        enum_column(Proration), default=Proration.PRORATE_DAYS
+    )
+    mrd_policy: Mapped[MrdPolicy] = mapped_column(enum_column(MrdPolicy), default=MrdPolicy.ZERO)
+    lens_source: Mapped[LensSource] = mapped_column(
+        enum_column(LensSource), default=LensSource.HP007
+    )
+    display_unit: Mapped[str] = mapped_column(sa.String(8), default="mSv")
+    five_year_first_year: Mapped[int] = mapped_column(default=2026)
+    due_soon_days: Mapped[int] = mapped_column(default=7)
+    reminders_enabled: Mapped[bool] = mapped_column(default=True)
+    safety_officer_email: Mapped[str | None] = mapped_column(sa.String(254))
+
+    limit_set: Mapped[LimitSet | None] = relationship("LimitSet")
+
+    __table_args__ = (
+        sa.CheckConstraint("display_unit IN ('mSv', 'mrem')", name="display_unit_known"),
+        sa.CheckConstraint("due_soon_days >= 0", name="due_soon_not_negative"),
+    )
+
+
+def lab_settings(session: Session) -> LabSettings:
+    """Return the settings row, creating it with defaults on first use."""
+    settings = session.get(LabSettings, 1)
+    if settings is None:
+        settings = LabSettings(id=1)
+        session.add(settings)
+        session.flush()
+    return settings
+
+
+def lab_zone(session: Session) -> ZoneInfo:
+    """The lab's own time zone, in which due dates and days are counted."""
+    return ZoneInfo(lab_settings(session).timezone)
+
+
+def lab_date(session: Session, moment: datetime) -> date:
+    """The lab's calendar date of a UTC moment."""
+    return moment.astimezone(lab_zone(session)).date()

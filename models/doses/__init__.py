@@ -1,0 +1,1 @@
+"""Doses area of the domain."""

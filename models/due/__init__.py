@@ -1,0 +1,1 @@
+"""Due area of the domain."""

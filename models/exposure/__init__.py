@@ -1,0 +1,1 @@
+"""Exposure area of the domain."""

@@ -1,0 +1,130 @@
+"""The lab's dose evaluation: stored records read into the engine's arrays, evaluated on a date."""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import date
+
+import numpy as np
+import sqlalchemy as sa
+from sqlalchemy.orm import Session
+
+from models.core.settings import LabSettings, lab_settings
+from models.doses.tables import DoseRecord
+from models.doses.version_ops import is_current
+from models.exposure import presets
+from models.exposure.cache import UntilChanged
+from models.exposure.engine import DoseRecords, DoseTotals, Policies, compute_doses, person_index
+from models.exposure.evaluation import Evaluation, evaluate
+from models.exposure.limit_set_ops import as_rules
+from models.exposure.tables import PregnancyDeclaration
+from models.people.tables import Person
+
+NO_LIMIT_SET = presets.LimitSetSpec("none", "No limit set chosen", ())
+
+
+# Read as the driver gives them, these skip a Python conversion per row (enum lookup, date parse).
+_AS_STORED = ("quantity", "location", "wear_start", "wear_end", "result")
+
+
+def _record_columns(as_stored: bool = False) -> sa.Select:
+    """The columns the engine needs, of the records in force, in one query.
+
+    as_stored: the enum and date columns come back as stored (text; dates on PostgreSQL).
+    """
+    columns = (DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location,
+               DoseRecord.wear_start, DoseRecord.wear_end, DoseRecord.value_msv,
+               DoseRecord.result, DoseRecord.mrd_msv)
+    return sa.select(*(
+        sa.type_coerce(c, sa.String) if as_stored and c.key in _AS_STORED else c for c in columns
+    )).where(is_current())
+
+
+def read_records(session: Session, people: np.ndarray) -> DoseRecords:
+    """Every record in force as engine columns, people given as positions in `people`."""
+    session.flush()  # Core execution below does not autoflush
+    # Core rows: the ORM's per-row loading costs more than the query itself at 100,000s of rows.
+    rows = session.connection().execute(_record_columns(as_stored=True)).all()
+    columns = list(zip(*rows)) if rows else [()] * 8
+    person_ids, quantity, location, start, end, value, result, mrd = columns
+    return DoseRecords(
+        person=person_index(np.asarray(person_ids, dtype=np.int64), people),
+        quantity=np.asarray(quantity, dtype=str),
+        location=np.asarray(location, dtype=str),
+        wear_start=np.asarray(start, dtype="datetime64[D]"),
+        wear_end=np.asarray(end, dtype="datetime64[D]"),
+        value=np.asarray(value, dtype=float),  # None becomes NaN
+        result=np.asarray(result, dtype=str),
+        mrd=np.asarray(mrd, dtype=float),
+    )
+
+
+def pregnancy_windows(session: Session, people: np.ndarray, on: date) -> tuple[np.ndarray, np.ndarray]:
+    """(P,) start and end of each person's declared pregnancy in force on `on` (NaT for none)."""
+    start = np.full(len(people), np.datetime64("NaT"), dtype="datetime64[D]")
+    end = start.copy()
+    declarations = session.execute(
+        sa.select(PregnancyDeclaration.person_id, PregnancyDeclaration.declared_on,
+                  PregnancyDeclaration.ended_on)
+        .where(PregnancyDeclaration.declared_on <= on,
+               sa.or_(PregnancyDeclaration.ended_on.is_(None), PregnancyDeclaration.ended_on >= on))
+        .order_by(PregnancyDeclaration.declared_on)
+    ).all()
+    for person_id, declared_on, ended_on in declarations:  # later declarations win
+        at = person_index(np.array([person_id]), people)[0]
+        start[at] = declared_on
+        end[at] = np.datetime64("NaT") if ended_on is None else ended_on
+    return start, end
+
+
+def policies_of(settings: LabSettings) -> Policies:
+    """The counting policies the lab has chosen."""
+    return Policies(settings.proration, settings.mrd_policy, settings.lens_source,
+                    settings.five_year_first_year)
+
+
+def limit_set_of(settings: LabSettings) -> presets.LimitSetSpec:
+    """The lab's limit set in force, as rules."""
+    return NO_LIMIT_SET if settings.limit_set is None else as_rules(settings.limit_set)
+
+
+@dataclass(frozen=True)
+class LabEvaluation:
+    """Everyone's evaluation on one date, with the person ids in row order."""
+
+    on: date
+    person_ids: np.ndarray
+    evaluation: Evaluation
+
+    @property
+    def totals(self) -> DoseTotals:
+        """The engine's sums behind the evaluation."""
+        return self.evaluation.totals
+
+    def row_of(self, person_id: int) -> int:
+        """The row of a person in the arrays."""
+        return int(person_index(np.array([person_id]), self.person_ids)[0])
+
+
+def evaluate_lab(session: Session, on: date) -> LabEvaluation:
+    """Read the records in force and evaluate everyone on `on` with the lab's policies and limits."""
+    settings = lab_settings(session)
+    people, categories = zip(*session.execute(
+        sa.select(Person.id, Person.category).order_by(Person.id)).all()) or ((), ())
+    person_ids = np.asarray(people, dtype=np.int64)
+    records = read_records(session, person_ids)
+    start, end = pregnancy_windows(session, person_ids, on)
+    totals = compute_doses(records, len(person_ids), on, policies_of(settings), start, end)
+    evaluation = evaluate(totals, limit_set_of(settings),
+                          np.asarray([str(c) for c in categories], dtype=str))
+    return LabEvaluation(on, person_ids, evaluation)
+
+
+# Everything the evaluation reads: the records, declarations, people's categories, policies, limits.
+EVALUATION_INPUTS = frozenset({"dose_record", "pregnancy_declaration", "person", "lab_settings",
+                               "limit_set", "limit_rule"})
+_evaluations: UntilChanged[LabEvaluation] = UntilChanged(EVALUATION_INPUTS)
+
+
+def cached_lab_evaluation(session: Session, on: date) -> LabEvaluation:
+    """The lab's evaluation, recomputed only when one of its inputs was written or the date changed."""
+    return _evaluations.get(session, on, lambda: evaluate_lab(session, on))

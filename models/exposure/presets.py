@@ -1,0 +1,240 @@
+"""Limit sets: the rule types, and the presets shipped with the product, each value with its clause.
+
+Sources are the rows of /work/shared/REFERENCE.md; a value not found there says "from memory" in
+its clause. Rules name a Series (see dose_codes), which fixes the quantity and location.
+"""
+import math
+from dataclasses import dataclass
+
+from models.core.codes import LevelKind, PeriodKind, Series, WorkerCategory
+
+
+@dataclass(frozen=True)
+class InvestigationLevel:
+    """Level I or II of a rule: a fraction of the rule's limit, or an absolute mSv per period."""
+
+    kind: LevelKind
+    value: float
+
+    def __post_init__(self):
+        object.__setattr__(self, "kind", LevelKind(self.kind))
+        if not self.value > 0 or (self.kind is LevelKind.FRACTION and self.value > 1):
+            raise ValueError(f"investigation level out of range: {self}")
+
+    def msv(self, limit_msv: float | None) -> float:
+        """Threshold in mSv for a rule with this limit."""
+        if self.kind is LevelKind.ABSOLUTE:
+            return self.value
+        if limit_msv is None:
+            raise ValueError("a level given as a fraction needs a limit")
+        return self.value * limit_msv
+
+
+@dataclass(frozen=True)
+class LimitRuleSpec:
+    """Limit and investigation levels for one worker category, series and period kind."""
+
+    category: WorkerCategory
+    series: Series
+    period: PeriodKind
+    limit_msv: float | None
+    level1: InvestigationLevel | None = None
+    level2: InvestigationLevel | None = None
+    clause: str = ""
+
+    def __post_init__(self):
+        object.__setattr__(self, "category", WorkerCategory(self.category))
+        object.__setattr__(self, "series", Series(self.series))
+        object.__setattr__(self, "period", PeriodKind(self.period))
+        if self.limit_msv is not None:
+            object.__setattr__(self, "limit_msv", float(self.limit_msv))
+        if not self.clause:
+            raise ValueError("every rule names its source clause")
+        if self.limit_msv is None and self.level1 is None and self.level2 is None:
+            raise ValueError("a rule needs a limit or an investigation level")
+        set_values = [v for v in self.thresholds() if not math.isnan(v)]
+        if any(v <= 0 for v in set_values) or set_values != sorted(set_values):
+            raise ValueError(f"thresholds must be positive, level I <= level II <= limit: {self}")
+
+    def thresholds(self) -> tuple[float, float, float]:
+        """(level I, level II, limit) in mSv, NaN where not set."""
+        return (
+            math.nan if self.level1 is None else self.level1.msv(self.limit_msv),
+            math.nan if self.level2 is None else self.level2.msv(self.limit_msv),
+            math.nan if self.limit_msv is None else self.limit_msv,
+        )
+
+
+@dataclass(frozen=True)
+class LimitSetSpec:
+    """A named set of rules; at most one rule per (category, series, period)."""
+
+    key: str
+    name: str
+    rules: tuple[LimitRuleSpec, ...]
+
+    def __post_init__(self):
+        object.__setattr__(self, "rules", tuple(self.rules))
+        seen = [(r.category, r.series, r.period) for r in self.rules]
+        if len(seen) != len(set(seen)):
+            raise ValueError(f"limit set {self.key!r} has two rules for one row")
+
+
+ADULT = WorkerCategory.ADULT_WORKER
+TRAINEE = WorkerCategory.TRAINEE
+PREGNANT = WorkerCategory.DECLARED_PREGNANT
+PUBLIC = WorkerCategory.PUBLIC
+EFFECTIVE, SKIN, LENS, FETUS = Series.EFFECTIVE, Series.SKIN, Series.LENS, Series.FETUS
+# The extremity limit applies to each hand; the worst hand carries it too so its row shows a limit.
+HANDS = (Series.LEFT_HAND, Series.RIGHT_HAND, Series.WORST_HAND)
+YEAR, BLOCK, ROLLING_5, PREGNANCY = (
+    PeriodKind.YEAR,
+    PeriodKind.FIVE_YEAR_BLOCK,
+    PeriodKind.ROLLING_FIVE_YEARS,
+    PeriodKind.PREGNANCY,
+)
+
+# Common practice, not a published limit: a university programme's quarterly Hp(10) levels,
+# the old US quarterly figures (125 / 375 mrem).
+COMMON_PRACTICE_QUARTERLY_MSV = (1.25, 3.75)
+LEVEL_CLAUSE = (
+    "common practice (not a published limit): 1.25 / 3.75 mSv Hp(10) per quarter, scaled by "
+    "this series' annual limit over the set's Hp(10) annual limit"
+)
+
+
+def _limit(category, series, period, limit_msv, clause) -> tuple[LimitRuleSpec, ...]:
+    """One rule, or one per hand series when `series` is HANDS."""
+    return tuple(
+        LimitRuleSpec(category, s, period, limit_msv, clause=clause)
+        for s in (series if isinstance(series, tuple) else (series,))
+    )
+
+
+def _with_levels(rules: tuple[LimitRuleSpec, ...], hp10_annual_msv: float) -> tuple[LimitRuleSpec, ...]:
+    """The rules plus quarterly common-practice levels for every worker and trainee annual limit."""
+
+    def scaled(level_msv: float, rule: LimitRuleSpec) -> InvestigationLevel:
+        # Multiplying before dividing keeps the scaled values exact in binary.
+        return InvestigationLevel(LevelKind.ABSOLUTE, level_msv * rule.limit_msv / hp10_annual_msv)
+
+    level1, level2 = COMMON_PRACTICE_QUARTERLY_MSV
+    levels = tuple(
+        LimitRuleSpec(
+            rule.category,
+            rule.series,
+            PeriodKind.QUARTER,
+            None,
+            level1=scaled(level1, rule),
+            level2=scaled(level2, rule),
+            clause=LEVEL_CLAUSE,
+        )
+        for rule in rules
+        if rule.period is YEAR and rule.category in (ADULT, TRAINEE)
+    )
+    return rules + levels
+
+
+def _icrp103() -> LimitSetSpec:
+    """ICRP Publication 103 Table 6 with the ICRP 2011 lens statement."""
+    table6 = "ICRP Publication 103, Table 6"
+    lens = "ICRP Publication 118, statement on tissue reactions (2011)"
+    fetus = "ICRP Publication 103, para 186 (embryo/fetus, remainder of pregnancy: 'about 1 mSv')"
+    rules = (
+        _limit(ADULT, EFFECTIVE, BLOCK, 100, f"{table6} (5 defined years)")
+        + _limit(ADULT, EFFECTIVE, YEAR, 50, f"{table6} (any single year)")
+        + _limit(ADULT, LENS, BLOCK, 100, f"{lens} (5 defined years)")
+        + _limit(ADULT, LENS, YEAR, 50, f"{lens} (any single year)")
+        + _limit(ADULT, SKIN, YEAR, 500, f"{table6} (skin, averaged over 1 cm2)")
+        + _limit(ADULT, HANDS, YEAR, 500, f"{table6} (hands and feet)")
+        + _limit(PREGNANT, FETUS, PREGNANCY, 1, fetus)
+        + _limit(PUBLIC, EFFECTIVE, YEAR, 1, f"{table6} (public)")
+        + _limit(PUBLIC, LENS, YEAR, 15, f"{table6} (public)")
+        + _limit(PUBLIC, SKIN, YEAR, 50, f"{table6} (public)")
+    )
+    name = "ICRP 103 (2007) with the ICRP 2011 lens statement"
+    return LimitSetSpec("icrp103", name, _with_levels(rules, 50))
+
+
+def _euratom2013() -> LimitSetSpec:
+    """Council Directive 2013/59/Euratom Art. 9 to 12."""
+    d = "2013/59/Euratom"
+    students = f"{d} Art. 11(2) (apprentices/students 16-18)"
+    five_years = "any 5 consecutive years"
+    # The 5-year rules are the ceilings of the Directive's alternatives (up to 50 in one year where
+    # national law allows). With 20/year in force they never trip first; a lab under the
+    # alternative edits the year rule to 50 and keeps them.
+    rules = (
+        _limit(ADULT, EFFECTIVE, YEAR, 20, f"{d} Art. 9(2)")
+        + _limit(ADULT, EFFECTIVE, ROLLING_5, 100, f"{d} Art. 9(2) (average 20 over {five_years})")
+        + _limit(ADULT, LENS, YEAR, 20, f"{d} Art. 9(3)(a)")
+        + _limit(ADULT, LENS, ROLLING_5, 100, f"{d} Art. 9(3)(a) (100 in {five_years}, 50 in one)")
+        + _limit(ADULT, SKIN, YEAR, 500, f"{d} Art. 9(3)(b) (averaged over 1 cm2)")
+        + _limit(ADULT, HANDS, YEAR, 500, f"{d} Art. 9(3)(c) (extremities)")
+        + _limit(PREGNANT, FETUS, PREGNANCY, 1, f"{d} Art. 10(1) (unborn child)")
+        + _limit(TRAINEE, EFFECTIVE, YEAR, 6, students)
+        + _limit(TRAINEE, LENS, YEAR, 15, students)
+        + _limit(TRAINEE, SKIN, YEAR, 150, students)
+        + _limit(TRAINEE, HANDS, YEAR, 150, students)
+        + _limit(PUBLIC, EFFECTIVE, YEAR, 1, f"{d} Art. 12")
+        + _limit(PUBLIC, LENS, YEAR, 15, f"{d} Art. 12")
+        + _limit(PUBLIC, SKIN, YEAR, 50, f"{d} Art. 12")
+    )
+    return LimitSetSpec("euratom2013", "Council Directive 2013/59/Euratom", _with_levels(rules, 20))
+
+
+def _cfr10_20() -> LimitSetSpec:
+    """US 10 CFR 20.1201, 20.1207, 20.1208, 20.1301."""
+    cfr = "10 CFR"
+    minors = f"{cfr} 20.1207 (minors: 10 % of the adult limits)"
+    shallow = f"{cfr} 20.1201(a)(2)(ii) (shallow-dose equivalent"
+    # 20.1208(a) covers the entire pregnancy; the window here starts at the declaration, so dose
+    # before it is not counted, and 20.1208(d)'s extra 0.5 mSv is left to the safety officer.
+    rules = (
+        _limit(ADULT, EFFECTIVE, YEAR, 50, f"{cfr} 20.1201(a)(1)(i), (c) (deep-dose equivalent)")
+        + _limit(ADULT, LENS, YEAR, 150, f"{cfr} 20.1201(a)(2)(i) (lens dose equivalent)")
+        + _limit(ADULT, SKIN, YEAR, 500, f"{shallow}, skin)")
+        + _limit(ADULT, HANDS, YEAR, 500, f"{shallow}, any extremity)")
+        + _limit(TRAINEE, EFFECTIVE, YEAR, 5, minors)
+        + _limit(TRAINEE, LENS, YEAR, 15, minors)
+        + _limit(TRAINEE, SKIN, YEAR, 50, minors)
+        + _limit(TRAINEE, HANDS, YEAR, 50, minors)
+        + _limit(PREGNANT, FETUS, PREGNANCY, 5, f"{cfr} 20.1208(a) (embryo/fetus, whole pregnancy)")
+        + _limit(PUBLIC, EFFECTIVE, YEAR, 1, f"{cfr} 20.1301(a)(1)")
+    )
+    return LimitSetSpec("cfr10_20", "US 10 CFR Part 20", _with_levels(rules, 50))
+
+
+def _irr17() -> LimitSetSpec:
+    """UK Ionising Radiations Regulations 2017, Schedule 3."""
+    sched = "IRR17 Schedule 3"
+    memory = "from memory; not in REFERENCE.md"
+    employees = f"{sched} (employees 18+, calendar year)"
+    trainees = f"{sched} (trainees 16-18)"
+    others = f"{sched} (other persons; {memory})"
+    rules = (
+        _limit(ADULT, EFFECTIVE, YEAR, 20, employees)
+        + _limit(ADULT, LENS, YEAR, 20, employees)
+        + _limit(ADULT, SKIN, YEAR, 500, f"{sched} (employees 18+, skin; {memory})")
+        + _limit(ADULT, HANDS, YEAR, 500, f"{sched} (employees 18+, extremities; {memory})")
+        + _limit(TRAINEE, EFFECTIVE, YEAR, 6, trainees)
+        + _limit(TRAINEE, LENS, YEAR, 15, trainees)
+        + _limit(TRAINEE, SKIN, YEAR, 150, trainees)
+        + _limit(TRAINEE, HANDS, YEAR, 150, trainees)
+        + _limit(PREGNANT, FETUS, PREGNANCY, 1, f"IRR17 reg. 9(6) (foetus; {memory})")
+        + _limit(PUBLIC, EFFECTIVE, YEAR, 1, others)
+        + _limit(PUBLIC, LENS, YEAR, 15, others)
+        + _limit(PUBLIC, SKIN, YEAR, 50, others)
+    )
+    return LimitSetSpec("irr17", "UK IRR17 Schedule 3", _with_levels(rules, 20))
+
+
+PRESETS: tuple[LimitSetSpec, ...] = (_icrp103(), _euratom2013(), _cfr10_20(), _irr17())
+
+
+def preset(key: str) -> LimitSetSpec:
+    """The shipped limit set with this key; KeyError names the known keys."""
+    for limit_set in PRESETS:
+        if limit_set.key == key:
+            return limit_set
+    raise KeyError(f"no preset {key!r}; known: {[s.key for s in PRESETS]}")

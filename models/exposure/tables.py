@@ -1,0 +1,105 @@
+"""Dosimeters, dose records with their versions, pregnancy declarations and investigations."""
+from __future__ import annotations
+
+from datetime import date, datetime
+
+import sqlalchemy as sa
+from sqlalchemy.orm import Mapped, mapped_column, relationship
+
+from models.core.base import Base, IdMixin, enum_column, utcnow
+from models.core.codes import Level, LevelKind, Location, PeriodKind, Quantity, Series, WorkerCategory
+from models.people.tables import Person
+
+
+class PregnancyDeclaration(IdMixin, Base):
+    """A declared pregnancy; seen only by the person and the safety officer."""
+
+    __tablename__ = "pregnancy_declaration"
+
+    person_id: Mapped[int] = mapped_column(sa.ForeignKey("person.id"), index=True)
+    declared_on: Mapped[date]
+    ended_on: Mapped[date | None]
+    end_reason: Mapped[str | None] = mapped_column(sa.String(32))
+    recorded_by_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))
+    created_at: Mapped[datetime] = mapped_column(default=utcnow)
+
+    person: Mapped[Person] = relationship(foreign_keys=[person_id])
+
+    __table_args__ = (
+        sa.CheckConstraint("ended_on IS NULL OR ended_on >= declared_on", name="end_after_declaration"),
+    )
+
+
+class Investigation(IdMixin, Base):
+    """The safety officer's review of a dose that crossed an investigation level."""
+
+    __tablename__ = "investigation"
+
+    person_id: Mapped[int] = mapped_column(sa.ForeignKey("person.id"), index=True)
+    # Which row crossed: the lens and the skin can read the same Hp(0.07) whole-body records.
+    series: Mapped[Series] = mapped_column(enum_column(Series))
+    quantity: Mapped[Quantity] = mapped_column(enum_column(Quantity))
+    location: Mapped[Location] = mapped_column(enum_column(Location))
+    period: Mapped[PeriodKind] = mapped_column(enum_column(PeriodKind))
+    period_start: Mapped[date]
+    level: Mapped[Level] = mapped_column(enum_column(Level))
+    dose_msv: Mapped[float]
+    raised_at: Mapped[datetime] = mapped_column(default=utcnow)
+    questions: Mapped[str | None] = mapped_column(sa.Text)
+    findings: Mapped[str | None] = mapped_column(sa.Text)
+    actions: Mapped[str | None] = mapped_column(sa.Text)
+    signed_off_by_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))
+    signed_off_at: Mapped[datetime | None]
+
+    person: Mapped[Person] = relationship(foreign_keys=[person_id])
+
+    __table_args__ = (
+        sa.UniqueConstraint(
+            "person_id", "series", "quantity", "location", "period", "period_start", "level",
+            name="uq_investigation_crossing",
+        ),
+    )
+
+
+
+
+
+
+class LimitSet(IdMixin, Base):
+    """A named set of dose limit rules, shipped as a preset or copied and edited."""
+
+    __tablename__ = "limit_set"
+
+    name: Mapped[str] = mapped_column(sa.String(120), unique=True)
+    preset_key: Mapped[str | None] = mapped_column(sa.String(32))
+    description: Mapped[str] = mapped_column(sa.Text, default="")
+    created_at: Mapped[datetime] = mapped_column(default=utcnow)
+
+    rules: Mapped[list[LimitRule]] = relationship(
+        back_populates="limit_set", cascade="all, delete-orphan", order_by="LimitRule.id"
+    )
+
+
+class LimitRule(IdMixin, Base):
+    """One limit for one worker category, dose series and period, with its source clause."""
+
+    __tablename__ = "limit_rule"
+
+    limit_set_id: Mapped[int] = mapped_column(sa.ForeignKey("limit_set.id"), index=True)
+    category: Mapped[WorkerCategory] = mapped_column(enum_column(WorkerCategory))
+    series: Mapped[Series] = mapped_column(enum_column(Series))
+    period: Mapped[PeriodKind] = mapped_column(enum_column(PeriodKind))
+    limit_msv: Mapped[float | None]
+    level1_kind: Mapped[LevelKind | None] = mapped_column(enum_column(LevelKind, "level1_kind"))
+    level1_value: Mapped[float | None]
+    level2_kind: Mapped[LevelKind | None] = mapped_column(enum_column(LevelKind, "level2_kind"))
+    level2_value: Mapped[float | None]
+    clause: Mapped[str] = mapped_column(sa.String(300), default="")
+
+    limit_set: Mapped[LimitSet] = relationship(back_populates="rules")
+
+    __table_args__ = (
+        sa.CheckConstraint("limit_msv IS NULL OR limit_msv > 0", name="limit_positive"),
+        sa.CheckConstraint("level1_value IS NULL OR level1_value > 0", name="level1_positive"),
+        sa.CheckConstraint("level2_value IS NULL OR level2_value > 0", name="level2_positive"),
+    )

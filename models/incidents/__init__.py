@@ -1,0 +1,1 @@
+"""Incidents area of the domain."""

@@ -1,0 +1,1 @@
+"""Instruments area of the domain."""

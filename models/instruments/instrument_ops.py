@@ -1,0 +1,109 @@
+"""Instruments, their checklist templates, authorisations and API tokens."""
+from __future__ import annotations
+
+from datetime import date
+
+import sqlalchemy as sa
+from sqlalchemy.orm import Session
+
+from models.core.base import copy_fields, taken, utcnow
+from models.core.errors import Invalid
+from models.instruments.tables import Authorisation, Instrument
+from models.people.tables import Person
+
+ELEMENT_SYMBOLS = frozenset(
+    "H He Li Be B C N O F Ne Na Mg Al Si P S Cl Ar K Ca Sc Ti V Cr Mn Fe Co Ni Cu Zn Ga Ge As Se "
+    "Br Kr Rb Sr Y Zr Nb Mo Tc Ru Rh Pd Ag Cd In Sn Sb Te I Xe Cs Ba La Ce Pr Nd Pm Sm Eu Gd Tb "
+    "Dy Ho Er Tm Yb Lu Hf Ta W Re Os Ir Pt Au Hg Tl Pb Bi".split()
+)
+
+INSTRUMENT_FIELDS = (
+    "name", "kind", "room", "registration_number", "anode", "max_kv", "max_ma", "max_power_w",
+    "enclosure", "check_interval_days", "survey_interval_days", "surface_action_level_usv_h",
+    "housing_action_level_usv_h",
+)
+
+
+def validate_instrument(session: Session, values: dict, current: Instrument | None = None) -> None:
+    """Refuse, by field, every rule an instrument's description breaks."""
+    errors = {}
+    name = (values.get("name") or "").strip()
+    if not name:
+        errors["name"] = "Enter the instrument's name."
+    elif taken(session, Instrument.name, name, current):
+        errors["name"] = f"An instrument called '{name}' already exists."
+    if values.get("anode") not in ELEMENT_SYMBOLS:
+        errors["anode"] = "Give the anode as an element symbol, e.g. Cu or Mo."
+    for key, label in (("max_kv", "Maximum tube voltage"), ("max_ma", "Maximum tube current"),
+                       ("max_power_w", "Maximum power"),
+                       ("surface_action_level_usv_h", "Surface action level"),
+                       ("housing_action_level_usv_h", "Housing action level")):
+        value = values.get(key)
+        if value is None or not value > 0:  # also refuses NaN
+            errors[key] = f"{label} must be greater than zero."
+    for key in ("check_interval_days", "survey_interval_days"):
+        value = values.get(key)
+        if value is None or value < 1:
+            errors[key] = "The interval must be at least one day."
+    if errors:
+        raise Invalid(errors)
+
+
+def save_instrument(session: Session, values: dict, instrument: Instrument | None = None) -> Instrument:
+    """Create an instrument or change its description; bad values are refused by field."""
+    validate_instrument(session, values, instrument)
+    instrument = instrument or Instrument()
+    copy_fields(instrument, values, INSTRUMENT_FIELDS)
+    session.add(instrument)
+    session.flush()
+    return instrument
+
+
+def retire_instrument(session: Session, instrument: Instrument) -> Instrument:
+    """Take an instrument off the active list for good; its records stay."""
+    instrument.retired_at = utcnow()
+    set_out_of_service(session, instrument, "Retired")
+    return instrument
+
+
+def set_out_of_service(
+    session: Session, instrument: Instrument, reason: str, cause: str | None = None
+) -> Instrument:
+    """Stop new use of an instrument, saying why; `cause` marks a hold the logbook itself set."""
+    if not reason.strip():
+        raise Invalid.one("reason", "Say why the instrument is out of service.")
+    instrument.in_service = False
+    instrument.out_of_service_reason = reason.strip()
+    instrument.out_of_service_since = utcnow()
+    instrument.out_of_service_cause = cause
+    session.flush()
+    return instrument
+
+
+def return_to_service(session: Session, instrument: Instrument) -> Instrument:
+    """Allow use again after the cause was dealt with."""
+    if instrument.retired:
+        raise Invalid.one("instrument", "A retired instrument cannot return to service.")
+    instrument.in_service = True
+    instrument.out_of_service_reason = None
+    instrument.out_of_service_since = None
+    instrument.out_of_service_cause = None
+    session.flush()
+    return instrument
+
+
+def active_instruments(session: Session) -> list[Instrument]:
+    """Instruments not retired, by name."""
+    return list(session.scalars(
+        sa.select(Instrument).where(Instrument.retired_at.is_(None)).order_by(Instrument.name)
+    ))
+
+
+def current_authorisations(session: Session, person: Person, today: date) -> list[Authorisation]:
+    """A person's authorisations that are not revoked and not past their refresher date."""
+    return list(session.scalars(
+        sa.select(Authorisation)
+        .where(Authorisation.person_id == person.id, Authorisation.revoked_at.is_(None),
+               Authorisation.refresher_due >= today)
+        .order_by(Authorisation.instrument_id)
+    ))

@@ -1,0 +1,1 @@
+"""People area of the domain."""

@@ -1,0 +1,1 @@
+"""Sessions area of the domain."""

@@ -1,0 +1,62 @@
+"""Instrument sessions: who ran which tube, when and at what settings."""
+from __future__ import annotations
+
+import enum
+from datetime import datetime
+
+import sqlalchemy as sa
+from sqlalchemy.orm import Mapped, mapped_column, relationship
+
+from models.core.base import Base, IdMixin, enum_column, utcnow
+from models.instruments.tables import Instrument
+from models.people.tables import Person
+
+
+class EntrySource(enum.StrEnum):
+    """Where a session entry came from."""
+
+    FORM = "form"
+    API = "api"
+    IMPORT = "import"
+
+
+class InstrumentSession(IdMixin, Base):
+    """One period of use of an instrument by one operator."""
+
+    __tablename__ = "instrument_session"
+
+    instrument_id: Mapped[int] = mapped_column(sa.ForeignKey("instrument.id"), index=True)
+    operator_id: Mapped[int] = mapped_column(sa.ForeignKey("person.id"), index=True)
+    started_at: Mapped[datetime]
+    ended_at: Mapped[datetime | None]
+    kv: Mapped[float]
+    ma: Mapped[float]
+    beam_on_minutes: Mapped[float | None]
+    purpose: Mapped[str] = mapped_column(sa.String(300), default="")
+    configuration_changed: Mapped[bool] = mapped_column(default=False)
+    configuration_change: Mapped[str | None] = mapped_column(sa.Text)
+    alignment: Mapped[bool] = mapped_column(default=False)
+    pre_use_checks_confirmed: Mapped[bool] = mapped_column(default=False)
+    dosimeter_worn: Mapped[bool] = mapped_column(default=False)
+    dosimeter_id: Mapped[int | None] = mapped_column(sa.ForeignKey("dosimeter.id"))
+    bypass_permit_id: Mapped[int | None] = mapped_column(sa.ForeignKey("bypass_permit.id"))
+    notes: Mapped[str | None] = mapped_column(sa.Text)
+    source: Mapped[EntrySource] = mapped_column(enum_column(EntrySource), default=EntrySource.FORM)
+    created_at: Mapped[datetime] = mapped_column(default=utcnow)
+
+    instrument: Mapped[Instrument] = relationship()
+    operator: Mapped[Person] = relationship()
+
+    __table_args__ = (
+        sa.CheckConstraint("kv > 0", name="kv_positive"),
+        sa.CheckConstraint("ma > 0", name="ma_positive"),
+        sa.CheckConstraint("ended_at IS NULL OR ended_at >= started_at", name="end_after_start"),
+        sa.CheckConstraint(
+            "beam_on_minutes IS NULL OR beam_on_minutes >= 0", name="beam_on_not_negative"
+        ),
+    )
+
+    @property
+    def is_open(self) -> bool:
+        """An open session has not been ended yet."""
+        return self.ended_at is None

@@ -1,0 +1,1 @@
+"""Surveys area of the domain."""
