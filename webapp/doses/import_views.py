@@ -22,12 +22,14 @@ from models.doses.import_ops import (
     validate_report,
 )
 from models.doses.tables import DoseRecord, ImportBatch, ImportMapping
+from models.exposure.investigation_ops import review_after_dose_change
 from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.doses import bp
 from webapp.doses.forms import MappingForm, UploadForm
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
+from webapp.formatting import lab_today
 from webapp.forms import attach_errors
 
 NEW_MAPPING = "new"
@@ -147,8 +149,9 @@ def import_commit(sha: str):
     if batch is None:
         flash(f"This file was already imported (batch #{preview.earlier.id}); nothing was added.", "warning")
         return redirect(url_for("doses.import_batch", batch_id=preview.earlier.id))
+    raised = review_after_dose_change(db.session, lab_today())
     db.session.commit()
-    review_dose_levels()
+    tell_about(raised)
     os.remove(_upload_path(sha))
     flash(f"Imported {batch.row_count} dose records as batch #{batch.id}.", "info")
     return redirect(url_for("doses.import_batch", batch_id=batch.id))

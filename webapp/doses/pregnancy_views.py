@@ -5,6 +5,7 @@ from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 
 from models.core.errors import Invalid
+from models.exposure.investigation_ops import review_after_dose_change
 from models.exposure.pregnancy_ops import (
     END_REASONS,
     ENDED,
@@ -20,7 +21,7 @@ from webapp.access import roles_required
 from webapp.doses import bp
 from webapp.doses.forms import DeclareForm, EndForm
 from webapp.doses.views import DOSE_ROLES, person_or_403
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today
 from webapp.forms import attach_errors
@@ -102,8 +103,9 @@ def pregnancy_change(person_id: int, action: str):
         db.session.rollback()
         attach_errors(form, error)
         return _page(person_id, declare_form, end_form, 400)
+    raised = review_after_dose_change(db.session, lab_today())
     db.session.commit()
-    review_dose_levels()
+    tell_about(raised)
     if action == "declare" and current_user.id == person_id:
         tell_safety_officer("A declaration needs your review",
                             f"{subject.name} recorded a pregnancy declaration dated "

@@ -11,12 +11,13 @@ from models.doses.record_ops import add_dose_record, amend_dose_record, entry_of
 from models.doses.tables import DoseRecord, Dosimeter
 from models.doses.version_ops import chains, history, is_current
 from models.exposure.cache import UntilChanged
+from models.exposure.investigation_ops import review_after_dose_change
 from models.exposure.pregnancy_ops import declarations_of
 from models.people.tables import Person, Role
 from webapp.access import can_see_dose_of, roles_required
 from webapp.doses import bp
 from webapp.doses.forms import LOCATION_LABELS, RESULT_LABELS, SOURCE_LABELS, AmendForm, DoseForm
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today
 from webapp.forms import validate_with
@@ -108,8 +109,9 @@ def new():
         form.person.data = request.args.get("person", type=int)
     if validate_with(form, lambda f: f.entry() and validate_entry(db.session, f.entry())):
         added = add_dose_record(db.session, form.entry(), created_by_id=current_user.id)
+        raised = review_after_dose_change(db.session, lab_today())
         db.session.commit()
-        review_dose_levels()
+        tell_about(raised)
         flash("Dose record saved.", "info")
         return redirect(url_for("doses.record", record_id=added.id))
     return render_template("doses/record_form.html", form=form, original=None)
@@ -139,8 +141,9 @@ def amend(record_id: int):
                                                                     f.reason.data)):
         version = amend_dose_record(db.session, original, entry(form), form.reason.data,
                                     created_by_id=current_user.id)
+        raised = review_after_dose_change(db.session, lab_today())
         db.session.commit()
-        review_dose_levels()
+        tell_about(raised)
         flash(f"Saved as version {version.version}; version {original.version} stays on file.", "info")
         return redirect(url_for("doses.record", record_id=version.id))
     return render_template("doses/record_form.html", form=form, original=original)
