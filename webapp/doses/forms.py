@@ -38,14 +38,6 @@ def worn_to_kind(worn: str) -> tuple[DosimeterKind, Hand | None]:
     return DosimeterKind(worn), None
 
 
-def _member(cls, value):
-    """The enum member for a submitted value, or None when it is not one."""
-    try:
-        return cls(value)
-    except ValueError:
-        return None
-
-
 class DoseForm(FlaskForm):
     """One dose result."""
 
@@ -68,18 +60,13 @@ class DoseForm(FlaskForm):
     basis = TextAreaField("Basis of the estimate", validators=[Length(max=4000)],
                           description="For an estimate: how the dose was worked out.")
 
-    def entry(self, person_id: int | None = None) -> DoseEntry | None:
-        """The entry the form describes (for `person_id` when given), or None on an unknown code."""
-        members = [_member(cls, f.data) for cls, f in (
-            (Quantity, self.quantity), (Location, self.location), (Result, self.result),
-            (DoseSource, self.source))]
-        if None in members:
-            return None
-        quantity, location, result, source = members
+    def entry(self, person_id: int | None = None) -> DoseEntry:
+        """The entry the form describes (for `person_id` when given); the fields must have passed."""
         return DoseEntry(person_id=person_id or self.person.data, dosimeter_id=self.dosimeter.data,
                          wear_start=self.wear_start.data, wear_end=self.wear_end.data,
-                         quantity=quantity, location=location, result=result, value=self.value.data,
-                         unit=self.unit.data, mrd=self.mrd.data, source=source, basis=self.basis.data)
+                         quantity=Quantity(self.quantity.data), location=Location(self.location.data),
+                         result=Result(self.result.data), value=self.value.data, unit=self.unit.data,
+                         mrd=self.mrd.data, source=DoseSource(self.source.data), basis=self.basis.data)
 
 
 class AmendForm(DoseForm):

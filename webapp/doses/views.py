@@ -107,7 +107,7 @@ def new():
     form.dosimeter.choices = _dosimeter_choices()
     if not form.is_submitted():
         form.person.data = request.args.get("person", type=int)
-    if validate_with(form, lambda f: f.entry() and validate_entry(db.session, f.entry())):
+    if validate_with(form, lambda f: validate_entry(db.session, f.entry())):
         added = add_dose_record(db.session, form.entry(), created_by_id=current_user.id)
         raised = review_after_dose_change(db.session, lab_today())
         db.session.commit()
@@ -137,8 +137,7 @@ def amend(record_id: int):
             getattr(form, name).data = getattr(entry, name).value
         form.dosimeter.data = entry.dosimeter_id
     entry = lambda f: f.entry(person_id=original.person_id)  # noqa: E731
-    if validate_with(form, lambda f: entry(f) and validate_amendment(db.session, original, entry(f),
-                                                                    f.reason.data)):
+    if validate_with(form, lambda f: validate_amendment(db.session, original, entry(f), f.reason.data)):
         version = amend_dose_record(db.session, original, entry(form), form.reason.data,
                                     created_by_id=current_user.id)
         raised = review_after_dose_change(db.session, lab_today())

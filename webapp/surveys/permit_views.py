@@ -25,7 +25,7 @@ from models.surveys.tables import BypassPermit
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, local
-from webapp.forms import attach_errors, validate_with
+from webapp.forms import error_text, validate_with
 from webapp.mail import send_mail, tell_safety_officer
 from webapp.surveys import bp
 from webapp.surveys.forms import DecisionForm, PermitForm, utc
@@ -119,13 +119,8 @@ def _decide(permit_id: int, approve: bool):
     """Record the decision and tell the requester."""
     permit = db.session.get(BypassPermit, permit_id) or abort(404)
     form = DecisionForm()
-    if not form.validate_on_submit():
-        return _show(permit, form)
-    try:
-        decide(db.session, permit, current_user._get_current_object(), approve, form.note.data)
-    except Invalid as error:
-        db.session.rollback()
-        attach_errors(form, error)
+    if not validate_with(form, lambda f: decide(db.session, permit, current_user._get_current_object(),
+                                                approve, f.note.data)):
         return _show(permit, form)
     db.session.commit()
     word = "approved" if approve else "refused"
@@ -145,13 +140,8 @@ def close(permit_id: int):
     if not may_close(permit, current_user):
         abort(403)
     form = DecisionForm()
-    if not form.validate_on_submit():
-        return _show(permit, form)
-    try:
-        close_permit(db.session, permit, current_user._get_current_object())
-    except Invalid as error:
-        db.session.rollback()
-        flash(" ".join(error.errors.values()), "error")
+    if not validate_with(form, lambda f: close_permit(db.session, permit, current_user._get_current_object())):
+        flash(error_text(form), "error")
         return redirect(url_for("surveys.permit", permit_id=permit.id))
     db.session.commit()
     flash("Permit closed. Restore every bypassed device and remove the sign; a survey of the "
