@@ -57,9 +57,7 @@ def install(app: Flask) -> None:
 
     @app.context_processor
     def _globals() -> dict:
-        from webapp.slots import navigation
-
-        return {"navigation": navigation, "CAUTION": CAUTION, "lab_today": lab_today, "lab_zone_name": lambda: settings().timezone}
+        return {"CAUTION": CAUTION, "lab_today": lab_today, "lab_zone_name": lambda: settings().timezone}
 
 
 def from_local(naive: datetime | None) -> datetime | None:

@@ -11,7 +11,7 @@ from models.exposure import lab_ops
 from models.exposure.cache import UntilChanged
 from models.exposure.tables import Investigation
 from models.people.tables import Role
-from webapp.slots import Attention, Severity, attention
+from webapp.slots import Attention, Registration, Severity, attention
 
 ON = date(2026, 11, 15)  # day 46 of the 92-day fourth quarter: half of it has gone
 OCTOBER = {"wear_start": date(2026, 10, 1), "wear_end": date(2026, 10, 31)}
@@ -211,7 +211,8 @@ def test_the_attention_list_puts_doses_first_in_order_of_severity(
                               dose_msv=1.3))
     session.commit()
     other = Attention(Severity.OUT_OF_SERVICE, "Name instrument out of service", "/x", "")
-    monkeypatch.setattr(attention, "sources", [lambda: [other], *attention.sources])
+    monkeypatch.setattr(attention, "entries", [*attention.entries,
+                                               Registration(0, frozenset(), "test", lambda: [other])])
     page = login(make_person("rso", roles=(Role.SAFETY_OFFICER,))).get("/")
     html = page.get_data(as_text=True)
     order = ["Name limit", "Name two", "Name one", "Name projected", "Investigation open: Name old",

@@ -46,12 +46,15 @@ from webapp.extensions import db
 from webapp.formatting import local
 from webapp.forms import error_text, validate_with
 from webapp.mail import tell_safety_officer
-from webapp.slots import Attention, Severity, attention, instrument_sections, settings_sections
+from webapp.slots import Attention, Severity, attention, instrument_sections, request_hooks, settings_sections
 
 
-@bp.before_app_request
+@request_hooks.add(order=10)
 def _lapse_controls() -> None:
-    """Apply expired temporary controls before anything reads an instrument's status."""
+    """Apply expired temporary controls before anything reads an instrument's status.
+
+    Ordered before the hook that names the actor, so the lapse is recorded as the system's doing.
+    """
     held = lapse_expired_controls(db.session, utcnow())
     if held:
         db.session.commit()
@@ -245,7 +248,7 @@ def end(control_id: int):
     return redirect(url_for("instruments.show", instrument_id=control_row.instrument_id))
 
 
-@instrument_sections.add("checks/_section.html", order=20)
+@instrument_sections.add("checks/_section.html", order=25)
 def _section(instrument: Instrument) -> dict:
     """Next check due and its state, temporary controls, and the check history."""
     now = utcnow()
@@ -267,7 +270,7 @@ def _settings(_lab) -> dict:
     return {"instruments": active_instruments(db.session)}
 
 
-@attention.add
+@attention.add(order=20)
 def _attention() -> list[Attention]:
     """Instruments out of service, held by a failed check, or running under temporary controls."""
     now = utcnow()

@@ -148,7 +148,7 @@ def amend(record_id: int):
     return render_template("doses/record_form.html", form=form, original=original)
 
 
-@attention.add
+@attention.add(order=50)
 def _not_returned() -> list[Attention]:
     """Dosimeters whose result never came, for the safety officer's list (kept until records change)."""
     return _not_returned_lines.get(db.session, lab_today(), _not_returned_now)

@@ -28,7 +28,7 @@ from webapp.slots import settings_sections
 RSO = Role.SAFETY_OFFICER
 
 
-@settings_sections.add("exposure/limits_settings_section.html", roles={RSO}, order=20)
+@settings_sections.add("exposure/limits_settings_section.html", roles={RSO}, order=25)
 def settings_section(lab) -> dict:
     """The set in force and the counting policies, with a link to change them."""
     return {"lab": lab, "labels": labels}

@@ -71,7 +71,7 @@ def investigation(investigation_id: int):
                            person_url=url_for("exposure.person", person_id=item.person_id))
 
 
-@attention.add
+@attention.add(order=60)
 def dose_levels() -> list[Attention]:
     """People at a level or a limit, or projected to cross one, from the cached evaluation."""
     lab = cached_lab_evaluation(db.session, lab_today())
@@ -132,7 +132,7 @@ def _row_text(lab, p: int, s: int, t: int) -> str:
     return f"{_row_label(lab, p, s, t)}: {dose(float(lab.totals.dose[p, s, t]))}"
 
 
-@attention.add
+@attention.add(order=61)
 def investigations_open() -> list[Attention]:
     """Investigations waiting for the safety officer's review and sign-off."""
     return [

@@ -48,7 +48,7 @@ def _people() -> list[Person]:
                               .order_by(Person.name)).all()
 
 
-@attention.add
+@attention.add(order=10)
 def _open_incidents() -> list[Attention]:
     """Open incidents; a suspected exposure ranks at the top (see the module's README notes)."""
     lines = []
