@@ -10,6 +10,7 @@ from wtforms import SelectMultipleField, widgets
 
 from models.core.errors import Invalid
 from webapp.extensions import db
+from webapp.formatting import capfirst
 
 T = TypeVar("T")
 
@@ -67,4 +68,4 @@ def error_text(form: FlaskForm) -> str:
 def choices(enum_cls, labels: dict | None = None) -> list[tuple[str, str]]:
     """Select choices from an enum, with readable labels."""
     labels = labels or {}
-    return [(m.value, labels.get(m, m.value.replace("_", " ").capitalize())) for m in enum_cls]
+    return [(m.value, capfirst(labels.get(m, m.value.replace("_", " ")))) for m in enum_cls]

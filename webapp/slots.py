@@ -1,6 +1,6 @@
 """Places where each area adds to shared pages and to every request, so shared code knows no area.
 
-Every registration gives an order, unique within its slot: `check_orders` (run when the app is
+Every registration gives an order, unique within its slot: `validate_orders` (run when the app is
 built) refuses two registrations with the same order and names both, so the place of a section
 never depends on which module happened to be imported first.
 """
@@ -103,7 +103,7 @@ class Registry:
         """The registrations this viewer may see, by order."""
         return [entry for entry in self.in_order() if entry.visible_to(viewer)]
 
-    def check_orders(self) -> None:
+    def validate_orders(self) -> None:
         """Refuse two registrations with the same order, naming both."""
         seen: dict[int, Registration] = {}
         for entry in self.entries:
@@ -251,15 +251,15 @@ navigation.add("Settings", "settings.index", {Role.SAFETY_OFFICER, Role.ADMIN}, 
 navigation.add("Audit log", "audit.index", {Role.SAFETY_OFFICER, Role.ADMIN}, order=95)
 
 
-def check_orders() -> None:
+def validate_orders() -> None:
     """Refuse the set-up when any slot has two registrations with one order."""
     for slot in ALL_SLOTS:
-        slot.check_orders()
+        slot.validate_orders()
 
 
 def install(app: Flask) -> None:
     """Check the orders, run the request hooks before each request, give shared templates the slots."""
-    check_orders()
+    validate_orders()
     app.before_request(request_hooks.run)
 
     @app.context_processor

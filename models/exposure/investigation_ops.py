@@ -124,7 +124,7 @@ def raise_investigations(session: Session, lab: LabEvaluation) -> list[Investiga
 
 
 def _row_of(investigation: Investigation) -> str:
-    """'Hp(10) whole body, quarter' for an investigation."""
+    """'Hp(10) whole body, calendar quarter' for an investigation."""
     return dose_row_label(investigation.series, investigation.quantity, investigation.location,
                           investigation.period)
 

@@ -94,7 +94,7 @@ def test_a_lens_assessed_from_the_body_badge_is_raised_as_the_lens(
     assert (item.series, item.quantity, item.location, item.level) == (
         "lens", "Hp(0.07)", "whole_body", "level_1")
     assert investigation_label(item) == (
-        "lens from Hp(0.07) whole body, quarter from 2026-10-01, level I")
+        "lens from Hp(0.07) whole body, calendar quarter from 2026-10-01, level I")
 
 
 def _rolling_lab(on: date, person_id: int) -> LabEvaluation:

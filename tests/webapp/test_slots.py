@@ -18,10 +18,10 @@ def test_two_registrations_with_one_order_are_refused_naming_both():
     try:
         slot.add("a/_one.html", order=10)(lambda _subject: {})
         slot.add("b/_two.html", order=20)(lambda _subject: {})
-        slot.check_orders()  # distinct orders pass
+        slot.validate_orders()  # distinct orders pass
         slot.add("c/_three.html", order=10)(lambda _subject: {})
         with pytest.raises(SlotOrderClash) as refused:
-            slot.check_orders()
+            slot.validate_orders()
         message = str(refused.value)
         assert "test_slot" in message and "a/_one.html" in message and "c/_three.html" in message
         assert "order 10" in message
@@ -37,7 +37,7 @@ def test_the_app_does_not_start_with_a_clash(monkeypatch, tmp_path):
 
 
 def test_every_registered_slot_has_unique_orders():
-    slots.check_orders()
+    slots.validate_orders()
 
 
 @pytest.mark.parametrize("template", SHARED_TEMPLATES, ids=lambda p: p.name)

@@ -90,10 +90,10 @@ def new(instrument_id: int):
     def meter():
         return db.session.get(SurveyMeter, form.meter_pk()) if form.meter_pk() else None
 
-    def check(f):
+    def validate(f):
         validate_check(db.session, instrument, f.performed_at_utc(), f.answers(items), meter(), now)
 
-    if validate_with(form, check):
+    if validate_with(form, validate):
         safety_check = record_check(db.session, instrument, current_user, form.performed_at_utc(),
                                     form.answers(items), meter(), form.notes.data, now)
         db.session.commit()
@@ -216,9 +216,8 @@ def control(instrument_id: int):
     instrument = _instrument(instrument_id)
     now = utcnow()
     form = ControlForm()
-    check = lambda f: validate_control(db.session, instrument, f.description.data,  # noqa: E731
-                                    f.expires_at_utc(), now)
-    if validate_with(form, check):
+    if validate_with(form, lambda f: validate_control(db.session, instrument, f.description.data,
+                                                     f.expires_at_utc(), now)):
         record_control(db.session, instrument, current_user, form.description.data,
                        form.expires_at_utc(), now)
         db.session.commit()

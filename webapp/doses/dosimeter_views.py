@@ -43,13 +43,13 @@ def issue():
         form.wearer.data = request.args.get("person", type=int)
         form.issued_on.data = lab_today()
 
-    def check(f):
+    def validate(f):
         """The domain's checks on the submitted dosimeter."""
         kind, hand = worn_to_kind(f.worn.data)
         validate_issue(db.session, serial=f.serial.data, kind=kind, hand=hand, wearer_id=f.wearer.data,
                     issued_on=f.issued_on.data)
 
-    if validate_with(form, check):
+    if validate_with(form, validate):
         kind, hand = worn_to_kind(form.worn.data)
         dosimeter = issue_dosimeter(db.session, serial=form.serial.data, kind=kind, hand=hand,
                                     wearer_id=form.wearer.data, issued_on=form.issued_on.data,

@@ -7,25 +7,13 @@ from wtforms import DateField, FloatField, SelectField, StringField, TextAreaFie
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
 from models.core.codes import Location, Quantity, Result
+from models.core.labels import LOCATION_LABELS, RESULT_LABELS
 from models.core.units import DOSE_UNITS
 from models.doses.import_ops import FIELD_LABELS, FIELDS, ISO_DATE
 from models.doses.record_ops import DoseEntry
-from models.doses.tables import DoseSource, DosimeterKind, ExchangeCycle, Hand
+from models.doses.tables import SOURCE_LABELS, DoseSource, DosimeterKind, ExchangeCycle, Hand
 from webapp.forms import choices
 
-RESULT_LABELS = {
-    Result.MEASURED: "Measured", Result.BELOW_MRD: "Below the minimum reportable dose (MRD)",
-    Result.UNUSED: "Unused (not worn)", Result.LOST: "Lost", Result.NOT_RETURNED: "Not returned",
-}
-SOURCE_LABELS = {
-    DoseSource.DOSIMETRY_REPORT: "Dosimetry report",
-    DoseSource.RSO_ESTIMATE: "Estimate by the safety officer",
-    DoseSource.INCIDENT_ESTIMATE: "Estimate after an incident",
-}
-LOCATION_LABELS = {
-    Location.WHOLE_BODY: "Whole body", Location.LEFT_HAND: "Left hand",
-    Location.RIGHT_HAND: "Right hand", Location.EYE: "Eye (lens)", Location.ABDOMEN: "Abdomen",
-}
 # Kind and hand in one choice, since a ring always names its hand.
 WORN_CHOICES = [("whole_body", "Whole body"), ("ring_left", "Ring, left hand"),
                 ("ring_right", "Ring, right hand"), ("eye", "Eye (lens)"), ("abdomen", "Abdomen")]

@@ -6,9 +6,10 @@ from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user
 from sqlalchemy.orm import joinedload
 
+from models.core.labels import LOCATION_LABELS, RESULT_LABELS
 from models.doses.dosimeter_ops import describe_dosimeter, missing_results, wear_period
 from models.doses.record_ops import add_dose_record, amend_dose_record, entry_of, validate_amendment, validate_entry
-from models.doses.tables import DoseRecord, Dosimeter
+from models.doses.tables import SOURCE_LABELS, DoseRecord, Dosimeter
 from models.doses.version_ops import chains, history, is_current
 from models.exposure.cache import UntilChanged
 from models.exposure.investigation_ops import review_after_dose_change
@@ -16,7 +17,7 @@ from models.exposure.pregnancy_ops import declarations_of
 from models.people.tables import Person, Role
 from webapp.access import can_see_dose_of, roles_required
 from webapp.doses import bp
-from webapp.doses.forms import LOCATION_LABELS, RESULT_LABELS, SOURCE_LABELS, AmendForm, DoseForm
+from webapp.doses.forms import AmendForm, DoseForm
 from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today

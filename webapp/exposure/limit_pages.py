@@ -68,13 +68,13 @@ def limits_choose():
     form = ChooseSetForm()
     form.limit_set_id.choices = [(s.id, s.name) for s in _installed()]
 
-    def check(f):
+    def choose(f):
         """The set must exist and evaluate."""
         chosen = db.session.get(LimitSet, f.limit_set_id.data) if f.limit_set_id.data else None
         with audit_ops.reason(db.session, f.reason.data):
             choose_limit_set(db.session, settings(), chosen)
 
-    if not validate_with(form, check):
+    if not validate_with(form, choose):
         return _index(choose=form, status=400)
     db.session.commit()
     flash(f"'{settings().limit_set.name}' is now the limit set in force.", "info")
@@ -87,13 +87,13 @@ def limits_policies():
     """Change how records are counted."""
     form = PoliciesForm()
 
-    def check(f):
+    def apply(f):
         """Apply the policies (rolled back if anything is wrong)."""
         with audit_ops.reason(db.session, f.reason.data):
             set_policies(db.session, settings(), {name: f[name].data for name in (
                 "proration", "mrd_policy", "lens_source", "five_year_first_year")})
 
-    if not validate_with(form, check):
+    if not validate_with(form, apply):
         return _index(policies=form, status=400)
     db.session.commit()
     flash("Counting policies saved; every figure now follows them.", "info")
@@ -166,12 +166,12 @@ def limit_rule(set_id: int, rule_id: int | None = None):
         form.level1_kind.data = rule.level1_kind or ""
         form.level2_kind.data = rule.level2_kind or ""
 
-    def check(f):
+    def save(f):
         """Save the rule with the reason (rolled back if anything is wrong)."""
         with audit_ops.reason(db.session, f.reason.data):
             save_rule(db.session, stored, f.values(), rule)
 
-    if validate_with(form, check):
+    if validate_with(form, save):
         db.session.commit()
         flash("Rule saved.", "info")
         return redirect(url_for("exposure.limit_set", set_id=stored.id))

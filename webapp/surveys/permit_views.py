@@ -63,7 +63,7 @@ def new_permit():
     form.instrument_id.choices = [(i.id, i.name) for i in instruments_for(db.session, current_user, today)]
     if not form.is_submitted():
         form.instrument_id.data = request.args.get("instrument_id", type=int)
-    if validate_with(form, lambda f: _check(f, today)):
+    if validate_with(form, lambda f: _validate(f, today)):
         permit = request_permit(db.session, _values(form))
         db.session.commit()
         tell_safety_officer(
@@ -86,7 +86,7 @@ def _values(form: PermitForm) -> PermitRequest:
         window_end=utc(form.window_end), ring_dosimetry_confirmed=form.ring_dosimetry_confirmed.data)
 
 
-def _check(form: PermitForm, today) -> None:
+def _validate(form: PermitForm, today) -> None:
     """The request's rules, and that the person may work on the instrument."""
     values = _values(form)
     errors = {}

@@ -63,7 +63,7 @@ def new_survey():
     if not form.is_submitted():
         form.instrument_id.data = request.args.get("instrument_id", type=int)
         form.trigger.data = request.args.get("trigger", SurveyTrigger.PERIODIC.value)
-    if validate_with(form, lambda f: _check(f, today)):
+    if validate_with(form, lambda f: _validate(f, today)):
         survey = record_survey(db.session, _values(form))
         db.session.commit()
         if survey.passed:
@@ -96,7 +96,7 @@ def _values(form: SurveyForm) -> SurveyInput:
         unit=form.unit.data, points=form.point_values(), notes=form.notes.data)
 
 
-def _check(form: SurveyForm, today) -> None:
+def _validate(form: SurveyForm, today) -> None:
     """Domain checks, with each point's errors put beside its own cell."""
     values = _values(form)
     errors = {}
