@@ -8,7 +8,7 @@ from flask import abort, g, jsonify, request
 from werkzeug.exceptions import HTTPException
 
 from models.audit.audit_ops import set_actor
-from models.core.errors import Invalid
+from models.core.errors import Invalid, errors_of
 from models.doses.tables import Dosimeter
 from models.instruments.token_ops import instrument_for_token, token_hash
 from models.people.person_ops import find_person
@@ -144,10 +144,7 @@ def _validated(body: dict, validate) -> tuple[Person, dict]:
     """Read the body and run the session rules on it; every problem is reported together."""
     operator = _operator(body)
     values, errors = _values(body, operator)
-    try:
-        validate(operator, values)
-    except Invalid as error:
-        errors = {**error.errors, **errors}
+    errors = {**errors_of(lambda: validate(operator, values)), **errors}
     if errors:
         # The form calls this field dosimeter_id; the API names dosimeters by serial.
         if "dosimeter_id" in errors:

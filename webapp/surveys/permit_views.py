@@ -5,7 +5,7 @@ from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from models.core.base import utcnow
-from models.core.errors import Invalid
+from models.core.errors import Invalid, errors_of
 from models.instruments.authorisation_ops import authorised_for, instruments_for
 from models.instruments.tables import Instrument
 from models.people.tables import Role
@@ -93,10 +93,7 @@ def _validate(form: PermitForm, today) -> None:
     if values.instrument is not None and not authorised_for(db.session, current_user,
                                                             values.instrument, today):
         errors["instrument_id"] = f"You hold no current authorisation on {values.instrument.name}."
-    try:
-        validate_request(values, utcnow())
-    except Invalid as error:
-        errors = {**error.errors, **errors}
+    errors = {**errors_of(lambda: validate_request(values, utcnow())), **errors}
     if errors:
         raise Invalid(errors)
 
