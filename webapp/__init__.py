@@ -7,7 +7,7 @@ from flask import Flask, g, render_template
 from flask_login import current_user
 from flask_wtf.csrf import CSRFError
 
-from models.audit.audit_ops import set_actor
+from models.audit.audit_ops import set_actor, use_key
 from models.people.tables import Person
 from webapp import config, formatting
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
@@ -37,6 +37,7 @@ def create_app(overrides: dict | None = None) -> Flask:
     os.makedirs(app.instance_path, exist_ok=True)
     app.config.update(config.from_environment(app.instance_path))
     app.config.update(overrides or {})
+    use_key(app.config["AUDIT_KEY"])
 
     db.init_app(app)
     migrate.init_app(app, db, directory=os.path.join(os.path.dirname(app.root_path), "migrations"))
