@@ -3,13 +3,14 @@ from __future__ import annotations
 
 import os
 
-from flask import Flask, g, render_template
+from flask import Flask, g, render_template, session
 from flask_login import current_user
 from flask_wtf.csrf import CSRFError
 
 from models.audit.audit_ops import set_actor, use_key
 from models.people.tables import Person
 from webapp import config, formatting
+from webapp.auth import login_sessions
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
 
 BLUEPRINTS = (
@@ -60,9 +61,12 @@ def create_app(overrides: dict | None = None) -> Flask:
 
 @login_manager.user_loader
 def _load_person(person_id: str) -> Person | None:
-    """Reload the logged-in person; a deactivated account is logged out."""
-    person = db.session.get(Person, int(person_id))
-    return person if person is not None and person.active else None
+    """Reload the logged-in person; an ended, idle or expired session or a deactivated account is out."""
+    person = db.session.get(Person, int(person_id)) if person_id.isdigit() and len(person_id) < 10 else None
+    if person is None or not person.active or not login_sessions.still_valid(person):
+        session.clear()
+        return None
+    return person
 
 
 def _install_request_hooks(app: Flask) -> None:

@@ -6,13 +6,12 @@ import smtplib
 import click
 from flask import current_app, url_for
 
+from models.audit.verify_ops import chain_head
 from models.checks.check_ops import lapse_expired_controls
 from models.core.base import utcnow
 from models.core.due_dates import OVERDUE
 from models.core.settings import lab_date, lab_settings
-from models.audit.verify_ops import chain_head
-from models.due.reminder_ops import (Reminder, anchor_key, anchor_sent, plan_reminders, record_anchor_sent,
-                                     record_sent)
+from models.due.reminder_ops import Reminder, anchor_key, anchor_sent, plan_reminders, record_anchor_sent, record_sent
 from webapp.due import bp
 from webapp.due.views import target_url
 from webapp.extensions import db
