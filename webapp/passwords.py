@@ -1,6 +1,8 @@
 """Passwords: one place that chooses the hashing scheme and judges a new password."""
 from __future__ import annotations
 
+import re
+
 from werkzeug.security import check_password_hash, generate_password_hash
 from wtforms.validators import ValidationError
 from zxcvbn import zxcvbn
@@ -30,7 +32,9 @@ def password_problem(password: str, *about_person: str) -> str | None:
         return f"Use at least {MIN_LENGTH} characters."
     if len(password) > MAX_LENGTH:
         return f"Use at most {MAX_LENGTH} characters."
-    verdict = zxcvbn(password, user_inputs=[p for p in about_person if p])
+    # Whole and in parts: "Mara Winter" makes both "mara" and "winter" guessable.
+    words = {w.lower() for p in about_person for w in (p, *re.split(r"[\s@._-]+", p)) if w}
+    verdict = zxcvbn(password[:MAX_LENGTH], user_inputs=sorted(words))
     if verdict["score"] < MIN_SCORE:
         hint = verdict["feedback"]["warning"] or "It is too easy to guess."
         return f"{hint} Choose a longer password, e.g. a few unrelated words.".strip()

@@ -11,6 +11,8 @@ from models.people.tables import Person
 from webapp.extensions import db
 
 VALID_FOR = timedelta(hours=1)
+# The answer to a reset request, the same whether or not the login exists.
+RESET_SENT_MARK = "a link to set a new password is on its way"
 _SALT = "password-reset"
 
 

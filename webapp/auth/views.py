@@ -19,8 +19,7 @@ WRONG_LOGIN = "Login or password not recognised."
 # Per address and per account: guessing one person's password from many addresses is slowed too.
 PER_ADDRESS = "10 per minute"
 PER_ACCOUNT = "10 per 15 minutes"
-RESET_SENT = ("If that login has an e-mail address, a link to set a new password is on its way. "
-              "It works once, within an hour.")
+RESET_SENT = f"If that login has an e-mail address, {reset.RESET_SENT_MARK}. It works once, within an hour."
 
 
 def _attempted_account() -> str:
