@@ -141,6 +141,10 @@ def _utc_bounds(first: date, last: date, zone: ZoneInfo) -> tuple[datetime, date
     return start.astimezone(ZoneInfo("UTC")), end.astimezone(ZoneInfo("UTC"))
 
 
+# Everyone sees survey tasks, so the text says who asked and nothing about whose dose or how much.
+SURVEY_ASKED = "Asked for by the radiation safety officer. Survey the instrument."
+
+
 def raise_survey_tasks(session: Session, new: list[Investigation], on: date,
                        zone: ZoneInfo) -> list[SurveyTask]:
     """Ask for a survey of each instrument an authorised person used in the window of a crossing.
@@ -166,9 +170,7 @@ def raise_survey_tasks(session: Session, new: list[Investigation], on: date,
                 continue
             tasks[instrument_id] = raise_survey_task(
                 session, session.get(Instrument, instrument_id), SurveyTrigger.DOSE_RISE,
-                f"Dose rise: a user of this instrument reached "
-                f"{LEVEL_LABELS[Level(investigation.level)]} ({_row_of(investigation)} from "
-                f"{investigation.period_start.isoformat()}). Survey the instrument.")
+                SURVEY_ASKED)
     return list(tasks.values())
 
 

@@ -32,7 +32,8 @@ TRIGGER_LABELS = {
     SurveyTrigger.AFTER_MAINTENANCE: "After maintenance",
     SurveyTrigger.AFTER_ALIGNMENT: "After alignment",
     SurveyTrigger.AFTER_BYPASS: "After a bypass",
-    SurveyTrigger.DOSE_RISE: "Dose rise",
+    # Shown to everyone: it says who asked, never that someone's dose rose.
+    SurveyTrigger.DOSE_RISE: "Asked for by the radiation safety officer",
     SurveyTrigger.OTHER: "Other",
 }
 
