@@ -29,6 +29,7 @@ BLUEPRINTS = (
     "webapp.doses",
     "webapp.exposure",
     "webapp.demo",
+    "webapp.backup",
 )
 
 

@@ -9,8 +9,8 @@ import pytest
 import redis
 from flask import g
 
-from models.people.tables import Person, Role
-from tests.conftest import PASSWORD, base_config
+from models.people.tables import Role
+from tests.conftest import PASSWORD
 from webapp.auth import reset
 from webapp.passwords import password_problem
 
