@@ -32,7 +32,7 @@ from models.exposure.tables import Investigation
 from models.instruments.tables import Authorisation, Instrument
 from models.people.tables import Person
 from models.sessions.tables import InstrumentSession
-from models.surveys.survey_ops import raise_survey_task
+from models.surveys.survey_ops import SURVEY_ASKED, raise_survey_task
 from models.surveys.tables import SurveyTask, SurveyTrigger
 
 ROLLING = {PeriodKind.ROLLING_12_MONTHS, PeriodKind.ROLLING_FIVE_YEARS}
@@ -139,10 +139,6 @@ def _utc_bounds(first: date, last: date, zone: ZoneInfo) -> tuple[datetime, date
     start = datetime.combine(first, time(), zone)
     end = datetime.combine(last + timedelta(days=1), time(), zone)
     return start.astimezone(ZoneInfo("UTC")), end.astimezone(ZoneInfo("UTC"))
-
-
-# Everyone sees survey tasks, so the text says who asked and nothing about whose dose or how much.
-SURVEY_ASKED = "Asked for by the radiation safety officer. Survey the instrument."
 
 
 def raise_survey_tasks(session: Session, new: list[Investigation], on: date,

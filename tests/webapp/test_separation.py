@@ -106,3 +106,15 @@ def test_the_admins_audit_view_hides_why_a_survey_was_asked_for(session, make_pe
     assert "Asked for by the radiation safety officer" in admin_page
     officer_page = login(make_person("rso", roles=(Role.SAFETY_OFFICER,))).get("/audit/?entity=survey_task")
     assert "level I" in officer_page.text
+
+
+def test_an_older_dose_rise_task_reads_asked_for_by_the_officer_on_shared_pages(
+        session, make_person, make_instrument, login):
+    instrument = make_instrument(name="P9")
+    raise_survey_task(session, instrument, SurveyTrigger.DOSE_RISE,
+                      "Dose rise: a user of this instrument reached level I (Hp(10) from 2026-01-01).")
+    session.commit()
+    client = login(make_person("op"))
+    for page in (client.get("/surveys/").text, client.get(f"/instruments/{instrument.id}").text):
+        assert "Asked for by the radiation safety officer" in page
+        assert "level I" not in page

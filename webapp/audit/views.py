@@ -8,8 +8,8 @@ from flask import render_template, request
 from flask_login import current_user
 
 from models.audit.tables import AuditEvent
-from models.exposure.investigation_ops import SURVEY_ASKED
 from models.people.tables import Person, Role
+from models.surveys.survey_ops import SURVEY_ASKED
 from webapp.access import roles_required
 from webapp.audit import bp
 from webapp.extensions import db
