@@ -89,13 +89,15 @@ def audited_rows(session: Session) -> Iterator[tuple[sa.Table, Iterator[Any]]]:
     """Each table the trail records with its stored rows, by id.
 
     That is every table with an id: not the trail itself, nor link tables without an id of their
-    own (who was involved in an incident), whose changes no event names. Only the columns the
-    database has so far are read, so a migration can run this mid-upgrade.
+    own (who was involved in an incident), whose changes no event names, nor a table declaring
+    `info={"audit_rows": False}` (working state written outside the ORM, such as a mail queue).
+    Only the columns the database has so far are read, so a migration can run this mid-upgrade.
     """
     inspector = sa.inspect(session.connection())
     present = set(inspector.get_table_names())
     for table in AuditEvent.metadata.sorted_tables:
-        if table.name == AuditEvent.__tablename__ or table.name not in present or "id" not in table.c:
+        if (table.name == AuditEvent.__tablename__ or table.name not in present or "id" not in table.c
+                or table.info.get("audit_rows") is False):
             continue
         names = {c["name"] for c in inspector.get_columns(table.name)}
         columns = [c for c in table.columns if c.name in names]
