@@ -15,6 +15,8 @@ from werkzeug.security import generate_password_hash
 from werkzeug.serving import make_server
 
 from models import Base
+from models.audit.audit_ops import use_key
+from models.audit.verify_ops import record_baseline
 from models.core.codes import WorkerCategory
 from models.core.settings import LabSettings
 from models.exposure.cache import UntilChanged
@@ -28,6 +30,7 @@ from webapp.extensions import db
 PASSWORD = "correct horse battery"
 # A cheap hash keeps tests fast; the app itself hashes with scrypt.
 PASSWORD_HASH = generate_password_hash(PASSWORD, method="pbkdf2:sha256:1000")
+AUDIT_KEY = "test-audit-key"
 PG_ADMIN_URL = os.environ.get("TEST_POSTGRES_URL", "postgresql://postgres@127.0.0.1:5432/test")
 BACKENDS = [b for b in os.environ.get("TEST_BACKENDS", "sqlite,postgresql").split(",") if b]
 
@@ -39,7 +42,7 @@ def _flag(name: str) -> bool:
 
 def base_config(database_url: str, **extra) -> dict:
     """Configuration for a test app."""
-    return {"TESTING": True, "SECRET_KEY": "test", "SQLALCHEMY_DATABASE_URI": database_url,
+    return {"TESTING": True, "SECRET_KEY": "test", "AUDIT_KEY": AUDIT_KEY, "SQLALCHEMY_DATABASE_URI": database_url,
             "WTF_CSRF_ENABLED": False, "RATELIMIT_ENABLED": False, "MAIL_SERVER": "", **extra}
 
 
@@ -95,6 +98,8 @@ def database_url(request, tmp_path) -> str:
         conn.execute(sa.text(f"TRUNCATE {tables} RESTART IDENTITY CASCADE"))
         # The first migration creates the settings row; put it back as a fresh database has it.
         conn.execute(LabSettings.__table__.insert().values(id=1))
+        use_key(AUDIT_KEY)
+        record_baseline(conn, "Recorded as found when the audit trail began checking stored rows.")
     engine.dispose()
     return url
 

@@ -3,13 +3,14 @@ from __future__ import annotations
 
 import os
 
-from flask import Flask, g, render_template
+from flask import Flask, g, render_template, session
 from flask_login import current_user
 from flask_wtf.csrf import CSRFError
 
-from models.audit.audit_ops import set_actor
+from models.audit.audit_ops import set_actor, use_key
 from models.people.tables import Person
 from webapp import config, formatting, slots
+from webapp.auth import login_sessions
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
 
 BLUEPRINTS = (
@@ -28,6 +29,7 @@ BLUEPRINTS = (
     "webapp.doses",
     "webapp.exposure",
     "webapp.demo",
+    "webapp.backup",
 )
 
 
@@ -37,6 +39,7 @@ def create_app(overrides: dict | None = None) -> Flask:
     os.makedirs(app.instance_path, exist_ok=True)
     app.config.update(config.from_environment(app.instance_path))
     app.config.update(overrides or {})
+    use_key(app.config["AUDIT_KEY"])
 
     db.init_app(app)
     migrate.init_app(app, db, directory=os.path.join(os.path.dirname(app.root_path), "migrations"))
@@ -59,9 +62,12 @@ def create_app(overrides: dict | None = None) -> Flask:
 
 @login_manager.user_loader
 def _load_person(person_id: str) -> Person | None:
-    """Reload the logged-in person; a deactivated account is logged out."""
-    person = db.session.get(Person, int(person_id))
-    return person if person is not None and person.active else None
+    """Reload the logged-in person; an ended, idle or expired session or a deactivated account is out."""
+    person = db.session.get(Person, int(person_id)) if person_id.isdigit() and len(person_id) < 10 else None
+    if person is None or not person.active or not login_sessions.still_valid(person):
+        session.clear()
+        return None
+    return person
 
 
 @slots.request_hooks.add(order=20)

@@ -22,7 +22,8 @@ def from_environment(instance_path: str) -> dict:
         # psycopg 3 is the driver; plain postgresql:// would ask for psycopg2.
         database_url = "postgresql+psycopg://" + database_url.removeprefix("postgresql://")
     return {
-        "SECRET_KEY": os.environ.get("SECRET_KEY") or _instance_secret(instance_path),
+        "SECRET_KEY": os.environ.get("SECRET_KEY") or _instance_secret(instance_path, "secret_key"),
+        "AUDIT_KEY": os.environ.get("AUDIT_KEY") or _instance_secret(instance_path, "audit_key"),
         "SQLALCHEMY_DATABASE_URI": database_url,
         "MAIL_SERVER": os.environ.get("MAIL_SERVER", ""),
         "MAIL_PORT": int(os.environ.get("MAIL_PORT", "25")),
@@ -39,9 +40,9 @@ def from_environment(instance_path: str) -> dict:
     }
 
 
-def _instance_secret(instance_path: str) -> str:
-    """A random key kept in instance/, so sessions survive restarts without configuration."""
-    path = os.path.join(instance_path, "secret_key")
+def _instance_secret(instance_path: str, name: str) -> str:
+    """A random key kept in a file in instance/, so it survives restarts without configuration."""
+    path = os.path.join(instance_path, name)
     if os.path.exists(path):
         with open(path, encoding="ascii") as handle:
             return handle.read().strip()

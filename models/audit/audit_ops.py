@@ -3,11 +3,12 @@ from __future__ import annotations
 
 import enum
 import hashlib
+import hmac
 import json
 from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
-from datetime import date, datetime
+from datetime import UTC, date, datetime
 from typing import Any
 
 import sqlalchemy as sa
@@ -18,28 +19,48 @@ from models.audit.tables import AuditEvent
 from models.core.base import utcnow
 
 GENESIS_HASH = "0" * 64
-# Secrets are audited as changed without putting even their hash in the trail.
+# Secrets (columns ending in _hash) enter the trail only as a keyed digest, never as themselves.
 REDACTED_SUFFIX = "_hash"
 # Any fixed number: serialises writers of the chain on PostgreSQL.
 _CHAIN_LOCK_KEY = 7_214_003
+# The sealing key lives outside the database (AUDIT_KEY); the app hands it over when it starts.
+_SEAL: dict[str, bytes] = {}
+
+
+def use_key(key: str | bytes) -> None:
+    """Seal every event from now on with this secret (kept outside the database)."""
+    _SEAL["key"] = key.encode() if isinstance(key, str) else key
+
+
+def _key() -> bytes:
+    """The sealing key; refusing to write an unsealed trail rather than writing a forgeable one."""
+    if not _SEAL.get("key"):
+        raise RuntimeError("No audit key configured (AUDIT_KEY); the audit trail cannot be sealed.")
+    return _SEAL["key"]
 
 
 def _plain(value: Any) -> Any:
     """Turn a column value into a JSON value."""
     if isinstance(value, enum.Enum):
         return value.value
+    if isinstance(value, datetime) and value.tzinfo is not None:
+        # One spelling per moment, so a stored row compares equal to the event that wrote it.
+        return value.astimezone(UTC).isoformat()
     if isinstance(value, (datetime, date)):
         return value.isoformat()
     return value
 
 
-def event_hash(fields: dict[str, Any]) -> str:
-    """SHA-256 over the canonical JSON of an event's content and the previous hash."""
+def event_hash(fields: dict[str, Any], key: bytes | None = None) -> str:
+    """HMAC-SHA256, keyed by the audit key, over the canonical JSON of an event and the previous hash.
+
+    Without the key nobody can recompute a chain after changing it, not even with this function.
+    """
     canonical = json.dumps(fields, sort_keys=True, separators=(",", ":"), default=str)
-    return hashlib.sha256(canonical.encode()).hexdigest()
+    return hmac.new(key or _key(), canonical.encode(), hashlib.sha256).hexdigest()
 
 
-def _content(row: Any) -> dict[str, Any]:
+def content(row: Any) -> dict[str, Any]:
     """The hashed fields of an audit row (mapped object or Core row)."""
     return {
         "at": _plain(row.at),
@@ -57,7 +78,8 @@ def _content(row: Any) -> dict[str, Any]:
 def _column_value(key: str, value: Any) -> Any:
     """A column's value as the trail shows it."""
     if key.endswith(REDACTED_SUFFIX) and value is not None:
-        return "(secret)"
+        # A keyed digest: shows that a secret was swapped without revealing anything about it.
+        return f"(secret {hmac.new(_key(), str(value).encode(), hashlib.sha256).hexdigest()[:16]})"
     return _plain(value)
 
 
@@ -65,6 +87,11 @@ def _snapshot(obj: Any) -> dict[str, Any]:
     """Every column of a mapped object."""
     mapper = inspect(obj).mapper
     return {a.key: _column_value(a.key, getattr(obj, a.key)) for a in mapper.column_attrs}
+
+
+def row_snapshot(row: sa.Row) -> dict[str, Any]:
+    """Every column of a stored row, as an event's "after" shows it."""
+    return {k: _column_value(k, v) for k, v in row._mapping.items()}
 
 
 def _changes(obj: Any, stored: dict[str, Any]) -> tuple[dict[str, Any], dict[str, Any]]:
@@ -139,14 +166,18 @@ def _read_unloaded_old_values(session: Session, _flush_context: Any, _instances:
 def _write_audit_events(session: Session, _flush_context: Any) -> None:
     """Append one chained audit event for every row this flush creates, changes or deletes."""
     pending = list(_pending_events(session))
-    if not pending:
-        return
-    conn = session.connection()
+    if pending:
+        append_events(session.connection(), pending, session.info.get("actor_id"),
+                      session.info.get("audit_reason"))
+
+
+def append_events(conn: sa.Connection, items: Iterable[dict[str, Any]], actor_id: int | None,
+                  reason: str | None) -> None:
+    """Chain and seal events (entity, entity_id, action, before, after) onto the trail."""
     prev = _last_hash(conn)
-    for item in pending:
-        row = {**item, "at": utcnow(), "actor_id": session.info.get("actor_id"),
-               "reason": session.info.get("audit_reason"), "prev_hash": prev}
-        row["hash"] = prev = event_hash(_content(_Row(**row)))
+    for item in items:
+        row = {**item, "at": utcnow(), "actor_id": actor_id, "reason": reason, "prev_hash": prev}
+        row["hash"] = prev = event_hash(content(_Row(**row)))
         conn.execute(AuditEvent.__table__.insert().values(**row))
 
 
@@ -192,26 +223,3 @@ def reason(session: Session, text: str | None) -> Iterator[None]:
         session.flush()
     finally:
         session.info["audit_reason"] = previous
-
-
-@dataclass(frozen=True)
-class ChainProblem:
-    """The first place where the audit chain does not hold."""
-
-    event_id: int
-    message: str
-
-
-def verify_chain(session: Session) -> ChainProblem | None:
-    """Walk the chain in order; report the first altered event or the first gap."""
-    prev = GENESIS_HASH
-    previous_id = None
-    rows = session.execute(sa.select(AuditEvent.__table__).order_by(AuditEvent.id))
-    for row in rows:
-        if row.prev_hash != prev:
-            after = f"after event {previous_id}" if previous_id else "at the start"
-            return ChainProblem(row.id, f"event {row.id}: an event {after} was removed or reordered")
-        if event_hash(_content(row)) != row.hash:
-            return ChainProblem(row.id, f"event {row.id}: its content was altered")
-        prev, previous_id = row.hash, row.id
-    return None

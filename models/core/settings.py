@@ -15,6 +15,12 @@ if TYPE_CHECKING:  # core imports no area; the mapper finds the class by name
     from models.exposure.tables import LimitSet
 
 
+# A working day idle, a week in all (common practice); the ranges keep a typo from locking people
+# out (one minute) or leaving a login open for months.
+IDLE_TIMEOUT_DEFAULT, IDLE_TIMEOUT_RANGE = 8 * 60, (5, 24 * 60)
+SESSION_LIFETIME_DEFAULT, SESSION_LIFETIME_RANGE = 7 * 24, (1, 30 * 24)
+
+
 class LabSettings(IdMixin, Base):
     """Policies and preferences that apply to the whole lab."""
 
@@ -35,12 +41,19 @@ class LabSettings(IdMixin, Base):
     due_soon_days: Mapped[int] = mapped_column(default=7)
     reminders_enabled: Mapped[bool] = mapped_column(default=True)
     safety_officer_email: Mapped[str | None] = mapped_column(sa.String(254))
+    # A login ends after this long without a request, and this long after it began, whatever happens.
+    idle_timeout_minutes: Mapped[int] = mapped_column(default=IDLE_TIMEOUT_DEFAULT)
+    session_lifetime_hours: Mapped[int] = mapped_column(default=SESSION_LIFETIME_DEFAULT)
 
     limit_set: Mapped[LimitSet | None] = relationship("LimitSet")
 
     __table_args__ = (
         sa.CheckConstraint("display_unit IN ('mSv', 'mrem')", name="display_unit_known"),
         sa.CheckConstraint("due_soon_days >= 0", name="due_soon_not_negative"),
+        sa.CheckConstraint(f"idle_timeout_minutes BETWEEN {IDLE_TIMEOUT_RANGE[0]} AND {IDLE_TIMEOUT_RANGE[1]}",
+                           name="idle_timeout_in_range"),
+        sa.CheckConstraint(f"session_lifetime_hours BETWEEN {SESSION_LIFETIME_RANGE[0]} "
+                           f"AND {SESSION_LIFETIME_RANGE[1]}", name="session_lifetime_in_range"),
     )
 
 

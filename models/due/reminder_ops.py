@@ -7,7 +7,7 @@ every day, and a second run on the same day finds nothing new to send.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from datetime import datetime
+from datetime import date, datetime
 
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
@@ -87,4 +87,22 @@ def record_sent(session: Session, reminder: Reminder, now: datetime) -> None:
     for person in people:
         session.add_all(ReminderSent(person_id=person.id, item_key=key, sent_on=sent_on, sent_at=now)
                         for key in reminder.keys)
+    session.flush()
+
+
+def anchor_key(on: date) -> str:
+    """The note of the month's audit anchor e-mail."""
+    return f"audit-anchor:{on:%Y-%m}"
+
+
+def anchor_sent(session: Session, key: str) -> bool:
+    """True when this month's audit anchor already went to the safety officers."""
+    return session.scalar(sa.select(sa.exists().where(ReminderSent.item_key == key)))
+
+
+def record_anchor_sent(session: Session, key: str, now: datetime) -> None:
+    """Note the month's anchor e-mail against every safety officer."""
+    sent_on = lab_date(session, now)
+    session.add_all(ReminderSent(person_id=o.id, item_key=key, sent_on=sent_on, sent_at=now)
+                    for o in safety_officers(session))
     session.flush()

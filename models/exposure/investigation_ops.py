@@ -33,7 +33,7 @@ from models.exposure.tables import Investigation
 from models.instruments.tables import Authorisation, Instrument
 from models.people.tables import Person
 from models.sessions.tables import InstrumentSession
-from models.surveys.survey_ops import raise_survey_task
+from models.surveys.survey_ops import SURVEY_ASKED, raise_survey_task
 from models.surveys.tables import SurveyTask, SurveyTrigger
 
 ROLLING = {PeriodKind.ROLLING_12_MONTHS, PeriodKind.ROLLING_FIVE_YEARS}
@@ -167,9 +167,7 @@ def raise_survey_tasks(session: Session, new: list[Investigation], on: date,
                 continue
             tasks[instrument_id] = raise_survey_task(
                 session, session.get(Instrument, instrument_id), SurveyTrigger.DOSE_RISE,
-                f"Dose rise: a user of this instrument reached "
-                f"{LEVEL_LABELS[Level(investigation.level)]} ({_row_of(investigation)} from "
-                f"{investigation.period_start.isoformat()}). Survey the instrument.")
+                SURVEY_ASKED)
     return list(tasks.values())
 
 

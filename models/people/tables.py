@@ -108,3 +108,16 @@ class PersonRole(IdMixin, Base):
     person: Mapped[Person] = relationship(back_populates="roles")
 
     __table_args__ = (sa.UniqueConstraint("person_id", "role", name="uq_person_role_person_role"),)
+
+
+class LoginEpoch(IdMixin, Base):
+    """A counter per person, copied into each login session: raising it ends every session at once.
+
+    Kept apart from the person's row so that logging out does not look like a change of people
+    (which would make the dose evaluations be worked out afresh).
+    """
+
+    __tablename__ = "login_epoch"
+
+    person_id: Mapped[int] = mapped_column(sa.ForeignKey("person.id"), unique=True)
+    epoch: Mapped[int] = mapped_column(default=0)

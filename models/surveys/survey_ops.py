@@ -26,13 +26,18 @@ LEVEL_SOURCES = {
                         "25 Pa. Code 227a.13(b) (default 25 µSv/h at 5 cm)",
 }
 
+# Everyone sees survey tasks, so one asked for after a dose rise says who asked and nothing about
+# whose dose, which level or when.
+SURVEY_ASKED = "Asked for by the radiation safety officer. Survey the instrument."
+
 TRIGGER_LABELS = {
     SurveyTrigger.INSTALLATION: "Installation",
     SurveyTrigger.PERIODIC: "Periodic",
     SurveyTrigger.AFTER_MAINTENANCE: "After maintenance",
     SurveyTrigger.AFTER_ALIGNMENT: "After alignment",
     SurveyTrigger.AFTER_BYPASS: "After a bypass",
-    SurveyTrigger.DOSE_RISE: "Dose rise",
+    # Shown to everyone: it says who asked, never that someone's dose rose.
+    SurveyTrigger.DOSE_RISE: "Asked for by the radiation safety officer",
     SurveyTrigger.OTHER: "Other",
 }
 
@@ -194,6 +199,11 @@ def failure_text(survey: Survey, survey_date: date | None) -> str:
     over = "; ".join(f"{p.net_usv_h:.3g} µSv/h net at '{p.location}' is over the {p.level.value} "
                      f"action level of {p.action_level_usv_h:g} µSv/h" for p in failing_points(survey))
     return f"Survey of {survey_date} failed: {over}."
+
+
+def shown_reason(task: SurveyTask) -> str:
+    """A task's reason as shared pages show it (older dose-rise tasks named the level reached)."""
+    return SURVEY_ASKED if task.trigger == SurveyTrigger.DOSE_RISE else task.reason
 
 
 def raise_survey_task(session: Session, instrument: Instrument, trigger: SurveyTrigger,

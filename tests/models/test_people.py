@@ -3,8 +3,8 @@ import pytest
 
 from models.core.errors import Invalid
 from models.instruments.instrument_ops import validate_instrument
-from models.people.person_ops import add_person
-from models.people.tables import Role
+from models.people.person_ops import add_person, check_separation
+from models.people.tables import Person, Role
 
 
 def test_duplicate_login_is_refused(session, make_person):
@@ -50,3 +50,29 @@ def test_instrument_rules(session, field, value, message):
 
 def test_good_instrument_passes(session):
     validate_instrument(session, GOOD)
+
+
+def _someone(*roles, email="someone@example.org"):
+    """A person not saved anywhere, holding these roles."""
+    person = Person(login="someone", name="Someone", email=email)
+    person.set_roles(set(roles))
+    return person
+
+
+ADMIN, OFFICER, OPERATOR = Role.ADMIN, Role.SAFETY_OFFICER, Role.OPERATOR
+
+
+@pytest.mark.parametrize("by, held, roles, email, refused", [
+    (None, {OPERATOR}, {OFFICER}, "someone@example.org", set()),          # the server's command line
+    ({OFFICER}, {OPERATOR}, {OFFICER}, "someone@example.org", set()),     # an officer appoints
+    ({ADMIN}, {OPERATOR}, {OPERATOR, ADMIN}, "someone@example.org", set()),
+    ({ADMIN}, {ADMIN}, {ADMIN, OFFICER}, "someone@example.org", {"roles"}),  # self-promotion
+    ({ADMIN}, {OFFICER}, {OPERATOR}, "someone@example.org", {"roles"}),      # removing the officer
+    ({ADMIN}, {OFFICER}, {OFFICER}, "admin@example.org", {"email"}),         # redirecting alerts
+    ({ADMIN}, {OPERATOR}, {OPERATOR}, "new@example.org", set()),
+    ({ADMIN}, None, {OFFICER}, None, {"roles"}),                             # adding an officer
+])
+def test_only_a_safety_officer_touches_the_officers_role_and_address(by, held, roles, email, refused):
+    actor = _someone(*by) if by else None
+    person = _someone(*held) if held is not None else None
+    assert set(check_separation(actor, person, roles, email)) == refused

@@ -6,6 +6,7 @@ import sqlalchemy as sa
 from models.audit.tables import AuditEvent
 from models.instruments.tables import Instrument
 from models.people.tables import Person, Role
+from tests.conftest import PASSWORD
 
 
 def _errors(response) -> list[str]:
@@ -54,7 +55,7 @@ def test_admin_adds_a_person(make_person, login, session):
     client = login(make_person(roles=(Role.ADMIN,)))
     response = client.post("/people/new", data={
         "login": "newbie", "name": "New Operator", "email": "newbie@example.org",
-        "roles": ["operator"], "category": "trainee", "password": "p" * 12, "confirm": "p" * 12})
+        "roles": ["operator"], "category": "trainee", "password": PASSWORD, "confirm": PASSWORD})
     assert response.status_code == 302
     person = session.scalar(sa.select(Person).where(Person.login == "newbie"))
     assert person.category == "trainee" and person.role_set == {Role.OPERATOR}
@@ -65,7 +66,7 @@ def test_duplicate_login_and_blank_name_are_explained(make_person, login, sessio
     client = login(make_person("boss", roles=(Role.ADMIN,)))
     people_before = _count(session, Person)
     data = {"login": "boss", "name": " ", "roles": ["operator"], "category": "adult_worker",
-            "password": "p" * 12, "confirm": "p" * 12}
+            "password": PASSWORD, "confirm": PASSWORD}
     assert "Enter the person&#39;s name." in _errors(client.post("/people/new", data=data))
     # The domain's rule (a unique login) is checked once the fields are well formed.
     errors = _errors(client.post("/people/new", data={**data, "name": "Second Boss"}))

@@ -23,6 +23,9 @@ def test_load_if_empty_twice_loads_once(app, session):
     assert second.exit_code == 0, second.output
     assert "not loaded" in second.output
     assert people_count(session) == count
+    # Everything the demo wrote went through the app: the sealed trail and every row agree.
+    verified = runner.invoke(args=["audit", "verify"])
+    assert verified.exit_code == 0, verified.output
 
 
 def test_load_refuses_a_database_with_people(app, session, make_person):

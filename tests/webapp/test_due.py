@@ -58,14 +58,28 @@ def test_reminders_twice_send_once(app, session, late_lab, smtp_server):
     first = runner.invoke(args=["reminders", "send"])
     assert first.exit_code == 0, first.output
     recipients = sorted(m["To"] for m in mailbox.messages)
-    assert recipients == ["op@example.org", "rso@example.org"]
-    digest = next(m for m in mailbox.messages if m["To"] == "rso@example.org")
+    assert recipients == ["op@example.org", "rso@example.org", "rso@example.org"]  # with the anchor
+    digest = next(m for m in mailbox.messages if "lab due list" in m["Subject"])
     assert "Safety-device check: Late XRD" in digest.get_content()
     assert "LATE by 10 days" in digest.get_content()
     second = runner.invoke(args=["reminders", "send"])
     assert second.exit_code == 0, second.output
     assert "Nothing new to remind." in second.output
-    assert len(mailbox.messages) == 2
+    assert len(mailbox.messages) == 3
+
+
+def test_reminders_mail_the_audit_anchor_once_a_month(app, session, late_lab, smtp_server):
+    from models.audit.verify_ops import Anchor, verify_anchor
+
+    _, mailbox = smtp_server
+    runner = app.test_cli_runner()
+    assert runner.invoke(args=["reminders", "send"]).exit_code == 0
+    (anchor_mail,) = [m for m in mailbox.messages if "audit trail anchor" in m["Subject"]]
+    assert anchor_mail["To"] == "rso@example.org"
+    anchor = Anchor.parse(anchor_mail.get_content())
+    assert anchor is not None and verify_anchor(session, anchor) is None
+    runner.invoke(args=["reminders", "send"])
+    assert len([m for m in mailbox.messages if "audit trail anchor" in m["Subject"]]) == 1
 
 
 def test_a_dry_run_prints_and_records_nothing(app, session, late_lab, smtp_server):

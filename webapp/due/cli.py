@@ -6,11 +6,12 @@ import smtplib
 import click
 from flask import current_app, url_for
 
+from models.audit.verify_ops import chain_head
 from models.checks.check_ops import lapse_expired_controls
 from models.core.base import utcnow
 from models.core.due_dates import OVERDUE
 from models.core.settings import lab_date, lab_settings
-from models.due.reminder_ops import Reminder, plan_reminders, record_sent
+from models.due.reminder_ops import Reminder, anchor_key, anchor_sent, plan_reminders, record_anchor_sent, record_sent
 from webapp.due import bp
 from webapp.due.views import target_url
 from webapp.extensions import db
@@ -83,9 +84,37 @@ def send(dry_run: bool):
                 click.echo(f"Sent to {', '.join(a for a in to if a)}: {subject}")
             else:
                 click.echo(f"Not sent (no mail server or no address): {subject}", err=True)
+    if not _mail_anchor(now, dry_run):
+        failures += 1
     if dry_run:
         session.rollback()
     if not reminders:
         click.echo("Nothing new to remind.")
     if failures:
         raise SystemExit(1)
+
+
+def _mail_anchor(now, dry_run: bool) -> bool:
+    """Once a month, e-mail the safety officers the head of the audit trail to keep; False if it failed."""
+    session = db.session
+    key = anchor_key(lab_date(session, now))
+    if anchor_sent(session, key):
+        return True
+    line = chain_head(session).line()
+    subject = f"{lab_settings(session).lab_name}: audit trail anchor for {key.rsplit(':', 1)[1]}"
+    body = (f"{line}\n\nKeep this line outside the logbook (a file, a printout, another mailbox). "
+            "`flask audit verify --anchor FILE` with it shows whether events up to this one were "
+            "later removed or rewritten.")
+    if dry_run:
+        click.echo(f"Would send to the safety officers: {subject}\n{body}\n")
+        return True
+    try:
+        sent = send_mail(safety_officer_addresses(), subject, body)
+    except (smtplib.SMTPException, OSError) as error:
+        click.echo(f"Audit anchor not sent: {error}", err=True)
+        return False
+    if sent:
+        record_anchor_sent(session, key, now)
+        session.commit()
+        click.echo(f"Sent the audit anchor to the safety officers: {subject}")
+    return True

@@ -1,4 +1,4 @@
-"""`flask people add`: create people from scripts, the first admin included."""
+"""`flask people add` and `flask people set-password`: accounts from scripts, the first admin included."""
 from __future__ import annotations
 
 import sys
@@ -7,10 +7,11 @@ import click
 
 from models.core.codes import WorkerCategory
 from models.core.errors import Invalid
-from models.people.person_ops import add_person
+from models.people.account_ops import set_password
+from models.people.person_ops import add_person, find_person
 from models.people.tables import PERSON_CATEGORIES, Role
 from webapp.extensions import db
-from webapp.passwords import MIN_LENGTH, hash_password
+from webapp.passwords import hash_password, password_problem
 from webapp.people import bp
 
 
@@ -25,12 +26,7 @@ from webapp.people import bp
 @click.option("--password-stdin", is_flag=True, help="Read the password from standard input.")
 def add(login, name, email, roles, category, password_stdin):
     """Create a person; an existing login is an error."""
-    password_hash = None
-    if password_stdin:
-        password = sys.stdin.readline().rstrip("\n")
-        if len(password) < MIN_LENGTH:
-            raise click.ClickException(f"The password must have at least {MIN_LENGTH} characters.")
-        password_hash = hash_password(password)
+    password_hash = _read_password(login, name, email) if password_stdin else None
     try:
         person = add_person(db.session, login=login, name=name, email=email,
                             roles={Role(r) for r in roles}, category=WorkerCategory(category),
@@ -40,3 +36,25 @@ def add(login, name, email, roles, category, password_stdin):
         raise click.ClickException(str(error)) from error
     db.session.commit()
     click.echo(f"Added {person.name} ({person.login}): {', '.join(sorted(roles))}.")
+
+
+@bp.cli.command("set-password")
+@click.argument("login")
+@click.option("--password-stdin", is_flag=True, required=True,
+              help="Read the new password from standard input (required: never on the command line).")
+def set_password_command(login, password_stdin):
+    """Set a person's password and end every session they have."""
+    person = find_person(db.session, login)
+    if person is None:
+        raise click.ClickException(f"login: nobody has the login '{login}'.")
+    set_password(db.session, person, _read_password(person.login, person.name, person.email))
+    db.session.commit()
+    click.echo(f"New password set for {person.name} ({person.login}); their sessions have ended.")
+
+
+def _read_password(*about_person: str | None) -> str:
+    """One line from standard input, checked for length and guessability, hashed."""
+    password = sys.stdin.readline().rstrip("\r\n")
+    if problem := password_problem(password, *(p or "" for p in about_person)):
+        raise click.ClickException(f"password: {problem}")
+    return hash_password(password)

@@ -7,7 +7,7 @@ from wtforms.validators import DataRequired, Email, EqualTo, Length, Optional
 
 from models.people.tables import CATEGORY_LABELS, PERSON_CATEGORIES, ROLE_LABELS, Role
 from webapp.forms import CheckboxesField, choices
-from webapp.passwords import MIN_LENGTH
+from webapp.passwords import MIN_LENGTH, strong_password
 
 
 class PersonForm(FlaskForm):
@@ -28,7 +28,8 @@ class NewPersonForm(PersonForm):
     login = StringField("Login", validators=[DataRequired("Enter a login."), Length(max=64)])
     password = PasswordField("Password", validators=[
         DataRequired("Enter a password."),
-        Length(min=MIN_LENGTH, message=f"Use at least {MIN_LENGTH} characters.")])
+        strong_password(lambda f: [f.login.data or "", f.name.data or "", f.email.data or ""])],
+        description=f"At least {MIN_LENGTH} characters and hard to guess.")
     confirm = PasswordField("Repeat password", validators=[
         EqualTo("password", "The two passwords differ.")])
 

@@ -26,7 +26,7 @@ from models.sessions.session_ops import (
     validate_opening,
 )
 from models.sessions.tables import InstrumentSession
-from webapp.access import roles_required
+from webapp.access import can_see_dose_of, roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, lab_zone
 from webapp.forms import validate_with
@@ -124,7 +124,9 @@ def log():
 def show(session_id: int):
     """One session with its derived figures."""
     entry = db.session.get(InstrumentSession, session_id) or abort(404)
-    dosimeter = db.session.get(Dosimeter, entry.dosimeter_id) if entry.dosimeter_id else None
+    # A dosimeter serial is dose data of its wearer: shown to them and the safety officer only.
+    shown = entry.dosimeter_id and can_see_dose_of(entry.operator_id)
+    dosimeter = db.session.get(Dosimeter, entry.dosimeter_id) if shown else None
     return render_template("sessions/show.html", entry=entry, figures=figures(entry),
                            dosimeter=dosimeter)
 

@@ -7,6 +7,8 @@ from flask_wtf import FlaskForm
 from wtforms import EmailField, IntegerField, SelectField, StringField
 from wtforms.validators import DataRequired, Email, InputRequired, Length, NumberRange, Optional
 
+from models.core.settings import IDLE_TIMEOUT_RANGE, SESSION_LIFETIME_RANGE
+
 
 class LabForm(FlaskForm):
     """Name, time zone, display unit, due-soon window, safety officer's address."""
@@ -23,4 +25,16 @@ class LabForm(FlaskForm):
         NumberRange(min=0, max=90, message="Between 0 and 90 days.")])
     safety_officer_email = EmailField("Safety officer's e-mail", validators=[
         Optional(), Email("Enter a valid e-mail address.")],
-        description="Alerts also go to every person holding the safety officer role.")
+        description="Alerts also go to every person holding the safety officer role. Only a "
+                    "radiation safety officer changes it.")
+    idle_timeout_minutes = IntegerField("Log out after this long without use (minutes)", validators=[
+        InputRequired("Enter a number of minutes."),
+        NumberRange(*IDLE_TIMEOUT_RANGE, message="Between %(min)s and %(max)s minutes.")],
+        description=f"Between {IDLE_TIMEOUT_RANGE[0]} and {IDLE_TIMEOUT_RANGE[1]} minutes; "
+                    "default 480, a working day.")
+    session_lifetime_hours = IntegerField("Log out this long after logging in, at the latest (hours)",
+                                          validators=[
+        InputRequired("Enter a number of hours."),
+        NumberRange(*SESSION_LIFETIME_RANGE, message="Between %(min)s and %(max)s hours.")],
+        description=f"Between {SESSION_LIFETIME_RANGE[0]} and {SESSION_LIFETIME_RANGE[1]} hours; "
+                    "default 168, a week.")

@@ -7,7 +7,7 @@ import click
 
 from models.surveys.meter_ops import active_meters, calibration_on
 from models.surveys.permit_ops import active_permits, expired_unclosed_permits
-from models.surveys.survey_ops import open_survey_tasks
+from models.surveys.survey_ops import open_survey_tasks, shown_reason
 from webapp.extensions import db
 from webapp.formatting import lab_today, local, settings
 from webapp.surveys import bp
@@ -26,7 +26,7 @@ def status(as_json):
                for state, found in (("active", active_permits(db.session)),
                                     ("not_closed", expired_unclosed_permits(db.session)))
                for p in found]
-    tasks = [{"instrument": t.instrument.name, "trigger": t.trigger.value, "reason": t.reason}
+    tasks = [{"instrument": t.instrument.name, "trigger": t.trigger.value, "reason": shown_reason(t)}
              for t in open_survey_tasks(db.session)]
     if as_json:
         click.echo(json.dumps({"meters": meters, "permits": permits, "survey_tasks": tasks}, indent=2))
