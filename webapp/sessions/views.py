@@ -73,10 +73,16 @@ def start(instrument_id: int):
     now = utcnow()
     if validate_with(form, lambda f: validate_opening(db.session, instrument, current_user,
                                                    f.values(), now=now)):
-        open_session(db.session, instrument, current_user, form.values(), now=now)
-        db.session.commit()
-        flash(f"Session started on {instrument.name}.", "info")
-        return redirect(url_for("home.index"))
+        try:
+            # Checked again under the write lock: another PC may have taken the slot meanwhile.
+            open_session(db.session, instrument, current_user, form.values(), now=now)
+        except Invalid as error:
+            db.session.rollback()
+            attach_errors(form, error)
+        else:
+            db.session.commit()
+            flash(f"Session started on {instrument.name}.", "info")
+            return redirect(url_for("home.index"))
     return render_template("sessions/start.html", form=form, instrument=instrument,
                            permit=active_bypass_permit(db.session, instrument, now))
 
@@ -119,10 +125,15 @@ def log():
     now = utcnow()
     if validate_with(form, lambda f: validate_finished(db.session, instrument, current_user,
                                                     f.values(), now=now)):
-        entry = log_finished_session(db.session, instrument, current_user, form.values(), now=now)
-        db.session.commit()
-        flash(f"Session on {instrument.name} logged.", "info")
-        return redirect(url_for("sessions.show", session_id=entry.id))
+        try:
+            entry = log_finished_session(db.session, instrument, current_user, form.values(), now=now)
+        except Invalid as error:
+            db.session.rollback()
+            attach_errors(form, error)
+        else:
+            db.session.commit()
+            flash(f"Session on {instrument.name} logged.", "info")
+            return redirect(url_for("sessions.show", session_id=entry.id))
     return render_template("sessions/log.html", form=form)
 
 
