@@ -10,12 +10,16 @@ import urllib.error
 import urllib.request
 import uuid
 from collections.abc import Iterator
+from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 POSTGRES_ADMIN_URL = os.environ.get("BENCH_POSTGRES_URL", "postgresql://postgres@127.0.0.1:5432/postgres")
 SECRET_KEY = "bench-secret-key-not-for-production"
-START_TIMEOUT_S = 30
+# Loading the app (numpy, matplotlib, xraydb) in each worker takes seconds on a busy machine.
+START_TIMEOUT_S = 120
+# wsgi:app plus a header naming the worker, so readiness can wait for every worker.
+APP = "bench.pid_app:app"
 STOP_TIMEOUT_S = 15
 
 
@@ -54,26 +58,33 @@ def fresh_database(kind: str, directory: str) -> Iterator[str]:
             admin.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
 
 
-def _wait_until_serving(base_url: str, process: subprocess.Popen, log_path: str) -> None:
-    """Poll the public OpenAPI document until gunicorn answers, or fail with its log."""
-    deadline = time.monotonic() + START_TIMEOUT_S
-    while time.monotonic() < deadline:
-        if process.poll() is not None:
-            break
-        try:
-            with urllib.request.urlopen(f"{base_url}/api/v1/openapi.json", timeout=2) as response:
-                if response.status == 200:
-                    return
-        except (urllib.error.URLError, ConnectionError, TimeoutError):
+def _probe(base_url: str) -> str | None:
+    """The pid of the worker that answered the public OpenAPI document, or None."""
+    try:
+        with urllib.request.urlopen(f"{base_url}/api/v1/openapi.json", timeout=5) as response:
+            return response.headers.get("X-Worker-Pid") if response.status == 200 else None
+    except (urllib.error.URLError, ConnectionError, TimeoutError):
+        return None
+
+
+def _wait_until_serving(base_url: str, workers: int, process: subprocess.Popen, log_path: str) -> None:
+    """Probe in parallel until every worker has answered once (loaded the app), or fail with the log."""
+    deadline, answered = time.monotonic() + START_TIMEOUT_S, set()
+    with ThreadPoolExecutor(workers + 1) as pool:
+        while time.monotonic() < deadline and process.poll() is None:
+            answered.update(pid for pid in pool.map(_probe, [base_url] * (workers + 1)) if pid)
+            if len(answered) >= workers:
+                return
             time.sleep(0.2)
     with open(log_path, encoding="utf-8", errors="replace") as log:
-        raise RuntimeError(f"gunicorn did not start within {START_TIMEOUT_S} s:\n{log.read()[-3000:]}")
+        raise RuntimeError(f"gunicorn did not start {workers} workers within {START_TIMEOUT_S} s "
+                           f"({len(answered)} answered):\n{log.read()[-3000:]}")
 
 
 @contextmanager
-def gunicorn(database_url: str, port: int, *, workers: int = 4, app: str = "wsgi:app",
+def gunicorn(database_url: str, port: int, *, workers: int = 4, app: str = APP,
              env: dict[str, str] | None = None) -> Iterator[str]:
-    """Serve the app with gunicorn on loopback; always stopped (TERM, then KILL) on the way out."""
+    """Serve the app with gunicorn on loopback, every worker loaded; always stopped (TERM, then KILL)."""
     environment = {**os.environ, "DATABASE_URL": database_url, "SECRET_KEY": SECRET_KEY,
                    "MAIL_SERVER": "", **(env or {})}
     log = tempfile.NamedTemporaryFile(prefix="gunicorn-", suffix=".log", delete=False)
@@ -83,7 +94,7 @@ def gunicorn(database_url: str, port: int, *, workers: int = 4, app: str = "wsgi
     process = subprocess.Popen(command, cwd=ROOT, env=environment, stdout=log, stderr=log)
     base_url = f"http://127.0.0.1:{port}"
     try:
-        _wait_until_serving(base_url, process, log.name)
+        _wait_until_serving(base_url, workers, process, log.name)
         yield base_url
     finally:
         process.terminate()

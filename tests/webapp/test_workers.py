@@ -21,7 +21,6 @@ from bench.server import gunicorn
 from models.people.tables import Role
 from tests.conftest import PASSWORD, free_port
 
-APP = "tests.webapp.worker_pid_app:app"
 ROUNDS = 25  # rounds of parallel requests before giving up on reaching both workers
 ON = "2025-06-30"
 
@@ -66,7 +65,7 @@ def test_a_dose_entered_through_one_worker_shows_on_the_other(database_url, app,
     worker = make_person("lb")
     make_dose(worker, wear_start=date(2025, 1, 1), wear_end=date(2025, 1, 31), value=0.42)
     page = f"/exposure/person/{worker.id}?on={ON}"
-    with gunicorn(database_url, free_port(), workers=2, app=APP) as base:
+    with gunicorn(database_url, free_port(), workers=2) as base:
         browser = Browser(base)
         status, _pid, _text = browser.post("/login", {"login": officer.login, "password": PASSWORD,
                                                       "csrf_token": browser.csrf("/login")})
@@ -106,7 +105,7 @@ def test_login_attempts_are_counted_across_workers(sqlite_template, tmp_path):
         pytest.skip(f"Redis unreachable at 127.0.0.1:6379: {error}")
     path = tmp_path / "throttle.sqlite"
     shutil.copy(sqlite_template, path)
-    with gunicorn(f"sqlite:///{path}", free_port(), workers=2, app=APP,
+    with gunicorn(f"sqlite:///{path}", free_port(), workers=2,
                   env={"RATELIMIT_STORAGE_URI": storage}) as base:
         browser = Browser(base)
         token = browser.csrf("/login")

@@ -1,4 +1,4 @@
-"""The production app, telling in a header which gunicorn worker answered (for multi-worker tests)."""
+"""The production app, telling in a header which gunicorn worker answered (for the load script and tests)."""
 import os
 
 from wsgi import app as _app
