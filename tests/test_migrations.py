@@ -31,3 +31,15 @@ def test_a_new_database_takes_its_time_zone_from_the_environment(tmp_path, monke
     migrate_to_head(f"sqlite:///{path}")
     with sqlite3.connect(path) as conn:
         assert conn.execute("SELECT timezone FROM lab_settings").fetchone() == ("America/Chicago",)
+
+
+def test_postgresql_refuses_overlapping_sessions_in_the_schema(app):
+    """The exclusion constraint lives only in migration 0015, so check that it is there."""
+    if db.engine.dialect.name != "postgresql":
+        return
+    with db.engine.connect() as conn:
+        definition = conn.exec_driver_sql(
+            "SELECT pg_get_constraintdef(oid) FROM pg_constraint "
+            "WHERE conname = 'ex_instrument_session_no_overlap'").scalar()
+    assert definition == ("EXCLUDE USING gist (instrument_id WITH =, "
+                          "tsrange(started_at, ended_at, '[)'::text) WITH &&)")
