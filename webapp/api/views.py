@@ -193,8 +193,9 @@ def idempotent(view):
         digest = idempotency_ops.request_hash(request.method, request.path, request.get_data())
         row = idempotency_ops.claim(db.session, g.instrument, key, digest)
         if row.status is not None:
-            db.session.rollback()
-            return Response(row.response, status=row.status, mimetype="application/json",
+            status, response = row.status, row.response
+            db.session.rollback()  # ends the read (and on SQLite releases the write lock)
+            return Response(response, status=status, mimetype="application/json",
                             headers={"Idempotent-Replayed": "true"})
         g.idempotency_claim = row
         return view(*args, **kwargs)
