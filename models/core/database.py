@@ -5,6 +5,7 @@ import sqlite3
 
 from sqlalchemy import event
 from sqlalchemy.engine import Engine
+from sqlalchemy.orm import Session
 
 
 @event.listens_for(Engine, "connect")
@@ -17,3 +18,19 @@ def _sqlite_pragmas(dbapi_connection, _record) -> None:
     cursor.execute("PRAGMA journal_mode=WAL")
     cursor.execute("PRAGMA busy_timeout=5000")
     cursor.close()
+
+
+def hold_write_lock(session: Session) -> None:
+    """Hold the database's write lock until the commit, so a check and the write it allows are one step.
+
+    SQLite: pysqlite runs reads outside a transaction and opens one only at the first write, so a
+    check-then-insert would race; BEGIN IMMEDIATE takes the single writer lock now (waiting up to the
+    busy timeout) and makes other writers wait until we commit. When this connection has already
+    written, it holds that lock already. PostgreSQL: nothing to do; constraints decide there (an
+    exclusion constraint for overlapping sessions).
+    """
+    connection = session.connection()
+    if connection.dialect.name != "sqlite":
+        return
+    if not connection.connection.driver_connection.in_transaction:
+        connection.exec_driver_sql("BEGIN IMMEDIATE")

@@ -167,3 +167,18 @@ class ApiToken(IdMixin, Base):
     revoked_at: Mapped[datetime | None]
 
     instrument: Mapped[Instrument] = relationship()
+
+
+class IdempotencyKey(IdMixin, Base):
+    """The first answer to an instrument PC's post that carried an Idempotency-Key, for its retries."""
+
+    __tablename__ = "idempotency_key"
+
+    instrument_id: Mapped[int] = mapped_column(sa.ForeignKey("instrument.id"))
+    key: Mapped[str] = mapped_column(sa.String(255))
+    request_hash: Mapped[str] = mapped_column(sa.String(64))
+    status: Mapped[int | None]
+    response: Mapped[str | None] = mapped_column(sa.Text)
+    created_at: Mapped[datetime] = mapped_column(default=utcnow)
+
+    __table_args__ = (sa.UniqueConstraint("instrument_id", "key"),)

@@ -13,6 +13,7 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
 from models.core.base import utcnow
+from models.core.database import hold_write_lock
 from models.core.errors import Invalid
 from models.core.settings import LabSettings, lab_date
 from models.doses.tables import Dosimeter
@@ -30,6 +31,9 @@ from models.surveys.tables import BypassPermit, SurveyTrigger
 _POWER_TOLERANCE = 1e-9
 
 # Free-text fields and how much of each is kept.
+# The PostgreSQL exclusion constraint behind the overlap rule (migration 0015).
+_OVERLAP_CONSTRAINT = "ex_instrument_session_no_overlap"
+
 _TEXT_FIELDS = {"purpose": 300, "configuration_change": 5000, "notes": 5000}
 
 # Fields copied from the checked values onto the session row.
@@ -72,6 +76,14 @@ def _overlapping(
     if exclude_id is not None:
         query = query.where(InstrumentSession.id != exclude_id)
     return session.scalar(query.order_by(InstrumentSession.started_at).limit(1))
+
+
+def _overlap_message(session: Session, instrument: Instrument, clash: InstrumentSession) -> str:
+    """The refusal for a session that would share time with `clash`."""
+    until = "still open" if clash.is_open else f"until {_fmt(clash.ended_at, session)}"
+    return (f"{instrument.name} already has a session by {clash.operator.name} from "
+            f"{_fmt(clash.started_at, session)} ({until}); sessions on one instrument "
+            "cannot overlap.")
 
 
 def _fmt(moment: datetime, session: Session) -> str:
@@ -193,11 +205,7 @@ def validate_session(
     if start is not None and "started_at" not in errors and "ended_at" not in errors:
         clash = _overlapping(session, instrument, start, end, exclude_id)
         if clash is not None:
-            until = "still open" if clash.is_open else f"until {_fmt(clash.ended_at, session)}"
-            errors["started_at"] = (
-                f"{instrument.name} already has a session by {clash.operator.name} from "
-                f"{_fmt(clash.started_at, session)} ({until}); sessions on one instrument "
-                "cannot overlap.")
+            errors["started_at"] = _overlap_message(session, instrument, clash)
     if not values.get("pre_use_checks_confirmed"):
         errors["pre_use_checks_confirmed"] = (
             "Confirm that you saw the warning light and the shutter indicators working.")
@@ -231,10 +239,28 @@ def _new_row(
         row.dosimeter_id = None
     permit = active_bypass_permit(session, instrument, values["started_at"])
     row.bypass_permit_id = permit.id if permit else None
-    session.add(row)
-    session.flush()
+    _insert_unless_overlapping(session, instrument, row)
     _ask_for_surveys(session, instrument, operator, row)
     return row
+
+
+def _insert_unless_overlapping(session: Session, instrument: Instrument, row: InstrumentSession) -> None:
+    """Insert a checked session; a writer that won a race meanwhile gets the ordinary refusal.
+
+    On PostgreSQL the exclusion constraint refuses the second of two overlapping rows (it waits for
+    the first to commit); the savepoint keeps the rest of the transaction usable for the message.
+    """
+    try:
+        with session.begin_nested():
+            session.add(row)
+            session.flush()
+    except sa.exc.IntegrityError as error:
+        if _OVERLAP_CONSTRAINT not in str(error.orig):
+            raise
+        clash = _overlapping(session, instrument, row.started_at, row.ended_at, None)
+        raise Invalid.one("started_at", _overlap_message(session, instrument, clash) if clash else
+                          f"{instrument.name} already has a session at that time; sessions on one "
+                          "instrument cannot overlap.") from None
 
 
 def _ask_for_surveys(session: Session, instrument: Instrument, operator: Person,
@@ -272,6 +298,7 @@ def open_session(
     """Start a session now (or at the given start), with no end yet."""
     now = now or utcnow()
     values = _opening(values, now)
+    hold_write_lock(session)
     validate_session(session, instrument, operator, values, now=now)
     return _new_row(session, instrument, operator, values, source)
 
@@ -305,6 +332,7 @@ def log_finished_session(
     *, source: EntrySource = EntrySource.FORM, now: datetime | None = None,
 ) -> InstrumentSession:
     """Write up a session after it ended; beam-on time defaults to the whole session."""
+    hold_write_lock(session)
     validate_finished(session, instrument, operator, values, now=now)
     return _new_row(session, instrument, operator, _finished(values), source)
 

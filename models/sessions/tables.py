@@ -47,6 +47,9 @@ class InstrumentSession(IdMixin, Base):
     instrument: Mapped[Instrument] = relationship()
     operator: Mapped[Person] = relationship()
 
+    # Sessions of one instrument never overlap: on PostgreSQL an exclusion constraint
+    # (ex_instrument_session_no_overlap, migration 0015; Alembic's comparison does not see it) and
+    # on SQLite BEGIN IMMEDIATE around session writes (models.core.database.hold_write_lock).
     __table_args__ = (
         sa.CheckConstraint("kv > 0", name="kv_positive"),
         sa.CheckConstraint("ma > 0", name="ma_positive"),

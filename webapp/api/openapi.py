@@ -79,6 +79,12 @@ _ERRORS = {"401": _problem("Missing, unknown or revoked token."),
            "422": _problem("Refused by a rule; nothing written."),
            "429": _problem("Too many requests from this token.")}
 _SESSION_REF = {"$ref": "#/components/schemas/Session"}
+_IDEMPOTENCY_KEY = {
+    "name": "Idempotency-Key", "in": "header", "required": False,
+    "schema": {"type": "string", "minLength": 1, "maxLength": 255},
+    "description": "A key chosen by the PC for this request (a UUID, say). A retry with the same key "
+                   "and the same body gets the first answer (header Idempotent-Replayed) and writes "
+                   "nothing; the same key with another body is refused (422). Refusals are not kept."}
 
 
 def document() -> dict:
@@ -100,17 +106,18 @@ def document() -> dict:
                         "responses": {"200": _json("Sessions", {"type": "object", "properties": {
                             "instrument": {"type": "string"}, "sessions": {"type": "array", "items": _SESSION_REF}}}),
                             **_ERRORS}},
-                "post": {"summary": "Open a session", "requestBody": _body("#/components/schemas/OpenSession"),
+                "post": {"summary": "Open a session", "parameters": [_IDEMPOTENCY_KEY], "requestBody": _body("#/components/schemas/OpenSession"),
                          "responses": {"201": _json("Opened", _SESSION_REF), "400": _problem("Not a JSON object."), **_ERRORS}},
             },
             "/sessions/finished": {
-                "post": {"summary": "Log a session that already ended",
+                "post": {"summary": "Log a session that already ended", "parameters": [_IDEMPOTENCY_KEY],
                          "requestBody": _body("#/components/schemas/FinishedSession"),
                          "responses": {"201": _json("Logged", _SESSION_REF), "400": _problem("Not a JSON object."), **_ERRORS}},
             },
             "/sessions/{session_id}/close": {
                 "post": {"summary": "End an open session",
-                         "parameters": [{"name": "session_id", "in": "path", "required": True, "schema": {"type": "integer"}}],
+                         "parameters": [{"name": "session_id", "in": "path", "required": True, "schema": {"type": "integer"}},
+                                        _IDEMPOTENCY_KEY],
                          "requestBody": _body("#/components/schemas/CloseSession"),
                          "responses": {"200": _json("Ended", _SESSION_REF), "404": _problem("No such session on this instrument."), **_ERRORS}},
             },

@@ -2,14 +2,16 @@
 from __future__ import annotations
 
 from datetime import datetime
+from functools import wraps
 
 import sqlalchemy as sa
-from flask import abort, g, jsonify, request
+from flask import Response, abort, g, json, jsonify, request
 from werkzeug.exceptions import HTTPException
 
 from models.audit.audit_ops import set_actor
 from models.core.errors import Invalid, errors_of
 from models.doses.tables import Dosimeter
+from models.instruments import idempotency_ops
 from models.instruments.token_ops import instrument_for_token, token_hash
 from models.people.person_ops import find_person
 from models.people.tables import Person
@@ -177,27 +179,56 @@ def as_json(entry: InstrumentSession) -> dict:
     }
 
 
+def idempotent(view):
+    """With an Idempotency-Key header, a retry gets the first answer instead of a second write."""
+    @wraps(view)
+    def run(*args, **kwargs):
+        key = request.headers.get(idempotency_ops.FIELD)
+        g.idempotency_claim = None
+        if key is None:
+            return view(*args, **kwargs)
+        digest = idempotency_ops.request_hash(request.method, request.path, request.get_data())
+        row = idempotency_ops.claim(db.session, g.instrument, key, digest)
+        if row.status is not None:
+            status, response = row.status, row.response
+            db.session.rollback()  # ends the read (and on SQLite releases the write lock)
+            return Response(response, status=status, mimetype="application/json",
+                            headers={"Idempotent-Replayed": "true"})
+        g.idempotency_claim = row
+        return view(*args, **kwargs)
+    return run
+
+
+def _answer(payload: dict, status: int):
+    """Commit the write together with the answer kept for its Idempotency-Key, and send it."""
+    if g.get("idempotency_claim") is not None:
+        idempotency_ops.settle(db.session, g.idempotency_claim, status, json.dumps(payload))
+    db.session.commit()
+    return jsonify(payload), status
+
+
 @v1.post("/sessions")
+@idempotent
 def open_():
     """Open a session on the token's instrument."""
     instrument, body = g.instrument, _body()
     operator, values = _validated(body, lambda op, v: validate_opening(db.session, instrument, op, v))
     entry = open_session(db.session, instrument, operator, values, source=EntrySource.API)
-    db.session.commit()
-    return jsonify(as_json(entry)), 201
+    return _answer(as_json(entry), 201)
 
 
 @v1.post("/sessions/finished")
+@idempotent
 def finished():
     """Log a session that already ended."""
     instrument, body = g.instrument, _body()
     operator, values = _validated(body, lambda op, v: validate_finished(db.session, instrument, op, v))
     entry = log_finished_session(db.session, instrument, operator, values, source=EntrySource.API)
-    db.session.commit()
-    return jsonify(as_json(entry)), 201
+    return _answer(as_json(entry), 201)
 
 
 @v1.post("/sessions/<int:session_id>/close")
+@idempotent
 def close(session_id: int):
     """End an open session of the token's instrument."""
     entry = db.session.get(InstrumentSession, session_id)
@@ -210,8 +241,7 @@ def close(session_id: int):
     set_actor(db.session, entry.operator_id)
     close_session(db.session, entry, ended_at=values["ended_at"],
                   beam_on_minutes=values["beam_on_minutes"])
-    db.session.commit()
-    return jsonify(as_json(entry))
+    return _answer(as_json(entry), 200)
 
 
 @v1.get("/sessions")

@@ -22,8 +22,6 @@ from models.sessions.session_ops import (
     open_session,
     open_sessions_of,
     usage,
-    validate_finished,
-    validate_opening,
 )
 from models.sessions.tables import InstrumentSession
 from webapp.access import can_see_dose_of, roles_required
@@ -70,9 +68,8 @@ def start(instrument_id: int):
     if not form.is_submitted():
         form.dosimeter_worn.data = True
     now = utcnow()
-    if validate_with(form, lambda f: validate_opening(db.session, instrument, current_user,
-                                                   f.values(), now=now)):
-        open_session(db.session, instrument, current_user, form.values(), now=now)
+    # The rules run under the write lock, so another PC cannot take the slot between check and write.
+    if validate_with(form, lambda f: open_session(db.session, instrument, current_user, f.values(), now=now)):
         db.session.commit()
         flash(f"Session started on {instrument.name}.", "info")
         return redirect(url_for("home.index"))
@@ -110,12 +107,12 @@ def log():
     form.instrument.choices = [("", "—")] + [(str(i.id), i.name) for i in active_instruments(db.session)]
     instrument = db.session.get(Instrument, optional_id(form.instrument.data) or 0)
     now = utcnow()
-    if validate_with(form, lambda f: validate_finished(db.session, instrument, current_user,
-                                                    f.values(), now=now)):
-        entry = log_finished_session(db.session, instrument, current_user, form.values(), now=now)
+    logged = validate_with(form, lambda f: log_finished_session(db.session, instrument, current_user,
+                                                                 f.values(), now=now))
+    if logged:
         db.session.commit()
         flash(f"Session on {instrument.name} logged.", "info")
-        return redirect(url_for("sessions.show", session_id=entry.id))
+        return redirect(url_for("sessions.show", session_id=logged.value.id))
     return render_template("sessions/log.html", form=form)
 
 
