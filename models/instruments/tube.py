@@ -78,7 +78,7 @@ def _settings(kv, ma, minutes=0.0) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return kv, ma, minutes
 
 
-def _anode(element: str) -> str:
+def anode_symbol(element: str) -> str:
     """Return the anode's element symbol in canonical case, or refuse an unsupported one."""
     symbol = str(element).strip().capitalize()
     if symbol not in SUPPORTED_ANODES:
@@ -132,7 +132,7 @@ def _lines(symbol: str) -> tuple[Line, ...]:
 
 def anode_lines(element: str) -> tuple[Line, ...]:
     """The anode's K-alpha1, K-alpha2 and K-beta1 lines (name, keV, Angstrom)."""
-    return _lines(_anode(element))
+    return _lines(anode_symbol(element))
 
 
 @cache
@@ -143,13 +143,13 @@ def _edge_kev(symbol: str, edge: str) -> float:
 
 def k_edge_kev(element: str) -> float:
     """K absorption edge of the anode element, in keV."""
-    symbol = _anode(element)
+    symbol = anode_symbol(element)
     return _PUBLISHED_K_EDGES_KEV.get(symbol) or _edge_kev(symbol, "K")
 
 
 def l3_edge_kev(element: str) -> float:
     """L3 absorption edge of the anode element, in keV (what a W tube below 69.5 kV excites)."""
-    return _edge_kev(_anode(element), "L3")
+    return _edge_kev(anode_symbol(element), "L3")
 
 
 def k_lines_excited(kv: float, element: str) -> bool:
@@ -162,7 +162,7 @@ def k_lines_note(kv: float, element: str) -> str | None:
     """A short session note when the anode's K lines are not excited, else None."""
     if k_lines_excited(kv, element):
         return None
-    symbol = _anode(element)
+    symbol = anode_symbol(element)
     return (
         f"{kv:g} kV does not exceed the {symbol} K edge ({k_edge_kev(symbol):g} keV): "
         f"no {symbol} K lines"
