@@ -6,13 +6,13 @@ from flask_login import current_user, login_required
 
 from models.core.base import utcnow
 from models.core.errors import Invalid
-from models.core.units import RATE_UNITS
+from models.core.units import RATE_UNITS, unit_source, usv_h_per_unit
 from models.instruments.authorisation_ops import authorised_for, instruments_for
 from models.instruments.tables import Instrument
 from models.people.tables import Role
+from models.surveys.level_sources import FAMILY_LABELS, family_of, level_sources
 from models.surveys.meter_ops import active_meters, calibration_on
 from models.surveys.survey_ops import (
-    LEVEL_SOURCES,
     SurveyInput,
     failing_points,
     off_reference_distance,
@@ -45,6 +45,7 @@ def survey(survey_id: int):
     """One survey with its points."""
     survey = db.session.get(Survey, survey_id) or abort(404)
     return render_template("surveys/survey.html", survey=survey, units=RATE_UNITS,
+                           conversions=_conversions(survey), level_sources=level_sources(source_family()),
                            failing=failing_points(survey), off_distance=off_reference_distance,
                            any_off_distance=any(off_reference_distance(p.distance_cm)
                                                 for p in survey.points))
@@ -74,8 +75,33 @@ def new_survey():
                                 f"{current_user.name}.\n{url_for('surveys.survey', survey_id=survey.id, _external=True)}")
             flash(f"Survey failed: {survey.instrument.name} is now out of service.", "error")
         return redirect(url_for("surveys.survey", survey_id=survey.id))
-    return render_template("surveys/survey_new.html", form=form, level_sources=LEVEL_SOURCES,
-                           units=RATE_UNITS)
+    return render_template("surveys/survey_new.html", form=form,
+                           level_sources=level_sources(source_family()), units=RATE_UNITS,
+                           family_label=FAMILY_LABELS.get(source_family()), mr_factors=_mr_factors())
+
+
+def source_family() -> str | None:
+    """The family of sources the lab works under: that of its limit set's preset, if any."""
+    limit_set = settings().limit_set
+    return family_of(limit_set.preset_key if limit_set is not None else None)
+
+
+def _mr_factors() -> list[tuple[float, float]]:
+    """uSv/h per mR/h at a few tube voltages, for the form's note."""
+    return [(kv, usv_h_per_unit("mR/h", kv)) for kv in (30.0, 40.0, 50.0, 60.0)]
+
+
+def _conversions(survey: Survey) -> list[tuple[str, float, str]]:
+    """Each unit other than uSv/h the survey's points were entered in: label, factor used, source."""
+    seen = {}
+    for p in survey.points:
+        if p.entered_unit != "uSv/h" and p.entered_unit not in seen:
+            current = p.entered_unit in RATE_UNITS and abs(
+                usv_h_per_unit(p.entered_unit, survey.kv) - p.usv_h_per_unit) < 1e-9
+            source = (unit_source(p.entered_unit, survey.kv) if current
+                      else "the factor in use when this survey was recorded")
+            seen[p.entered_unit] = (p.entered_unit, p.usv_h_per_unit, source)
+    return list(seen.values())
 
 
 def _meter_label(meter: SurveyMeter, calibration) -> str:
