@@ -15,8 +15,9 @@ values at 50 and 100 kV and within a few per cent below at 70 kV (tests/models/t
 """
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
-from functools import cache
+from functools import lru_cache
 
 import numpy as np
 import xraydb
@@ -83,7 +84,7 @@ def dose_weights(spectrum: Spectrum) -> np.ndarray:
     return spectrum.photons * air_kerma_per_photon(energy) * h10_per_ka(energy)
 
 
-@cache
+@lru_cache(maxsize=256)
 def _tube_weights(kv: float, anode: str, lines: bool) -> np.ndarray:
     """Dose weights of the tube's output; cached because xraydb is slow to ask."""
     return dose_weights(tube_spectrum(kv, anode, lines=lines))
@@ -95,7 +96,7 @@ def mass_attenuation(key: str, energy_kev) -> np.ndarray:
     return xraydb.material_mu(m.xraydb_name, np.asarray(energy_kev) * 1000.0, density=m.density) / m.density
 
 
-@cache
+@lru_cache(maxsize=256)
 def _mu_cached(key: str, kv: float) -> np.ndarray:
     """Linear attenuation coefficients of a material on the grid of a kV's spectrum, 1/cm."""
     return mass_attenuation(key, energy_grid(kv)) * MATERIALS[key].density
@@ -123,44 +124,60 @@ def transmission(weights: np.ndarray, mu: np.ndarray, thickness_cm) -> np.ndarra
     return np.exp(-np.outer(x, mu)) @ weights / weights.sum()
 
 
-def thickness_for(weights: np.ndarray, mu: np.ndarray, fraction: float) -> float:
-    """The thickness (cm) whose transmitted dose fraction is `fraction`; 0 when fraction >= 1."""
+def _solve(transmit: Callable[[float], float], fraction: float) -> float:
+    """The thickness (cm) at which a falling transmission reaches `fraction`; 0 when fraction >= 1."""
     if fraction >= 1:
         return 0.0
     if not fraction > 0:
         raise ValueError("the fraction to reach must be above zero")
     low, high = 0.0, MAX_THICKNESS_CM
-    if transmission(weights, mu, high)[0] > fraction:
+    if transmit(high) > fraction:
         return float("inf")
-    # Transmission falls strictly with thickness: bisect to well below a micrometre.
-    for _ in range(60):
+    # Transmission falls strictly with thickness: 50 halvings of 10 m end well below a micrometre.
+    for _ in range(50):
         middle = (low + high) / 2
-        low, high = (middle, high) if transmission(weights, mu, middle)[0] > fraction else (low, middle)
+        low, high = (middle, high) if transmit(middle) > fraction else (low, middle)
     return high
+
+
+def thickness_for(weights: np.ndarray, mu: np.ndarray, fraction: float) -> float:
+    """The thickness (cm) whose transmitted dose fraction is `fraction`; 0 when fraction >= 1."""
+    return _solve(lambda x: transmission(weights, mu, x)[0], fraction)
 
 
 def hardened_weights(kv: float, anode: str, key: str, lines: bool = True,
                      hardening: float = HARDENING) -> np.ndarray:
     """Dose weights of the beam after the same material has cut it `hardening`-fold."""
-    weights, mu = _tube_weights(float(kv), anode_symbol(anode), lines), mu_per_cm(key, kv)
+    material(key)
+    return _hardened(float(kv), anode_symbol(anode), key, lines, float(hardening))
+
+
+@lru_cache(maxsize=256)
+def _hardened(kv: float, anode: str, key: str, lines: bool, hardening: float) -> np.ndarray:
+    """hardened_weights, cached: every thickness asked for starts from the same hardened beam."""
+    weights, mu = _tube_weights(kv, anode, lines), mu_per_cm(key, kv)
     depth = thickness_for(weights, mu, 1.0 / hardening)
     return weights * np.exp(-mu * depth)
 
 
+def beam_transmission(kv: float, anode: str, key: str, thickness_cm) -> np.ndarray:
+    """Dose fraction of the hardened beam through added thicknesses: the larger of with and without
+    the K lines, whose strength is only assumed."""
+    mu = mu_per_cm(key, kv)
+    return np.maximum(*(transmission(hardened_weights(kv, anode, key, lines), mu, thickness_cm)
+                        for lines in (True, False)))
+
+
 def added_thickness_cm(kv: float, anode: str, key: str, reduction: float) -> float:
-    """Added thickness (cm) that cuts a hardened beam's dose rate `reduction`-fold, lines or not."""
+    """Added thickness (cm) that cuts the hardened beam's dose rate `reduction`-fold."""
     if reduction <= 1:
         return 0.0
-    mu = mu_per_cm(key, kv)
-    return max(thickness_for(hardened_weights(kv, anode, key, lines), mu, 1.0 / reduction)
-               for lines in (True, False))
+    return _solve(lambda x: beam_transmission(kv, anode, key, x)[0], 1.0 / reduction)
 
 
 def value_layers_cm(kv: float, anode: str, key: str) -> tuple[float, float]:
     """Half- and tenth-value layers (cm) of the hardened beam in a material."""
-    mu = mu_per_cm(key, kv)
-    weights = hardened_weights(kv, anode, key)
-    return thickness_for(weights, mu, 0.5), thickness_for(weights, mu, 0.1)
+    return added_thickness_cm(kv, anode, key, 2.0), added_thickness_cm(kv, anode, key, 10.0)
 
 
 def inverse_square(rate: float, from_cm: float, to_cm: float) -> float:
