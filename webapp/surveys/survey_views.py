@@ -12,6 +12,7 @@ from models.instruments.tables import Instrument
 from models.people.tables import Role
 from models.surveys.level_sources import FAMILY_LABELS, family_of, level_sources
 from models.surveys.meter_ops import active_meters, calibration_on
+from models.surveys.shielding import ASSUMPTIONS
 from models.surveys.survey_ops import (
     SurveyInput,
     failing_points,
@@ -27,6 +28,7 @@ from webapp.extensions import db
 from webapp.formatting import lab_today, settings
 from webapp.forms import validate_with
 from webapp.mail import tell_safety_officer
+from webapp.shielding.setup import from_point, run
 from webapp.surveys import bp
 from webapp.surveys.forms import SurveyForm, utc
 
@@ -46,6 +48,7 @@ def survey(survey_id: int):
     survey = db.session.get(Survey, survey_id) or abort(404)
     return render_template("surveys/survey.html", survey=survey, units=RATE_UNITS,
                            conversions=_conversions(survey), level_sources=level_sources(source_family()),
+                           what_it_takes=what_it_takes(survey), assumptions=ASSUMPTIONS,
                            failing=failing_points(survey), off_distance=off_reference_distance,
                            any_off_distance=any(off_reference_distance(p.distance_cm)
                                                 for p in survey.points))
@@ -78,6 +81,17 @@ def new_survey():
     return render_template("surveys/survey_new.html", form=form,
                            level_sources=level_sources(source_family()), units=RATE_UNITS,
                            family_label=FAMILY_LABELS.get(source_family()), mr_factors=_mr_factors())
+
+
+def what_it_takes(survey: Survey) -> list[tuple]:
+    """For each point over its level: the shielding estimate, or why there is none."""
+    rows = []
+    for point in failing_points(survey):
+        try:
+            rows.append((point, run(from_point(point)), None))
+        except ValueError as error:
+            rows.append((point, None, str(error)))
+    return rows
 
 
 def source_family() -> str | None:
