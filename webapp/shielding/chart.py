@@ -42,3 +42,13 @@ def transmission_chart_svg(estimate: Estimate) -> bytes:
         buffer = io.BytesIO()
         figure.savefig(buffer, format="svg", metadata={"Date": None})
     return buffer.getvalue()
+
+
+def no_chart_svg(text: str) -> bytes:
+    """A small SVG that says, in words, why there is no chart."""
+    with matplotlib.rc_context({**STYLE, "svg.hashsalt": "shielding-chart"}):
+        figure = Figure(figsize=(6, 0.6))
+        figure.text(0.01, 0.5, text, va="center", color=LIMIT, fontsize=10)
+        buffer = io.BytesIO()
+        figure.savefig(buffer, format="svg", metadata={"Date": None})
+    return buffer.getvalue()

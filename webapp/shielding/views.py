@@ -9,7 +9,7 @@ from models.surveys.tables import SurveyPoint
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.shielding import bp
-from webapp.shielding.chart import transmission_chart_svg
+from webapp.shielding.chart import no_chart_svg, transmission_chart_svg
 from webapp.shielding.forms import EstimateForm
 from webapp.shielding.setup import INVERSE_SQUARE_NOTE, from_point, run
 
@@ -37,13 +37,14 @@ def estimate():
 def chart():
     """The transmission chart of the estimate the query describes."""
     form = EstimateForm(request.args)
-    if not form.validate():
-        abort(400)
     try:
-        result = run(form.setup())
-    except ValueError:
-        abort(400)
-    response = Response(transmission_chart_svg(result.estimate), mimetype="image/svg+xml")
+        if not form.validate():
+            raise ValueError("the values above are not complete")
+        svg = transmission_chart_svg(run(form.setup()).estimate)
+    except ValueError as error:
+        # An image cannot show a field's message: it says in words why there is no chart.
+        svg = no_chart_svg(f"No chart: {error}.")
+    response = Response(svg, mimetype="image/svg+xml")
     response.headers["Cache-Control"] = "private, max-age=300"
     return response
 
