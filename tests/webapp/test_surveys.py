@@ -274,3 +274,19 @@ def test_status_command_lists_what_needs_doing(app, rso, operator, session, make
     data = json.loads(result.output)
     assert data["meters"][0]["serial"] == "OLD-2" and data["meters"][0]["usable"] is False
     assert data["permits"][0]["state"] == "not_closed" and data["permits"][0]["instrument"] == "XRF"
+
+
+def test_survey_page_cites_level_sources_of_the_labs_own_family(rso, login, session, make_instrument,
+                                                                make_meter, use_limit_set):
+    instrument, meter = make_instrument(), make_meter()
+    client = login(rso)
+    assert client.post("/surveys/new", data=_survey_form(
+        instrument, meter, [("Door", "0.5", "surface")])).status_code == 302
+    survey_id = session.scalar(sa.select(Survey.id))
+    use_limit_set("euratom2013")
+    page = client.get(f"/surveys/{survey_id}").data.decode()
+    assert "set by your local rules" in page and "227a" not in page and "ANSI N43.2" not in page
+    use_limit_set("cfr10_20")
+    page = client.get(f"/surveys/{survey_id}").data.decode()
+    # 25 Pa. Code 227a.13(b) and ANSI N43.2 (as quoted in DOE-HDBK-1109-97) for a lab under US rules.
+    assert "25 Pa. Code 227a.13(b)" in page and "ANSI N43.2" in page
