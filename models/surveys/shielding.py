@@ -52,6 +52,8 @@ MATERIALS = {m.key: m for m in (
     Material("PC", "Polycarbonate", "C16H14O3", 1.20, "C16H14O3, 1.20 g/cm³ (xraydb)"),
 )}
 
+# The model's range: below 5 kV the window leaves almost nothing; analytical tubes stay below 160 kV.
+MIN_KV, MAX_KV = 5.0, 160.0
 HARDENING = 1e6
 MAX_THICKNESS_CM = 1000.0
 CLOSE_CM = 30.0
@@ -215,8 +217,8 @@ class Estimate:
 def estimate(anode: str, kv: float, reading_usv_h: float, target_usv_h: float, margin: float = 1.0,
              keys: tuple[str, ...] | None = None) -> Estimate:
     """Per material: HVL, TVL and the added thickness bringing the reading to target / margin."""
-    if not 0 < kv <= 160:
-        raise ValueError("tube voltage must be above 0 and at most 160 kV")
+    if not MIN_KV <= kv <= MAX_KV:
+        raise ValueError(f"tube voltage must be between {MIN_KV:g} and {MAX_KV:g} kV")
     if not reading_usv_h >= 0:
         raise ValueError("the reading cannot be negative")
     if not target_usv_h > 0:

@@ -136,6 +136,7 @@ def test_inverse_square(rate, from_cm, to_cm, expected):
     ("kwargs", "message"),
     [
         ({"kv": 0.0}, "tube voltage"),
+        ({"kv": 4.9}, "tube voltage"),
         ({"kv": 500.0}, "tube voltage"),
         ({"kv": float("nan")}, "tube voltage"),
         ({"reading_usv_h": -1.0}, "reading"),

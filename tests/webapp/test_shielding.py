@@ -67,7 +67,8 @@ def test_a_reading_below_the_target_needs_nothing(login, rso):
     ("query", "field", "message"),
     [
         ("kv=abc", "kv", "Enter a number."),
-        ("kv=500", "kv", "Between 0.1 and 160 kV."),
+        ("kv=500", "kv", "Between 5 and 160 kV"),
+        ("kv=2", "kv", "Between 5 and 160 kV"),
         ("kv=nan", "kv", "Enter a number."),
         ("reading=inf", "reading", "Enter a number."),
         ("reading=-1", "reading", "Zero or more"),

@@ -8,7 +8,7 @@ import click
 
 from models.core.units import RATE_UNITS
 from models.instruments.tube import SUPPORTED_ANODES
-from models.surveys.shielding import MATERIALS
+from models.surveys.shielding import MATERIALS, MAX_KV, MIN_KV
 from models.surveys.tables import SurveyPoint
 from webapp.extensions import db
 from webapp.shielding import bp
@@ -18,7 +18,7 @@ from webapp.shielding.setup import INVERSE_SQUARE_NOTE, SetUp, as_dict, from_poi
 @bp.cli.command("estimate")
 @click.option("--point", "point_id", type=int, help="A survey point's id: its net reading, settings and level.")
 @click.option("--anode", type=click.Choice(SUPPORTED_ANODES, case_sensitive=False))
-@click.option("--kv", type=click.FloatRange(0, 160, min_open=True), help="Tube voltage, kV.")
+@click.option("--kv", type=click.FloatRange(MIN_KV, MAX_KV), help="Tube voltage, kV.")
 @click.option("--reading", type=click.FloatRange(0), help="Net reading at the point.")
 @click.option("--unit", type=click.Choice(list(RATE_UNITS)), default="uSv/h", show_default=True)
 @click.option("--target", type=click.FloatRange(0, min_open=True), help="Target, µSv/h (a survey point: its level).")

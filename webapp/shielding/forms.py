@@ -11,7 +11,7 @@ from wtforms.widgets import CheckboxInput, ListWidget
 
 from models.core.units import RATE_UNITS
 from models.instruments.tube import SUPPORTED_ANODES
-from models.surveys.shielding import MATERIALS
+from models.surveys.shielding import MATERIALS, MAX_KV, MIN_KV
 from webapp.shielding.setup import SetUp
 
 NUMBER = "Enter a number."
@@ -40,8 +40,8 @@ class EstimateForm(FlaskForm):
         csrf = False  # read-only page, sent with GET
 
     anode = SelectField("Anode", choices=[(a, a) for a in SUPPORTED_ANODES])
-    kv = Number("Tube voltage (kV)", [InputRequired(NUMBER), NumberRange(min=0.1, max=160,
-                    message="Between 0.1 and 160 kV.")])
+    kv = Number("Tube voltage (kV)", [InputRequired(NUMBER), NumberRange(min=MIN_KV, max=MAX_KV,
+                message=f"Between {MIN_KV:g} and {MAX_KV:g} kV (the model's range).")])
     reading = Number("Net reading", [InputRequired(NUMBER), NumberRange(min=0, max=1e7,
                          message="Zero or more, at most 10,000,000.")])
     unit = SelectField("Unit", choices=[(u.code, u.label) for u in RATE_UNITS.values()])
