@@ -20,8 +20,9 @@ AIR_KERMA_UGY_PER_MR = COULOMB_PER_KG_PER_ROENTGEN * JOULE_PER_COULOMB_IN_AIR * 
 H10_PER_KA_SOURCE = "ICRU Report 57 Table A.21 / ISO 4037-3"
 H10_PER_KA = ((10.0, 0.008), (15.0, 0.26), (20.0, 0.61), (30.0, 1.10), (40.0, 1.47), (50.0, 1.67),
               (60.0, 1.74), (80.0, 1.72), (100.0, 1.65))
-# The rules quote their action levels in both units at 10 uSv/h per mR/h (25 uSv/h = 2.5 mR/h,
-# 25 Pa. Code 227a.13(b)), so a reading over 2.5 mR/h must never pass as under 25 uSv/h.
+# For the same tube housing at 5 cm, Tennessee 0400-20-06-.07(1)(a) states 2.5 mR in 1 hour and
+# 25 Pa. Code 227a.13(b) 2.5 mrem (0.025 mSv): the rules read 1 mR as 10 uSv, so a reading over
+# 2.5 mR/h must never pass as under the 25 uSv/h housing level.
 RULES_USV_PER_MR = 10.0
 
 

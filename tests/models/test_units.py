@@ -16,8 +16,8 @@ from models.core import units
         (1.0, "mR/h", 45.0, 14.64),  # 45 kV reaches the 50 keV row: 8.764 x 1.67
         (1.0, "mR/h", 60.0, 15.25),  # 8.764 x 1.74 (60 keV, the peak)
         (1.0, "mR/h", 100.0, 15.25),  # past the peak the 60 keV value stands: 8.764 x 1.74
-        # 8.764 x 1.10 (30 keV) = 9.64 is below the rules' 10 uSv/h per mR/h (25 Pa. Code 227a.13(b)
-        # quotes 2.5 mrem in an hour as 0.025 mSv), so 10 stands.
+        # 8.764 x 1.10 (30 keV) = 9.64 is below the rules' 10 uSv per mR (Tennessee 0400-20-06-.07(1)(a)
+        # states 2.5 mR in 1 hour where 25 Pa. Code 227a.13(b) states 2.5 mrem, 0.025 mSv), so 10 stands.
         (2.5, "mR/h", 25.0, 25.0),
         (0.0, "mR/h", 60.0, 0.0),
     ],
