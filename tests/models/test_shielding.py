@@ -76,9 +76,10 @@ def test_lead_value_layers_near_the_broad_beam_table(kv):
 @pytest.mark.parametrize(
     ("kv", "key", "mu_over_rho_at_kvp", "density"),
     [
-        # The table above lists no steel value below 200 kV, so steel is held to worked bounds instead:
-        # iron attenuates less at higher energy (no edge above 7.1 keV), so no beam up to E0 has a
-        # half-value layer above the monoenergetic one at E0: ln 2 / (mu/rho x rho).
+        # The copy of the handbook table at hand does not show which voltages its steel column starts
+        # at, so steel is held to worked narrow-beam bounds instead: iron attenuates less at higher
+        # energy (no edge above 7.1 keV), so no beam up to E0 has a half-value layer above the
+        # monoenergetic one at E0, ln 2 / (mu/rho x rho).
         (50.0, "Fe", 1.958, 7.85),  # NIST, iron, 50 keV (from memory): 0.693 / 15.37 = 0.451 mm
         (100.0, "Fe", 0.3717, 7.85),  # NIST, iron, 100 keV (from memory): 0.693 / 2.918 = 2.375 mm
         # Lead is least attenuating just below its K edge (88.0 keV): NIST 1.910 cm2/g (from memory),
