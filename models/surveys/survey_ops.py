@@ -9,7 +9,7 @@ from sqlalchemy.orm import Session
 
 from models.core.base import utcnow
 from models.core.errors import Invalid
-from models.core.units import RATE_UNITS, usv_h_per_unit
+from models.core.units import RATE_UNITS, unit_source, usv_h_per_unit
 from models.instruments.instrument_ops import set_out_of_service
 from models.instruments.tables import Instrument
 from models.people.tables import Person
@@ -177,6 +177,19 @@ def _point(instrument: Instrument, meter: SurveyMeter, unit: str, factor: float,
                        net_usv_h=net_rate(reading, background, meter.correction_factor),
                        entered_unit=unit, usv_h_per_unit=factor, level=p.level,
                        action_level_usv_h=action_level(instrument, p.level))
+
+
+def unit_conversions(survey: Survey) -> list[tuple[str, float, str]]:
+    """Each unit other than uSv/h the survey's points were entered in: code, factor used, its source."""
+    seen = {}
+    for p in survey.points:
+        if p.entered_unit != "uSv/h" and p.entered_unit not in seen:
+            current = p.entered_unit in RATE_UNITS and abs(
+                usv_h_per_unit(p.entered_unit, survey.kv) - p.usv_h_per_unit) < 1e-9
+            source = (unit_source(p.entered_unit, survey.kv) if current
+                      else "the factor in use when this survey was recorded")
+            seen[p.entered_unit] = (p.entered_unit, p.usv_h_per_unit, source)
+    return list(seen.values())
 
 
 def failing_points(survey: Survey) -> list[SurveyPoint]:

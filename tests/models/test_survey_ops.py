@@ -20,8 +20,9 @@ from models.surveys.survey_ops import (
     open_survey_tasks,
     raise_survey_task,
     record_survey,
+    unit_conversions,
 )
-from models.surveys.tables import PointLevel, Survey, SurveyTask, SurveyTrigger
+from models.surveys.tables import PointLevel, Survey, SurveyPoint, SurveyTask, SurveyTrigger
 
 NOW = datetime.now(UTC)
 
@@ -158,3 +159,16 @@ def test_raise_survey_task_needs_a_reason(session, make_instrument):
     with pytest.raises(Invalid):
         raise_survey_task(session, make_instrument(), SurveyTrigger.DOSE_RISE, "  ")
     assert session.scalar(sa.select(sa.func.count()).select_from(SurveyTask)) == 0
+
+
+def test_unit_conversions_name_the_factor_each_point_was_stored_at():
+    survey = Survey(kv=50.0, points=[
+        SurveyPoint(entered_unit="uSv/h", usv_h_per_unit=1.0),
+        # Stored before the H*(10) factor, at the old 10 uSv/h per mR/h.
+        SurveyPoint(entered_unit="mR/h", usv_h_per_unit=10.0),
+        SurveyPoint(entered_unit="mrem/h", usv_h_per_unit=10.0),
+    ])
+    (mr, mr_factor, mr_source), (mrem, mrem_factor, mrem_source) = unit_conversions(survey)
+    assert (mr, mr_factor, mr_source) == ("mR/h", 10.0, "the factor in use when this survey was recorded")
+    # 1 rem = 0.01 Sv (10 CFR 20.1004): 10 uSv/h per mrem/h, the factor in force, with its source.
+    assert (mrem, mrem_factor) == ("mrem/h", 10.0) and "10 CFR 20.1004" in mrem_source

@@ -66,6 +66,17 @@ def run(setup: SetUp) -> Result:
     return Result(setup, reading, rate, tuple(steps), result, close)
 
 
+def over_level_estimates(points: list[SurveyPoint]) -> list[tuple[SurveyPoint, Result | None, str | None]]:
+    """For each point over its level: the estimate, or why there is none (an anode not modelled)."""
+    rows = []
+    for point in points:
+        try:
+            rows.append((point, run(from_point(point)), None))
+        except ValueError as error:
+            rows.append((point, None, str(error)))
+    return rows
+
+
 def as_dict(result: Result) -> dict:
     """The result for scripts: thicknesses in mm, null where beyond 10 m of the material."""
     e = result.estimate

@@ -6,7 +6,7 @@ from flask_login import current_user, login_required
 
 from models.core.base import utcnow
 from models.core.errors import Invalid
-from models.core.units import RATE_UNITS, unit_source, usv_h_per_unit
+from models.core.units import RATE_UNITS, usv_h_per_unit
 from models.instruments.authorisation_ops import authorised_for, instruments_for
 from models.instruments.tables import Instrument
 from models.people.tables import Role
@@ -20,6 +20,7 @@ from models.surveys.survey_ops import (
     open_survey_tasks,
     record_survey,
     surveys_of,
+    unit_conversions,
     validate_survey,
 )
 from models.surveys.tables import Survey, SurveyMeter, SurveyTrigger
@@ -28,7 +29,7 @@ from webapp.extensions import db
 from webapp.formatting import lab_today, settings
 from webapp.forms import validate_with
 from webapp.mail import tell_safety_officer
-from webapp.shielding.setup import from_point, run
+from webapp.shielding.setup import over_level_estimates
 from webapp.surveys import bp
 from webapp.surveys.forms import SurveyForm, utc
 
@@ -47,8 +48,8 @@ def survey(survey_id: int):
     """One survey with its points."""
     survey = db.session.get(Survey, survey_id) or abort(404)
     return render_template("surveys/survey.html", survey=survey, units=RATE_UNITS,
-                           conversions=_conversions(survey), level_sources=level_sources(source_family()),
-                           what_it_takes=what_it_takes(survey), assumptions=ASSUMPTIONS,
+                           conversions=unit_conversions(survey), level_sources=level_sources(source_family()),
+                           what_it_takes=over_level_estimates(failing_points(survey)), assumptions=ASSUMPTIONS,
                            failing=failing_points(survey), off_distance=off_reference_distance,
                            any_off_distance=any(off_reference_distance(p.distance_cm)
                                                 for p in survey.points))
@@ -83,17 +84,6 @@ def new_survey():
                            family_label=FAMILY_LABELS.get(source_family()), mr_factors=_mr_factors())
 
 
-def what_it_takes(survey: Survey) -> list[tuple]:
-    """For each point over its level: the shielding estimate, or why there is none."""
-    rows = []
-    for point in failing_points(survey):
-        try:
-            rows.append((point, run(from_point(point)), None))
-        except ValueError as error:
-            rows.append((point, None, str(error)))
-    return rows
-
-
 def source_family() -> str | None:
     """The family of sources the lab works under: that of its limit set's preset, if any."""
     limit_set = settings().limit_set
@@ -103,19 +93,6 @@ def source_family() -> str | None:
 def _mr_factors() -> list[tuple[float, float]]:
     """uSv/h per mR/h at a few tube voltages, for the form's note."""
     return [(kv, usv_h_per_unit("mR/h", kv)) for kv in (30.0, 40.0, 50.0, 60.0)]
-
-
-def _conversions(survey: Survey) -> list[tuple[str, float, str]]:
-    """Each unit other than uSv/h the survey's points were entered in: label, factor used, source."""
-    seen = {}
-    for p in survey.points:
-        if p.entered_unit != "uSv/h" and p.entered_unit not in seen:
-            current = p.entered_unit in RATE_UNITS and abs(
-                usv_h_per_unit(p.entered_unit, survey.kv) - p.usv_h_per_unit) < 1e-9
-            source = (unit_source(p.entered_unit, survey.kv) if current
-                      else "the factor in use when this survey was recorded")
-            seen[p.entered_unit] = (p.entered_unit, p.usv_h_per_unit, source)
-    return list(seen.values())
 
 
 def _meter_label(meter: SurveyMeter, calibration) -> str:
