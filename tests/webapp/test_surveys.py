@@ -290,3 +290,12 @@ def test_survey_page_cites_level_sources_of_the_labs_own_family(rso, login, sess
     page = client.get(f"/surveys/{survey_id}").data.decode()
     # 25 Pa. Code 227a.13(b) and ANSI N43.2 (as quoted in DOE-HDBK-1109-97) for a lab under US rules.
     assert "25 Pa. Code 227a.13(b)" in page and "ANSI N43.2" in page
+
+
+def test_instrument_page_shows_its_levels_with_the_labs_sources(rso, login, make_instrument, use_limit_set):
+    instrument = make_instrument()
+    use_limit_set("irr17")
+    page = login(rso).get(f"/instruments/{instrument.id}").data.decode()
+    # The default levels, 2.5 and 25 uSv/h at 5 cm; under UK IRR17 the logbook holds no source for them.
+    assert "Outer surface 2.5 (set by your local rules" in page and "Tube housing 25 (set by your" in page
+    assert "227a" not in page.split("Action levels")[1].split("</p>")[0]

@@ -10,7 +10,7 @@ from models.core.units import RATE_UNITS, usv_h_per_unit
 from models.instruments.authorisation_ops import authorised_for, instruments_for
 from models.instruments.tables import Instrument
 from models.people.tables import Role
-from models.surveys.level_sources import FAMILY_LABELS, family_of, level_sources
+from models.surveys.level_sources import FAMILY_LABELS, level_sources
 from models.surveys.meter_ops import active_meters, calibration_on
 from models.surveys.shielding import ASSUMPTIONS
 from models.surveys.survey_ops import (
@@ -32,6 +32,7 @@ from webapp.mail import tell_safety_officer
 from webapp.shielding.setup import over_level_estimates
 from webapp.surveys import bp
 from webapp.surveys.forms import SurveyForm, utc
+from webapp.surveys.sources import source_family
 
 
 @bp.route("/surveys/")
@@ -82,12 +83,6 @@ def new_survey():
     return render_template("surveys/survey_new.html", form=form,
                            level_sources=level_sources(source_family()), units=RATE_UNITS,
                            family_label=FAMILY_LABELS.get(source_family()), mr_factors=_mr_factors())
-
-
-def source_family() -> str | None:
-    """The family of sources the lab works under: that of its limit set's preset, if any."""
-    limit_set = settings().limit_set
-    return family_of(limit_set.preset_key if limit_set is not None else None)
 
 
 def _mr_factors() -> list[tuple[float, float]]:
