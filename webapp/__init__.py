@@ -25,6 +25,7 @@ BLUEPRINTS = (
     "webapp.api",
     "webapp.checks",
     "webapp.surveys",
+    "webapp.shielding",
     "webapp.due",
     "webapp.doses",
     "webapp.exposure",

@@ -49,7 +49,8 @@ class AuthorisationLevel(enum.StrEnum):
 # Survey action levels, uSv/h at 5 cm.
 # ANSI N43.2 as quoted in DOE-HDBK-1109-97: enclosed system, any outer surface.
 ENCLOSED_SURFACE_ACTION_LEVEL_USV_H = 2.5
-# Tennessee 0400-20-06-.07(1)(a); 25 Pa. Code 227a.13(b): tube housing, shutters closed.
+# 25 Pa. Code 227a.13(b): 2.5 mrem in 1 hour at 5 cm from the tube housing, all shutters closed
+# (Tennessee 0400-20-06-.07(1)(a) states 2.5 mR in 1 hour at 5 cm, at any specified tube rating).
 HOUSING_LEAKAGE_ACTION_LEVEL_USV_H = 25.0
 
 

@@ -9,7 +9,7 @@ from sqlalchemy.orm import Session
 
 from models.core.base import utcnow
 from models.core.errors import Invalid
-from models.core.units import RATE_UNITS, to_usv_h
+from models.core.units import RATE_UNITS, unit_source, usv_h_per_unit
 from models.instruments.instrument_ops import set_out_of_service
 from models.instruments.tables import Instrument
 from models.people.tables import Person
@@ -18,13 +18,6 @@ from models.surveys.tables import BypassPermit, PointLevel, Survey, SurveyMeter,
 
 # Both action levels are defined at 5 cm (REFERENCE.md, "Analytical X-ray equipment").
 REFERENCE_DISTANCE_CM = 5.0
-
-LEVEL_SOURCES = {
-    PointLevel.SURFACE: "outer surface of the enclosure, normal operation: ANSI N43.2 as quoted "
-                        "in DOE-HDBK-1109-97 (default 2.5 µSv/h at 5 cm)",
-    PointLevel.HOUSING: "tube housing with all shutters closed: Tennessee 0400-20-06-.07(1)(a); "
-                        "25 Pa. Code 227a.13(b) (default 25 µSv/h at 5 cm)",
-}
 
 # Everyone sees survey tasks, so one asked for after a dose rise says who asked and nothing about
 # whose dose, which level or when.
@@ -155,7 +148,8 @@ def record_survey(session: Session, values: SurveyInput, now: datetime | None = 
     now = now or utcnow()
     validate_survey(values, now)
     instrument, meter = values.instrument, values.meter
-    points = [_point(instrument, meter, values.unit, p) for p in values.points]
+    factor = usv_h_per_unit(values.unit, values.kv)
+    points = [_point(instrument, meter, values.unit, factor, p) for p in values.points]
     worst = max(points, key=lambda p: p.net_usv_h / p.action_level_usv_h)
     survey = Survey(
         instrument=instrument, performed_at=values.performed_at, performed_by=values.performed_by,
@@ -179,14 +173,28 @@ def record_survey(session: Session, values: SurveyInput, now: datetime | None = 
     return survey
 
 
-def _point(instrument: Instrument, meter: SurveyMeter, unit: str, p: PointInput) -> SurveyPoint:
-    """A stored point: readings in uSv/h, its net value and the level it is held to."""
-    reading, background = to_usv_h(p.reading, unit), to_usv_h(p.background, unit)
+def _point(instrument: Instrument, meter: SurveyMeter, unit: str, factor: float,
+           p: PointInput) -> SurveyPoint:
+    """A stored point: readings in uSv/h at the unit's factor, its net value and its level."""
+    reading, background = p.reading * factor, p.background * factor
     return SurveyPoint(location=p.location.strip(), distance_cm=p.distance_cm,
                        reading_usv_h=reading, background_usv_h=background,
                        net_usv_h=net_rate(reading, background, meter.correction_factor),
-                       entered_unit=unit, level=p.level,
+                       entered_unit=unit, usv_h_per_unit=factor, level=p.level,
                        action_level_usv_h=action_level(instrument, p.level))
+
+
+def unit_conversions(survey: Survey) -> list[tuple[str, float, str]]:
+    """Each unit other than uSv/h the survey's points were entered in: code, factor used, its source."""
+    seen = {}
+    for p in survey.points:
+        if p.entered_unit != "uSv/h" and p.entered_unit not in seen:
+            current = p.entered_unit in RATE_UNITS and abs(
+                usv_h_per_unit(p.entered_unit, survey.kv) - p.usv_h_per_unit) < 1e-9
+            source = (unit_source(p.entered_unit, survey.kv) if current
+                      else "the factor in use when this survey was recorded")
+            seen[p.entered_unit] = (p.entered_unit, p.usv_h_per_unit, source)
+    return list(seen.values())
 
 
 def failing_points(survey: Survey) -> list[SurveyPoint]:

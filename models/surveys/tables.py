@@ -138,6 +138,8 @@ class SurveyPoint(IdMixin, Base):
     background_usv_h: Mapped[float] = mapped_column(default=0.0)
     net_usv_h: Mapped[float]
     entered_unit: Mapped[str] = mapped_column(sa.String(16), default="uSv/h")
+    # The factor from the entered unit to uSv/h used when recorded (mR/h depends on the kV).
+    usv_h_per_unit: Mapped[float] = mapped_column(default=1.0)
     level: Mapped[PointLevel] = mapped_column(enum_column(PointLevel), default=PointLevel.SURFACE)
     # The level in force when surveyed: the instrument's own level may change later.
     action_level_usv_h: Mapped[float]

@@ -13,7 +13,6 @@ from models.instruments.tables import (
 )
 from models.people.tables import Role
 from models.surveys.survey_ops import (
-    LEVEL_SOURCES,
     PointInput,
     SurveyInput,
     net_rate,
@@ -21,8 +20,9 @@ from models.surveys.survey_ops import (
     open_survey_tasks,
     raise_survey_task,
     record_survey,
+    unit_conversions,
 )
-from models.surveys.tables import PointLevel, Survey, SurveyTask, SurveyTrigger
+from models.surveys.tables import PointLevel, Survey, SurveyPoint, SurveyTask, SurveyTrigger
 
 NOW = datetime.now(UTC)
 
@@ -44,12 +44,8 @@ def test_net_rate(reading, background, factor, expected):
 def test_default_action_levels_carry_their_sources():
     # ANSI N43.2 as quoted in DOE-HDBK-1109-97: 2.5 uSv/h at 5 cm, enclosed system outer surface.
     assert ENCLOSED_SURFACE_ACTION_LEVEL_USV_H == 2.5
-    assert "ANSI N43.2" in LEVEL_SOURCES[PointLevel.SURFACE]
-    assert "2.5 µSv/h at 5 cm" in LEVEL_SOURCES[PointLevel.SURFACE]
-    # Tennessee 0400-20-06-.07(1)(a); 25 Pa. Code 227a.13(b): 25 uSv/h at 5 cm, housing, shutters closed.
+    # 25 Pa. Code 227a.13(b): 2.5 mrem (0.025 mSv) in 1 hour at 5 cm, housing, all shutters closed.
     assert HOUSING_LEAKAGE_ACTION_LEVEL_USV_H == 25.0
-    assert "0400-20-06-.07(1)(a)" in LEVEL_SOURCES[PointLevel.HOUSING]
-    assert "25 Pa. Code 227a.13(b)" in LEVEL_SOURCES[PointLevel.HOUSING]
 
 
 def test_a_new_instrument_gets_the_default_levels(session):
@@ -113,11 +109,14 @@ def test_each_point_is_held_to_its_own_level(session, make_instrument, make_pers
 def test_mr_per_hour_readings_are_converted_before_comparing(
         session, make_instrument, make_person, make_meter):
     instrument, rso, meter = make_instrument(), make_person(roles=(Role.SAFETY_OFFICER,)), make_meter()
-    # 2.6 mR/h counts as 26 uSv/h (10 uSv/h per mR/h): over 2.5 mR/h = 25 uSv/h (Tennessee 0400-20-06-.07(1)(a)).
+    # At 40 kV: 1 mR = 2.58e-4 C/kg x 33.97 J/C = 8.764 uGy air kerma (10 CFR 20.1004; ICRU), times
+    # 1.47 Sv/Gy, the largest H*(10)/Ka up to 40 keV (ICRU 57 Table A.21, from memory, REFERENCE.md):
+    # 12.88 uSv/h per mR/h, so 2.6 mR/h is 2.6 x 12.88 = 33.5 uSv/h, over the housing's 25.
     survey = record_survey(session, _survey(instrument, rso, meter, [
         PointInput("Housing", 2.6, level=PointLevel.HOUSING)], unit="mR/h"))
     assert not survey.passed
-    assert survey.points[0].reading_usv_h == pytest.approx(26.0)
+    assert survey.points[0].reading_usv_h == pytest.approx(33.50, rel=1e-3)
+    assert survey.points[0].usv_h_per_unit == pytest.approx(12.88, rel=1e-3)
     assert survey.points[0].entered_unit == "mR/h"
 
 
@@ -160,3 +159,16 @@ def test_raise_survey_task_needs_a_reason(session, make_instrument):
     with pytest.raises(Invalid):
         raise_survey_task(session, make_instrument(), SurveyTrigger.DOSE_RISE, "  ")
     assert session.scalar(sa.select(sa.func.count()).select_from(SurveyTask)) == 0
+
+
+def test_unit_conversions_name_the_factor_each_point_was_stored_at():
+    survey = Survey(kv=50.0, points=[
+        SurveyPoint(entered_unit="uSv/h", usv_h_per_unit=1.0),
+        # Stored before the H*(10) factor, at the old 10 uSv/h per mR/h.
+        SurveyPoint(entered_unit="mR/h", usv_h_per_unit=10.0),
+        SurveyPoint(entered_unit="mrem/h", usv_h_per_unit=10.0),
+    ])
+    (mr, mr_factor, mr_source), (mrem, mrem_factor, mrem_source) = unit_conversions(survey)
+    assert (mr, mr_factor, mr_source) == ("mR/h", 10.0, "the factor in use when this survey was recorded")
+    # 1 rem = 0.01 Sv (10 CFR 20.1004): 10 uSv/h per mrem/h, the factor in force, with its source.
+    assert (mrem, mrem_factor) == ("mrem/h", 10.0) and "10 CFR 20.1004" in mrem_source

@@ -30,6 +30,28 @@ def test_k_alpha1_published(element, wavelength_angstrom, energy_kev):
 
 
 @pytest.mark.parametrize(
+    ("element", "k_alpha2", "k_beta1", "unit"),
+    [
+        # ITC Vol. C Table 4.2.2.6, the source of the Cu and Mo K-alpha1 (from memory), Angstrom.
+        ("Cu", 1.54442740, 1.3922340, "angstrom"),
+        ("Mo", 0.713607, 0.632303, "angstrom"),
+        # Bearden & Burr, the source of the Cr, Fe, Co and Ag K-alpha1 (X-ray Data Booklet Table 1-2,
+        # from memory), keV.
+        ("Cr", 5.40551, 5.94671, "kev"),
+        ("Fe", 6.39084, 7.05798, "kev"),
+        ("Co", 6.91530, 7.64943, "kev"),
+        ("Ag", 21.9903, 24.9424, "kev"),
+    ],
+)
+def test_k_alpha2_and_k_beta1_come_from_the_k_alpha1_source(element, k_alpha2, k_beta1, unit):
+    _, alpha2, beta1 = tube.anode_lines(element)
+    if unit == "angstrom":
+        assert (alpha2.wavelength_angstrom, beta1.wavelength_angstrom) == (k_alpha2, k_beta1)
+    else:
+        assert (alpha2.energy_kev, beta1.energy_kev) == (k_alpha2, k_beta1)
+
+
+@pytest.mark.parametrize(
     ("element", "wavelength_angstrom"),
     [
         ("Cu", 1.5406),  # ITC Vol. C Table 4.2.2.6, as usually quoted

@@ -118,12 +118,39 @@ def test_mrem_entry_is_stored_in_usv_per_hour(rso, login, session, make_instrume
         pytest.approx((15.0, 14.0, 25.0))
 
 
-def test_survey_form_shows_levels_and_conversion_with_sources(rso, login, make_instrument, make_meter):
+def test_survey_form_shows_us_sources_to_a_lab_under_us_rules(rso, login, make_instrument, make_meter,
+                                                               use_limit_set):
     make_instrument(), make_meter()
+    use_limit_set("cfr10_20")
     page = login(rso).get("/surveys/new").data.decode()
     assert "ANSI N43.2 as quoted in DOE-HDBK-1109-97" in page
     assert "25 Pa. Code 227a.13(b)" in page
-    assert "10 CFR 20.1004" in page and "1 R ~ 1 rem" in page
+    # mR/h: 8.764 uGy per mR x 1.67 Sv/Gy (ICRU 57 Table A.21, from memory) = 14.6 at 50 kV.
+    assert "10 CFR 20.1004" in page and "ICRU Report 57" in page and "14.6 at 50 kV" in page
+
+
+def test_survey_form_tells_a_euratom_lab_its_local_rules_set_the_levels(rso, login, make_instrument,
+                                                                        make_meter, use_limit_set):
+    make_instrument(), make_meter()
+    use_limit_set("euratom2013")
+    page = login(rso).get("/surveys/new").data.decode()
+    assert "set by your local rules" in page and "2013/59/Euratom" in page
+    assert "227a" not in page and "0400-20-06" not in page
+
+
+def test_mr_entry_keeps_and_shows_the_factor_it_was_stored_at(rso, login, session, make_instrument,
+                                                              make_meter):
+    instrument, meter = make_instrument(), make_meter()
+    client = login(rso)
+    response = client.post("/surveys/new", data=_survey_form(
+        instrument, meter, [("Housing", "1.5", "housing")], unit="mR/h"))
+    assert response.status_code == 302
+    survey = session.scalar(sa.select(Survey))
+    # At 40 kV: 8.764 uGy per mR (2.58e-4 C/kg x 33.97 J/C) x 1.47 Sv/Gy, the largest H*(10)/Ka up to
+    # 40 keV (ICRU 57 Table A.21, from memory) = 12.88 uSv/h per mR/h; 1.5 mR/h = 19.3 uSv/h.
+    assert survey.points[0].reading_usv_h == pytest.approx(19.33, rel=1e-3)
+    page = client.get(f"/surveys/{survey.id}").data.decode()
+    assert "mR/h × 12.88" in page and "1.47 Sv/Gy" in page and "ICRU Report 57" in page
 
 
 def test_bad_point_is_explained_beside_its_cell(rso, login, session, make_instrument, make_meter):
@@ -247,3 +274,28 @@ def test_status_command_lists_what_needs_doing(app, rso, operator, session, make
     data = json.loads(result.output)
     assert data["meters"][0]["serial"] == "OLD-2" and data["meters"][0]["usable"] is False
     assert data["permits"][0]["state"] == "not_closed" and data["permits"][0]["instrument"] == "XRF"
+
+
+def test_survey_page_cites_level_sources_of_the_labs_own_family(rso, login, session, make_instrument,
+                                                                make_meter, use_limit_set):
+    instrument, meter = make_instrument(), make_meter()
+    client = login(rso)
+    assert client.post("/surveys/new", data=_survey_form(
+        instrument, meter, [("Door", "0.5", "surface")])).status_code == 302
+    survey_id = session.scalar(sa.select(Survey.id))
+    use_limit_set("euratom2013")
+    page = client.get(f"/surveys/{survey_id}").data.decode()
+    assert "set by your local rules" in page and "227a" not in page and "ANSI N43.2" not in page
+    use_limit_set("cfr10_20")
+    page = client.get(f"/surveys/{survey_id}").data.decode()
+    # 25 Pa. Code 227a.13(b) and ANSI N43.2 (as quoted in DOE-HDBK-1109-97) for a lab under US rules.
+    assert "25 Pa. Code 227a.13(b)" in page and "ANSI N43.2" in page
+
+
+def test_instrument_page_shows_its_levels_with_the_labs_sources(rso, login, make_instrument, use_limit_set):
+    instrument = make_instrument()
+    use_limit_set("irr17")
+    page = login(rso).get(f"/instruments/{instrument.id}").data.decode()
+    # The default levels, 2.5 and 25 uSv/h at 5 cm; under UK IRR17 the logbook holds no source for them.
+    assert "Outer surface 2.5 (set by your local rules" in page and "Tube housing 25 (set by your" in page
+    assert "227a" not in page.split("Action levels")[1].split("</p>")[0]

@@ -312,7 +312,7 @@ def load_demo_lab(session: Session, today: date, password_hash: str | None) -> D
     _doses(lab)
     _pregnancy(lab)
     _incidents(lab)
-    _out_of_service(lab)
+    _out_of_service(lab, meters["current"])
     lab.writer.flush()
     return lab.summary
 
@@ -728,8 +728,8 @@ def _incidents(lab: _Lab) -> None:
                                  text="Spare lamp ordered; port 2 blanked off meanwhile."))
 
 
-def _out_of_service(lab: _Lab) -> None:
-    """The small-angle camera waits for its survey after a tube change."""
+def _out_of_service(lab: _Lab, meter: SurveyMeter) -> None:
+    """The small-angle camera waits for its survey after a tube change; the first one failed."""
     key, days, reason = OUT_OF_SERVICE
     instrument = lab.instruments[key]
     set_out_of_service(lab.session, instrument, reason)
@@ -737,3 +737,28 @@ def _out_of_service(lab: _Lab) -> None:
     instrument.out_of_service_since = since
     lab.session.add(SurveyTask(instrument_id=instrument.id, trigger=SurveyTrigger.AFTER_MAINTENANCE,
                                reason="X-ray tube replaced.", raised_at=since))
+    _failed_survey(lab, instrument, meter, lab.weekday_on_or_before(lab.today - timedelta(days=days - 1)))
+
+
+# The one failed survey point: the shield plate over the new tube was not yet refitted.
+FAILED_POINT = ("Tube housing, top of enclosure", 6.4, 0.1)
+
+
+def _failed_survey(lab: _Lab, instrument: Instrument, meter: SurveyMeter, day: date) -> None:
+    """The survey after the tube change, failed at one point; the survey task stays open."""
+    level = instrument.surface_action_level_usv_h
+    points = []
+    for where in ENCLOSED_POINTS:
+        reading, background = (FAILED_POINT[1:] if where == FAILED_POINT[0]
+                               else (round(float(lab.rng.uniform(0.12, 0.3)), 2), 0.1))
+        points.append(SurveyPoint(location=where, distance_cm=5.0, reading_usv_h=reading,
+                                  background_usv_h=background,
+                                  net_usv_h=round((reading - background) * meter.correction_factor, 3),
+                                  level=PointLevel.SURFACE, action_level_usv_h=level))
+    lab.writer.add(Survey(
+        instrument_id=instrument.id, performed_at=lab.at(day, 14), trigger=SurveyTrigger.AFTER_MAINTENANCE,
+        performed_by_id=lab.people[SAFETY_OFFICER].id, kv=50.0, ma=0.6, meter_id=meter.id,
+        action_level_usv_h=level, max_net_usv_h=max(p.net_usv_h for p in points), passed=False,
+        points=points, created_at=lab.at(day, 15),
+        notes="Shield plate above the new tube housing not yet refitted; survey again once it is."))
+    lab.summary.surveys += 1

@@ -7,6 +7,7 @@ from flask_login import current_user
 from models.core.base import utcnow
 from models.core.due_dates import DUE_SOON, OVERDUE
 from models.instruments.tables import Instrument
+from models.surveys.level_sources import level_sources
 from models.surveys.meter_ops import active_meters, calibration_on
 from models.surveys.permit_ops import (
     active_permits,
@@ -16,7 +17,7 @@ from models.surveys.permit_ops import (
     requested_permits,
 )
 from models.surveys.survey_ops import latest_failed_surveys, open_survey_tasks, surveys_of
-from models.surveys.tables import BypassPermit
+from models.surveys.tables import BypassPermit, PointLevel
 from webapp.extensions import db
 from webapp.formatting import lab_today, local, settings
 from webapp.slots import (
@@ -29,6 +30,7 @@ from webapp.slots import (
     instrument_sections,
     navigation,
 )
+from webapp.surveys.sources import source_family
 
 navigation.add("Surveys", "surveys.surveys", order=30)
 navigation.add("Bypass permits", "surveys.permits", order=35)
@@ -110,8 +112,11 @@ def _survey_lines() -> list[Attention]:
 @instrument_sections.add("surveys/_instrument_surveys.html", order=40)
 def _instrument_surveys(instrument: Instrument) -> dict:
     """An instrument's surveys and the surveys asked for."""
+    sources = level_sources(source_family())
+    levels = [("Outer surface", instrument.surface_action_level_usv_h, sources[PointLevel.SURFACE]),
+              ("Tube housing", instrument.housing_action_level_usv_h, sources[PointLevel.HOUSING])]
     return {"surveys": surveys_of(db.session, instrument, limit=10),
-            "tasks": open_survey_tasks(db.session, instrument)}
+            "tasks": open_survey_tasks(db.session, instrument), "levels": levels}
 
 
 @instrument_sections.add("surveys/_instrument_permits.html", order=45)

@@ -6,19 +6,21 @@ from flask_login import current_user, login_required
 
 from models.core.base import utcnow
 from models.core.errors import Invalid, errors_of
-from models.core.units import RATE_UNITS
+from models.core.units import RATE_UNITS, usv_h_per_unit
 from models.instruments.authorisation_ops import authorised_for, instruments_for
 from models.instruments.tables import Instrument
 from models.people.tables import Role
+from models.surveys.level_sources import FAMILY_LABELS, level_sources
 from models.surveys.meter_ops import active_meters, calibration_on
+from models.surveys.shielding import ASSUMPTIONS
 from models.surveys.survey_ops import (
-    LEVEL_SOURCES,
     SurveyInput,
     failing_points,
     off_reference_distance,
     open_survey_tasks,
     record_survey,
     surveys_of,
+    unit_conversions,
     validate_survey,
 )
 from models.surveys.tables import Survey, SurveyMeter, SurveyTrigger
@@ -27,8 +29,10 @@ from webapp.extensions import db
 from webapp.formatting import lab_today, settings
 from webapp.forms import validate_with
 from webapp.mail import tell_safety_officer
+from webapp.shielding.setup import over_level_estimates
 from webapp.surveys import bp
 from webapp.surveys.forms import SurveyForm, utc
+from webapp.surveys.sources import source_family
 
 
 @bp.route("/surveys/")
@@ -45,6 +49,8 @@ def survey(survey_id: int):
     """One survey with its points."""
     survey = db.session.get(Survey, survey_id) or abort(404)
     return render_template("surveys/survey.html", survey=survey, units=RATE_UNITS,
+                           conversions=unit_conversions(survey), level_sources=level_sources(source_family()),
+                           what_it_takes=over_level_estimates(failing_points(survey)), assumptions=ASSUMPTIONS,
                            failing=failing_points(survey), off_distance=off_reference_distance,
                            any_off_distance=any(off_reference_distance(p.distance_cm)
                                                 for p in survey.points))
@@ -74,8 +80,14 @@ def new_survey():
                                 f"{current_user.name}.\n{url_for('surveys.survey', survey_id=survey.id, _external=True)}")
             flash(f"Survey failed: {survey.instrument.name} is now out of service.", "error")
         return redirect(url_for("surveys.survey", survey_id=survey.id))
-    return render_template("surveys/survey_new.html", form=form, level_sources=LEVEL_SOURCES,
-                           units=RATE_UNITS)
+    return render_template("surveys/survey_new.html", form=form,
+                           level_sources=level_sources(source_family()), units=RATE_UNITS,
+                           family_label=FAMILY_LABELS.get(source_family()), mr_factors=_mr_factors())
+
+
+def _mr_factors() -> list[tuple[float, float]]:
+    """uSv/h per mR/h at a few tube voltages, for the form's note."""
+    return [(kv, usv_h_per_unit("mR/h", kv)) for kv in (30.0, 40.0, 50.0, 60.0)]
 
 
 def _meter_label(meter: SurveyMeter, calibration) -> str:
