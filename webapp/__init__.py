@@ -28,6 +28,7 @@ BLUEPRINTS = (
     "webapp.doses",
     "webapp.exposure",
     "webapp.demo",
+    "webapp.reports",
 )
 
 

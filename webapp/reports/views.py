@@ -1,0 +1,58 @@
+"""The export page and one CSV download per list."""
+from __future__ import annotations
+
+from flask import Response, abort, render_template, request, stream_with_context
+from flask_login import current_user
+
+from models.people.tables import Role
+from models.reports.csv_cells import csv_chunks
+from models.reports.export_ops import LISTS, ExportList, export_rows
+from webapp.access import roles_required
+from webapp.extensions import db
+from webapp.formatting import lab_today, lab_zone
+from webapp.reports import bp
+from webapp.reports.forms import ExportForm
+from webapp.slots import navigation
+
+EXPORTERS = (Role.SAFETY_OFFICER, Role.ADMIN)
+
+navigation.add("Exports", "reports.exports", set(EXPORTERS), order=93)
+
+
+def _allowed(export: ExportList) -> bool:
+    """Dose lists only for the safety officer; the rest for the safety officer and the admin."""
+    return current_user.has_role(Role.SAFETY_OFFICER) or not export.dose_data
+
+
+@bp.route("/exports/")
+@roles_required(*EXPORTERS)
+def exports():
+    """Every list the viewer may export, with a date range."""
+    form = ExportForm(request.args)
+    form.validate()
+    shown = [e for e in LISTS.values() if _allowed(e)]
+    return render_template("reports/exports.html", form=form, lists=shown, args=request.args)
+
+
+def _rows(export: ExportList, form: ExportForm):
+    """The list's rows for this viewer and these filters."""
+    return export_rows(db.session, export,
+                       form.filters(request.args.get("instrument", type=int),
+                                    request.args.get("person", type=int)),
+                       zone=lab_zone(), with_dose_data=current_user.has_role(Role.SAFETY_OFFICER))
+
+
+@bp.route("/exports/<name>.csv")
+@roles_required(*EXPORTERS)
+def export_csv(name: str):
+    """One list as CSV, with the list's filters from the query string."""
+    export = LISTS.get(name) or abort(404)
+    if not _allowed(export):
+        abort(403)
+    form = ExportForm(request.args)
+    if not form.validate():
+        return render_template("reports/exports.html", form=form,
+                               lists=[e for e in LISTS.values() if _allowed(e)], args=request.args), 422
+    filename = f"{name}-{lab_today().isoformat()}.csv"
+    return Response(stream_with_context(csv_chunks(export.header, _rows(export, form), lab_zone())), mimetype="text/csv",
+                    headers={"Content-Disposition": f'attachment; filename="{filename}"'})
