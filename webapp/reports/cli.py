@@ -2,13 +2,19 @@
 from __future__ import annotations
 
 import click
+from flask.cli import AppGroup
 
 from models.core.settings import lab_zone
+from models.people.person_ops import find_person
 from models.reports.csv_cells import csv_chunks
 from models.reports.export_ops import LISTS, Filters, export_rows
 from webapp.extensions import db
 from webapp.reports import bp
+from webapp.reports.documents import made_now, person_statement
 from webapp.reports.forms import FIRST_DAY, LAST_DAY
+
+reports = AppGroup("reports", help="PDF documents: annual dose statements, the lab's year, an instrument's file.")
+bp.cli.add_command(reports)
 
 
 def _day(ctx, param, value):
@@ -46,3 +52,17 @@ def export(list_name, first, last, out):
     with open(out, "w", encoding="utf-8", newline="") as handle:
         handle.writelines(csv_chunks(export_list.header, counted(), zone))
     click.echo(f"Wrote {export_list.title.lower()} to {out} ({written[0]} rows).")
+
+
+@reports.command("person")
+@click.argument("login")
+@click.option("--year", type=click.IntRange(1950, 2100), required=True, help="The calendar year.")
+@click.option("--out", type=click.Path(dir_okay=False, writable=True), required=True, help="The PDF file.")
+def person_report(login, year, out):
+    """Write a person's annual dose statement (PDF)."""
+    person = find_person(db.session, login)
+    if person is None:
+        raise click.BadParameter(f"no person with login '{login}'", param_hint="LOGIN")
+    with open(out, "wb") as handle:
+        handle.write(person_statement(person, year, "the command line", made_now()))
+    click.echo(f"Wrote the {year} dose statement of {person.name} to {out}.")

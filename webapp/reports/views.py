@@ -1,16 +1,21 @@
 """The export page and one CSV download per list."""
 from __future__ import annotations
 
-from flask import Response, abort, render_template, request, stream_with_context
-from flask_login import current_user
+import io
+import zipfile
 
-from models.people.tables import Role
+from flask import Response, abort, render_template, request, stream_with_context
+from flask_login import current_user, login_required
+
+from models.people.tables import Person, Role
 from models.reports.csv_cells import csv_chunks
 from models.reports.export_ops import LISTS, ExportList, export_rows
-from webapp.access import roles_required
+from models.reports.year_ops import people_monitored
+from webapp.access import can_see_dose_of, roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, lab_zone
 from webapp.reports import bp
+from webapp.reports.documents import made_now, person_statement
 from webapp.reports.forms import ExportForm
 from webapp.slots import navigation
 
@@ -56,3 +61,42 @@ def export_csv(name: str):
     filename = f"{name}-{lab_today().isoformat()}.csv"
     return Response(stream_with_context(csv_chunks(export.header, _rows(export, form), lab_zone())), mimetype="text/csv",
                     headers={"Content-Disposition": f'attachment; filename="{filename}"'})
+
+
+def _year(year: int) -> int:
+    """A statement year within the logbook's range, else 404."""
+    if not 1950 <= year <= 2100:
+        abort(404)
+    return year
+
+
+def _pdf(data: bytes, filename: str) -> Response:
+    """A PDF download that no shared cache keeps (it carries personal dose data)."""
+    return Response(data, mimetype="application/pdf", headers={
+        "Content-Disposition": f'attachment; filename="{filename}"', "Cache-Control": "private, no-store"})
+
+
+@bp.route("/reports/person/<int:person_id>/<int:year>.pdf")
+@login_required
+def statement(person_id: int, year: int):
+    """A person's annual dose statement: for the person themselves and the safety officer."""
+    if not can_see_dose_of(person_id):
+        abort(403)
+    person = db.session.get(Person, person_id) or abort(404)
+    data = person_statement(person, _year(year), current_user.name, made_now())
+    return _pdf(data, f"dose-statement-{person.login}-{year}.pdf")
+
+
+@bp.route("/reports/statements/<int:year>.zip")
+@roles_required(Role.SAFETY_OFFICER)
+def statements(year: int):
+    """Every monitored person's statement for a year, one ZIP."""
+    buffer = io.BytesIO()
+    made = made_now()
+    with zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as archive:
+        for person in people_monitored(db.session, _year(year)):
+            archive.writestr(f"dose-statement-{person.login}-{year}.pdf",
+                             person_statement(person, year, current_user.name, made))
+    return Response(buffer.getvalue(), mimetype="application/zip", headers={
+        "Content-Disposition": f'attachment; filename="dose-statements-{year}.zip"',
+        "Cache-Control": "private, no-store"})
