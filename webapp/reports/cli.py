@@ -10,7 +10,7 @@ from models.reports.csv_cells import csv_chunks
 from models.reports.export_ops import LISTS, Filters, export_rows
 from webapp.extensions import db
 from webapp.reports import bp
-from webapp.reports.documents import made_now, person_statement
+from webapp.reports.documents import lab_year_document, made_now, person_statement, year_figures
 from webapp.reports.forms import FIRST_DAY, LAST_DAY
 
 reports = AppGroup("reports", help="PDF documents: annual dose statements, the lab's year, an instrument's file.")
@@ -66,3 +66,13 @@ def person_report(login, year, out):
     with open(out, "wb") as handle:
         handle.write(person_statement(person, year, "the command line", made_now()))
     click.echo(f"Wrote the {year} dose statement of {person.name} to {out}.")
+
+
+@reports.command("lab")
+@click.option("--year", type=click.IntRange(1950, 2100), required=True, help="The calendar year.")
+@click.option("--out", type=click.Path(dir_okay=False, writable=True), required=True, help="The PDF file.")
+def lab_report(year, out):
+    """Write the lab's year in figures (PDF)."""
+    with open(out, "wb") as handle:
+        handle.write(lab_year_document(year_figures(year), "the command line", made_now()))
+    click.echo(f"Wrote the lab's year {year} to {out}.")

@@ -1,4 +1,4 @@
-"""The documents a safety officer is asked for: a person's annual dose statement (PDF)."""
+"""The documents a safety officer is asked for: annual dose statements and the lab's year (PDF)."""
 from __future__ import annotations
 
 from datetime import date
@@ -11,10 +11,12 @@ from models.doses.tables import DoseRecord, DoseSource
 from models.doses.version_ops import record_versions
 from models.exposure.lab_ops import cached_lab_evaluation
 from models.people.tables import Person
+from models.reports.year_ops import BAND_NAMES, LabYear, lab_year
 from webapp.exposure import labels
 from webapp.exposure.pages import person_table
 from webapp.extensions import db
-from webapp.formatting import lab_today, local, settings
+from webapp.formatting import lab_today, lab_zone, local, settings
+from webapp.reports.charts import bands_png, beam_hours_png
 from webapp.reports.pdf import Document, Provenance
 
 ESTIMATES = (DoseSource.RSO_ESTIMATE, DoseSource.INCIDENT_ESTIMATE)
@@ -96,3 +98,56 @@ def person_statement(person: Person, year: int, made_by: str, now_text: str) -> 
 def made_now() -> str:
     """The moment a document is made, in the lab's zone."""
     return local(utcnow(), "%Y-%m-%d %H:%M %Z")
+
+
+def year_figures(year: int) -> LabYear:
+    """The lab's year, dose figures as on 31 December or today."""
+    on = statement_date(year, lab_today())
+    return lab_year(db.session, year, cached_lab_evaluation(db.session, on), lab_zone())
+
+
+def _range(values: tuple[float, float] | None) -> str:
+    return "—" if values is None else f"{values[0]:g}–{values[1]:g}"
+
+
+def _service(periods) -> str:
+    return "; ".join(f"{a} to {b or 'still out'}" for a, b in periods) or "—"
+
+
+def lab_year_document(figures: LabYear, made_by: str, now_text: str) -> bytes:
+    """The lab's year in figures, with its charts (PDF)."""
+    doc = Document(f"The lab's year {figures.year}",
+                   provenance(settings(), f"Calendar year {figures.year}, dose figures as on {figures.on}",
+                              cached_lab_evaluation(db.session, figures.on).evaluation.limit_set.name,
+                              now_text, made_by))
+    doc.section("People monitored")
+    doc.rows_table(("Worker category", "People"),
+                   [(labels.CATEGORY[c], n) for c, n in sorted(figures.people_by_category.items())],
+                   widths=(90, 30), empty="Nobody wore a dosimeter this year.")
+    doc.section("Collective dose")
+    doc.rows_table(("Quantity", "Person-mSv"),
+                   [(labels.SERIES[s], f"{v:.3f}") for s, v in figures.collective_msv.items()],
+                   widths=(90, 30))
+    doc.section("Annual Hp(10) by band")
+    doc.rows_table(("Band", "People"), list(zip(BAND_NAMES, figures.bands, strict=True)), widths=(90, 30))
+    doc.paragraph("Highest annual Hp(10): " + ("—" if figures.highest_hp10_msv is None
+                                               else f"{figures.highest_hp10_msv:.3f} mSv"))
+    doc.chart(bands_png(figures))
+    doc.section("Investigations")
+    doc.paragraph(f"Raised in {figures.year}: {figures.investigations_raised}; signed off in "
+                  f"{figures.year}: {figures.investigations_closed}.")
+    doc.section("Instruments")
+    doc.rows_table(
+        ("Instrument", "Sessions", "Beam h", "kWh", "kV", "mA", "Alignment", "Under permit"),
+        [(i.name, i.sessions, f"{i.beam_hours:.1f}", f"{i.energy_kwh:.2f}", _range(i.kv_range),
+          _range(i.ma_range), i.alignment_sessions, i.permit_sessions) for i in figures.instruments],
+        widths=(40, 18, 18, 18, 22, 22, 20, 22), empty="No instruments.")
+    doc.rows_table(
+        ("Instrument", "Checks", "Late", "Failed", "Surveys", "Worst net / level µSv/h", "Out of service",
+         "Incidents"),
+        [(i.name, i.checks, i.checks_late, i.checks_failed, i.surveys,
+          "—" if i.worst_survey is None else f"{i.worst_survey[0]:.2f} / {i.worst_survey[1]:.1f}",
+          _service(i.out_of_service), i.incidents) for i in figures.instruments],
+        widths=(34, 15, 12, 14, 15, 30, 44, 16))
+    doc.chart(beam_hours_png(figures))
+    return doc.bytes()

@@ -4,24 +4,27 @@ from __future__ import annotations
 import io
 import zipfile
 
-from flask import Response, abort, render_template, request, stream_with_context
+from flask import Response, abort, redirect, render_template, request, stream_with_context, url_for
 from flask_login import current_user, login_required
 
 from models.people.tables import Person, Role
 from models.reports.csv_cells import csv_chunks
 from models.reports.export_ops import LISTS, ExportList, export_rows
-from models.reports.year_ops import people_monitored
+from models.reports.year_ops import BAND_NAMES, people_monitored
 from webapp.access import can_see_dose_of, roles_required
+from webapp.exposure import labels
 from webapp.extensions import db
 from webapp.formatting import lab_today, lab_zone
 from webapp.reports import bp
-from webapp.reports.documents import made_now, person_statement
+from webapp.reports.charts import bands_png, beam_hours_png
+from webapp.reports.documents import lab_year_document, made_now, person_statement, year_figures
 from webapp.reports.forms import ExportForm
 from webapp.slots import navigation
 
 EXPORTERS = (Role.SAFETY_OFFICER, Role.ADMIN)
 
 navigation.add("Exports", "reports.exports", set(EXPORTERS), order=93)
+navigation.add("Year", "reports.this_year", {Role.SAFETY_OFFICER}, order=92)
 
 
 def _allowed(export: ExportList) -> bool:
@@ -100,3 +103,36 @@ def statements(year: int):
     return Response(buffer.getvalue(), mimetype="application/zip", headers={
         "Content-Disposition": f'attachment; filename="dose-statements-{year}.zip"',
         "Cache-Control": "private, no-store"})
+
+
+@bp.route("/reports/year/<int:year>")
+@roles_required(Role.SAFETY_OFFICER)
+def lab_year_page(year: int):
+    """The lab's year in figures, with charts and the PDF."""
+    figures = year_figures(_year(year))
+    return render_template("reports/year.html", figures=figures, year=year, labels=labels,
+                           band_names=BAND_NAMES)
+
+
+@bp.route("/reports/year/<int:year>/<chart>.png")
+@roles_required(Role.SAFETY_OFFICER)
+def lab_year_chart(year: int, chart: str):
+    """One chart of the lab's year."""
+    draw = {"bands": bands_png, "beam-hours": beam_hours_png}.get(chart) or abort(404)
+    return Response(draw(year_figures(_year(year))), mimetype="image/png",
+                    headers={"Cache-Control": "private, no-store"})
+
+
+@bp.route("/reports/year/<int:year>.pdf")
+@roles_required(Role.SAFETY_OFFICER)
+def lab_year_pdf(year: int):
+    """The lab's year as PDF."""
+    return _pdf(lab_year_document(year_figures(_year(year)), current_user.name, made_now()),
+                f"lab-year-{year}.pdf")
+
+
+@bp.route("/reports/year/")
+@roles_required(Role.SAFETY_OFFICER)
+def this_year():
+    """The current year's figures so far."""
+    return redirect(url_for("reports.lab_year_page", year=lab_today().year))
