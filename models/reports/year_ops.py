@@ -110,9 +110,8 @@ def _check_lateness(checks: list[SafetyCheck], interval_days: int, start: dateti
     return late
 
 
-def _service_history(session: Session, instrument_id: int, zone: ZoneInfo,
-                     year: int) -> list[tuple[date, date | None]]:
-    """Out-of-service periods overlapping the year, read from the audit trail of the instrument."""
+def service_history(session: Session, instrument_id: int, zone: ZoneInfo) -> list[tuple[date, date | None]]:
+    """Out-of-service periods (first day, day returned or None), read from the instrument's audit trail."""
     events = session.execute(
         sa.select(AuditEvent.at, AuditEvent.after).where(
             AuditEvent.entity == "instrument", AuditEvent.entity_id == instrument_id)
@@ -130,8 +129,7 @@ def _service_history(session: Session, instrument_id: int, zone: ZoneInfo,
             since = None
     if since is not None:
         periods.append((since, None))
-    first, last = date(year, 1, 1), date(year, 12, 31)
-    return [(a, b) for a, b in periods if a <= last and (b is None or b >= first)]
+    return periods
 
 
 def _instrument_year(session: Session, instrument: Instrument, year: int, zone: ZoneInfo) -> InstrumentYear:
@@ -159,7 +157,8 @@ def _instrument_year(session: Session, instrument: Instrument, year: int, zone: 
         len(of_year), _check_lateness(checks, instrument.check_interval_days, start),
         sum(1 for c in of_year if not c.passed), len(surveys),
         max(((r.max_net_usv_h, r.action_level_usv_h) for r in surveys), default=None),
-        _service_history(session, instrument.id, zone, year), incidents or 0)
+        [(a, b) for a, b in service_history(session, instrument.id, zone)
+         if a <= date(year, 12, 31) and (b is None or b >= date(year, 1, 1))], incidents or 0)
 
 
 def lab_year(session: Session, year: int, lab: LabEvaluation, zone: ZoneInfo) -> LabYear:

@@ -2,15 +2,24 @@
 from __future__ import annotations
 
 import click
+import sqlalchemy as sa
 from flask.cli import AppGroup
 
 from models.core.settings import lab_zone
+from models.instruments.tables import Instrument
 from models.people.person_ops import find_person
 from models.reports.csv_cells import csv_chunks
 from models.reports.export_ops import LISTS, Filters, export_rows
+from models.reports.instrument_file_ops import instrument_file
 from webapp.extensions import db
 from webapp.reports import bp
-from webapp.reports.documents import lab_year_document, made_now, person_statement, year_figures
+from webapp.reports.documents import (
+    instrument_file_document,
+    lab_year_document,
+    made_now,
+    person_statement,
+    year_figures,
+)
 from webapp.reports.forms import FIRST_DAY, LAST_DAY
 
 reports = AppGroup("reports", help="PDF documents: annual dose statements, the lab's year, an instrument's file.")
@@ -76,3 +85,23 @@ def lab_report(year, out):
     with open(out, "wb") as handle:
         handle.write(lab_year_document(year_figures(year), "the command line", made_now()))
     click.echo(f"Wrote the lab's year {year} to {out}.")
+
+
+@reports.command("instrument")
+@click.argument("name")
+@click.option("--from", "first", type=click.DateTime(formats=["%Y-%m-%d"]), callback=_day, required=True,
+              help="First lab date of the period.")
+@click.option("--to", "last", type=click.DateTime(formats=["%Y-%m-%d"]), callback=_day, required=True,
+              help="Last lab date of the period.")
+@click.option("--out", type=click.Path(dir_okay=False, writable=True), required=True, help="The PDF file.")
+def instrument_report(name, first, last, out):
+    """Write an instrument's file for an inspection (PDF)."""
+    if first > last:
+        raise click.BadParameter("--from is after --to", param_hint="--from")
+    instrument = db.session.scalar(sa.select(Instrument).where(Instrument.name == name))
+    if instrument is None:
+        raise click.BadParameter(f"no instrument named '{name}'", param_hint="NAME")
+    record = instrument_file(db.session, instrument, first, last, lab_zone(db.session))
+    with open(out, "wb") as handle:
+        handle.write(instrument_file_document(record, "the command line", made_now()))
+    click.echo(f"Wrote the file of {instrument.name} from {first} to {last} to {out}.")

@@ -1,16 +1,19 @@
 """The documents a safety officer is asked for: annual dose statements and the lab's year (PDF)."""
 from __future__ import annotations
 
-from datetime import date
+from datetime import date, timedelta
 
 from models.core.base import utcnow
 from models.core.codes import Level, PeriodKind, Series
+from models.core.due_dates import calibration_due
 from models.core.labels import LENS_LABELS, MRD_LABELS, PRORATION_LABELS
 from models.core.settings import LabSettings
 from models.doses.tables import DoseRecord, DoseSource
 from models.doses.version_ops import record_versions
 from models.exposure.lab_ops import cached_lab_evaluation
+from models.instruments.tables import KIND_LABELS
 from models.people.tables import Person
+from models.reports.instrument_file_ops import InstrumentFile
 from models.reports.year_ops import BAND_NAMES, LabYear, lab_year
 from webapp.exposure import labels
 from webapp.exposure.pages import person_table
@@ -150,4 +153,75 @@ def lab_year_document(figures: LabYear, made_by: str, now_text: str) -> bytes:
           _service(i.out_of_service), i.incidents) for i in figures.instruments],
         widths=(34, 15, 12, 14, 15, 30, 44, 16))
     doc.chart(beam_hours_png(figures))
+    return doc.bytes()
+
+
+def _flags(s) -> str:
+    return ", ".join(f for f, on in (("alignment", s.alignment), ("bypass permit", s.bypass_permit_id),
+                                     ("set-up changed", s.configuration_changed),
+                                     ("no dosimeter", not s.dosimeter_worn)) if on)
+
+
+def instrument_file_document(record: InstrumentFile, made_by: str, now_text: str) -> bytes:
+    """An instrument's file for an inspection (PDF)."""
+    i = record.instrument
+    limit_set = cached_lab_evaluation(db.session, statement_date(record.last.year, lab_today()))
+    doc = Document(f"Instrument file: {i.name}",
+                   provenance(settings(), f"{record.first} to {record.last}",
+                              limit_set.evaluation.limit_set.name, now_text, made_by))
+    doc.section("Ratings and set-up")
+    doc.rows_table(("Property", "Value"), [
+        ("Kind", KIND_LABELS[i.kind]), ("Room", i.room or "—"), ("Registration", i.registration_number or "—"),
+        ("Anode", i.anode), ("Ratings", f"{i.max_kv:g} kV, {i.max_ma:g} mA, {i.max_power_w:g} W"),
+        ("Enclosure", i.enclosure.value.replace("_", " ")),
+        ("Check interval", f"{i.check_interval_days} days"), ("Survey interval", f"{i.survey_interval_days} days"),
+        ("Action levels", f"outer surface {i.surface_action_level_usv_h:g} µSv/h, tube housing "
+                          f"{i.housing_action_level_usv_h:g} µSv/h, at 5 cm"),
+        ("Status now", "in service" if i.in_service else f"out of service: {i.out_of_service_reason}")],
+        widths=(40, 140))
+    doc.section("Authorised users")
+    doc.rows_table(("Person", "Level", "Trained on", "Refresher due", "Granted", "Revoked"),
+                   [(a.person.name, a.level.value, a.trained_on, a.refresher_due, local(a.granted_at, "%Y-%m-%d"),
+                     local(a.revoked_at, "%Y-%m-%d") or "—") for a in record.authorisations],
+                   widths=(45, 25, 25, 28, 25, 25), empty="Nobody was authorised in this period.")
+    doc.section(f"Session log ({len(record.sessions)})")
+    doc.rows_table(("Start", "End", "Operator", "kV", "mA", "Beam min", "Purpose", "Flags"),
+                   [(local(s.started_at), local(s.ended_at) or "open", s.operator.name, f"{s.kv:g}", f"{s.ma:g}",
+                     "" if s.beam_on_minutes is None else f"{s.beam_on_minutes:.0f}", s.purpose, _flags(s))
+                    for s in record.sessions],
+                   widths=(27, 27, 28, 9, 9, 12, 38, 30), empty="No sessions in this period.")
+    doc.section(f"Safety-device checks ({len(record.checks)})")
+    doc.rows_table(("Done", "By", "Item", "Result", "Comment"),
+                   [(local(c.performed_at), c.performed_by.name, r.item_text, r.result.value, r.comment or "")
+                    for c in record.checks for r in c.results],
+                   widths=(26, 30, 74, 16, 34), empty="No checks in this period.")
+    doc.section(f"Surveys ({len(record.surveys)})")
+    for survey in record.surveys:
+        meter = survey.meter
+        valid_to = calibration_due(meter.calibrated_on, meter.calibration_interval_months)
+        doc.paragraph(f"{local(survey.performed_at)}, {survey.trigger.value.replace('_', ' ')}, at {survey.kv:g} kV "
+                      f"{survey.ma:g} mA: {'passed' if survey.passed else 'FAILED'}. Meter {meter.serial} "
+                      f"calibrated {meter.calibrated_on}, valid through {valid_to - timedelta(days=1)}, "
+                      f"correction factor {meter.correction_factor:g}.")
+        doc.rows_table(("Point", "cm", "Reading", "Background", "Net µSv/h", "Level µSv/h", ""),
+                       [(p.location, f"{p.distance_cm:g}", f"{p.reading_usv_h:.2f}", f"{p.background_usv_h:.2f}",
+                         f"{p.net_usv_h:.2f}", f"{p.action_level_usv_h:g}",
+                         "over" if p.net_usv_h > p.action_level_usv_h else "")
+                        for p in survey.points], widths=(60, 12, 20, 22, 22, 24, 20))
+    if not record.surveys:
+        doc.paragraph("No surveys in this period.")
+    doc.section(f"Bypass permits ({len(record.permits)})")
+    doc.rows_table(("Window", "Devices", "Reason", "Status", "Closing survey"),
+                   [(f"{local(p.window_start)} – {local(p.window_end)}", p.devices, p.reason, p.status.value,
+                     "; ".join(f"{local(s.performed_at)} {'passed' if s.passed else 'failed'}" for s in closing)
+                     or "none on record") for p, closing in record.permits],
+                   widths=(40, 35, 45, 20, 40), empty="No bypass permits in this period.")
+    doc.section(f"Incidents ({len(record.incidents)})")
+    doc.rows_table(("When", "Type", "Description", "Closed"),
+                   [(local(n.occurred_at), n.type.value.replace("_", " "), n.description,
+                     local(n.closed_at) or "open") for n in record.incidents],
+                   widths=(28, 30, 94, 28), empty="No incidents in this period.")
+    doc.section("Out of service")
+    doc.rows_table(("From", "Back in service"), [(a, b or "still out") for a, b in record.out_of_service],
+                   widths=(40, 40), empty="In service throughout the period.")
     return doc.bytes()

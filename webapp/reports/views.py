@@ -7,9 +7,11 @@ import zipfile
 from flask import Response, abort, redirect, render_template, request, stream_with_context, url_for
 from flask_login import current_user, login_required
 
+from models.instruments.tables import Instrument
 from models.people.tables import Person, Role
 from models.reports.csv_cells import csv_chunks
 from models.reports.export_ops import LISTS, ExportList, export_rows
+from models.reports.instrument_file_ops import instrument_file
 from models.reports.year_ops import BAND_NAMES, people_monitored
 from webapp.access import can_see_dose_of, roles_required
 from webapp.exposure import labels
@@ -17,9 +19,15 @@ from webapp.extensions import db
 from webapp.formatting import lab_today, lab_zone
 from webapp.reports import bp
 from webapp.reports.charts import bands_png, beam_hours_png
-from webapp.reports.documents import lab_year_document, made_now, person_statement, year_figures
+from webapp.reports.documents import (
+    instrument_file_document,
+    lab_year_document,
+    made_now,
+    person_statement,
+    year_figures,
+)
 from webapp.reports.forms import ExportForm
-from webapp.slots import navigation
+from webapp.slots import instrument_sections, navigation
 
 EXPORTERS = (Role.SAFETY_OFFICER, Role.ADMIN)
 
@@ -136,3 +144,26 @@ def lab_year_pdf(year: int):
 def this_year():
     """The current year's figures so far."""
     return redirect(url_for("reports.lab_year_page", year=lab_today().year))
+
+
+@instrument_sections.add("reports/_instrument_file.html", roles=set(EXPORTERS), order=95)
+def _instrument_file_form(instrument: Instrument) -> dict:
+    """The form that asks for an instrument's file for a period."""
+    today = lab_today()
+    return {"instrument": instrument, "first": today.replace(month=1, day=1), "last": today}
+
+
+@bp.route("/reports/instrument/<int:instrument_id>.pdf")
+@roles_required(*EXPORTERS)
+def instrument_file_pdf(instrument_id: int):
+    """An instrument's file for an inspection, for the period asked."""
+    instrument = db.session.get(Instrument, instrument_id) or abort(404)
+    form = ExportForm(request.args)
+    if not form.validate() or not (form.first.data and form.last.data):
+        if not form.first.errors and not form.last.errors:
+            form.first.errors = ["Give the first and the last day of the period."]
+        return render_template("reports/exports.html", form=form,
+                               lists=[e for e in LISTS.values() if _allowed(e)], args=request.args), 422
+    record = instrument_file(db.session, instrument, form.first.data, form.last.data, lab_zone())
+    return _pdf(instrument_file_document(record, current_user.name, made_now()),
+                f"instrument-file-{instrument.id}-{form.first.data}-{form.last.data}.pdf")
