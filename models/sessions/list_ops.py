@@ -53,8 +53,8 @@ def session_page(session: Session, chosen: SessionFilter, before: tuple[datetime
     query = (sa.select(s).options(selectinload(s.instrument), selectinload(s.operator))
              .where(*_conditions(chosen)))
     if before is not None:
-        at, row_id = before
-        query = query.where(sa.or_(s.started_at < at, sa.and_(s.started_at == at, s.id < row_id)))
+        # A row-value comparison walks the (started_at, id) index straight to the key.
+        query = query.where(sa.tuple_(s.started_at, s.id) < sa.tuple_(*before))
     rows = list(session.scalars(query.order_by(s.started_at.desc(), s.id.desc()).limit(size + 1)))
     more = len(rows) > size
     rows = rows[:size]
