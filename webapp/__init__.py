@@ -9,7 +9,7 @@ from flask_wtf.csrf import CSRFError
 
 from models.audit.audit_ops import set_actor
 from models.people.tables import Person
-from webapp import config, formatting
+from webapp import config, formatting, slots
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
 
 BLUEPRINTS = (
@@ -53,7 +53,7 @@ def create_app(overrides: dict | None = None) -> Flask:
         app.register_blueprint(module.bp)
 
     formatting.install(app)
-    _install_request_hooks(app)
+    slots.install(app)
     _install_error_pages(app)
     return app
 
@@ -65,13 +65,11 @@ def _load_person(person_id: str) -> Person | None:
     return person if person is not None and person.active else None
 
 
-def _install_request_hooks(app: Flask) -> None:
+@slots.request_hooks.add(order=20)
+def _actor() -> None:
     """Attribute every change in a request to the person making it."""
-
-    @app.before_request
-    def _actor() -> None:
-        set_actor(db.session, current_user.id if current_user.is_authenticated else None)
-        g.actor = current_user
+    set_actor(db.session, current_user.id if current_user.is_authenticated else None)
+    g.actor = current_user
 
 
 def _install_error_pages(app: Flask) -> None:

@@ -61,16 +61,20 @@ def dose(value_msv: float | None, digits: int = 3) -> str:
     return f"{value_msv:.{digits}f} mSv"
 
 
+def capfirst(text: str) -> str:
+    """The text with its first letter in upper case (labels are written to sit inside sentences)."""
+    return text[:1].upper() + text[1:]
+
+
 def install(app: Flask) -> None:
     """Make the helpers available to every template."""
     app.jinja_env.filters["local"] = local
     app.jinja_env.filters["dose"] = dose
+    app.jinja_env.filters["capfirst"] = capfirst
 
     @app.context_processor
     def _globals() -> dict:
-        from webapp.slots import navigation
-
-        return {"navigation": navigation, "CAUTION": CAUTION, "lab_today": lab_today, "lab_zone_name": lambda: settings().timezone}
+        return {"CAUTION": CAUTION, "lab_today": lab_today, "lab_zone_name": lambda: settings().timezone}
 
 
 def from_local(naive: datetime | None) -> datetime | None:

@@ -1,9 +1,18 @@
-"""Places on shared pages where each area adds its own sections, so pages know no area's details."""
+"""Places where each area adds to shared pages and to every request, so shared code knows no area.
+
+Every registration gives an order, unique within its slot: `validate_orders` (run when the app is
+built) refuses two registrations with the same order and names both, so the place of a section
+never depends on which module happened to be imported first.
+"""
 from __future__ import annotations
 
 import enum
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
+from typing import Any
+
+from flask import Flask, request
+from flask_login import current_user
 
 from models.people.tables import Person, Role
 
@@ -49,95 +58,212 @@ class Attention:
         return SEVERITY_CLASS.get(self.severity, "")
 
 
-@dataclass(frozen=True)
-class Section:
-    """A block of a page, shown to people holding one of `roles` (everyone when empty)."""
+class SlotOrderClash(RuntimeError):
+    """Two registrations in one slot share an order."""
 
-    template: str
-    roles: frozenset[Role]
-    load: Callable[..., dict]
+
+@dataclass(frozen=True)
+class Registration:
+    """One thing an area registered: its place, who sees it (everyone when `roles` is empty), what it is."""
+
     order: int
+    roles: frozenset[Role]
+    name: str
+    value: Any
+
+    def visible_to(self, viewer: Person) -> bool:
+        """Whether this viewer's roles let them see it."""
+        return not self.roles or viewer.has_role(*self.roles)
+
+
+def _name_of(function: Callable) -> str:
+    """Where a registered function lives, for messages."""
+    return f"{function.__module__}.{function.__qualname__}"
 
 
 @dataclass
-class Slot:
-    """A place on a page where areas add sections without the page knowing them."""
+class Registry:
+    """What areas registered in one slot, kept in order."""
 
-    sections: list[Section] = field(default_factory=list)
+    name: str
+    entries: list[Registration] = field(default_factory=list)
 
-    def add(self, template: str, roles: set[Role] | None = None, order: int = 50):
+    def __post_init__(self):
+        ALL_SLOTS.append(self)
+
+    def register(self, value: Any, order: int, name: str, roles: set[Role] | None = None) -> None:
+        """Add one registration."""
+        self.entries.append(Registration(order, frozenset(roles or ()), name, value))
+
+    def in_order(self) -> list[Registration]:
+        """Every registration, by order."""
+        return sorted(self.entries, key=lambda entry: entry.order)
+
+    def for_viewer(self, viewer: Person) -> list[Registration]:
+        """The registrations this viewer may see, by order."""
+        return [entry for entry in self.in_order() if entry.visible_to(viewer)]
+
+    def validate_orders(self) -> None:
+        """Refuse two registrations with the same order, naming both."""
+        seen: dict[int, Registration] = {}
+        for entry in self.entries:
+            if entry.order in seen:
+                raise SlotOrderClash(
+                    f"Slot '{self.name}': {seen[entry.order].name} and {entry.name} both use order "
+                    f"{entry.order}; give each a distinct order.")
+            seen[entry.order] = entry
+
+
+ALL_SLOTS: list[Registry] = []
+
+
+@dataclass(frozen=True)
+class Section:
+    """A block of a page: a template and the loader that gives it its `data`."""
+
+    template: str
+    load: Callable[..., dict]
+
+
+class Slot(Registry):
+    """A place on a page where areas add sections (templates with loaded data)."""
+
+    def add(self, template: str, roles: set[Role] | None = None, *, order: int):
         """Decorator: register a section loader; it receives the page's subject."""
 
         def decorate(load: Callable[..., dict]):
-            self.sections.append(Section(template, frozenset(roles or ()), load, order))
+            self.register(Section(template, load), order, f"{_name_of(load)} ({template})", roles)
             return load
 
         return decorate
 
     def render_for(self, viewer: Person, *subject) -> list[tuple[Section, dict]]:
         """The sections this viewer may see, loaded for the subject, in order."""
-        chosen = sorted(
-            (s for s in self.sections if not s.roles or viewer.has_role(*s.roles)),
-            key=lambda s: s.order,
-        )
-        return [(s, s.load(*subject)) for s in chosen]
+        return [(entry.value, entry.value.load(*subject)) for entry in self.for_viewer(viewer)]
 
 
-@dataclass
-class AttentionSources:
+class AttentionSources(Registry):
     """Sources of lines for the safety officer's attention list."""
 
-    sources: list[Callable[[], list[Attention]]] = field(default_factory=list)
+    def add(self, *, order: int):
+        """Decorator: register a source; `order` breaks ties between lines of the same severity."""
 
-    def add(self, source: Callable[[], list[Attention]]):
-        """Decorator: register a source."""
-        self.sources.append(source)
-        return source
+        def decorate(source: Callable[[], list[Attention]]):
+            self.register(source, order, _name_of(source))
+            return source
+
+        return decorate
 
     def collect(self) -> list[Attention]:
         """Every source's lines, most severe first."""
-        return sorted((line for source in self.sources for line in source()),
+        return sorted((line for entry in self.in_order() for line in entry.value()),
                       key=lambda line: line.severity)
 
 
-# Home page: sections load with the viewer.
-home_panels = Slot()
-# Instrument page: sections load with the instrument.
-instrument_sections = Slot()
-attention = AttentionSources()
-# Settings page: sections load with the lab settings row.
-settings_sections = Slot()
+@dataclass(frozen=True)
+class Badge:
+    """A short state shown beside an instrument's name wherever its status shows."""
+
+    text: str
+    css: str
+
+
+class InstrumentBadges(Registry):
+    """States that areas add to an instrument's status (e.g. a bypass in force)."""
+
+    def add(self, *, order: int):
+        """Decorator: register a function from an instrument to its badges."""
+
+        def decorate(badges: Callable[..., list[Badge]]):
+            self.register(badges, order, _name_of(badges))
+            return badges
+
+        return decorate
+
+    def for_instrument(self, instrument) -> Iterator[Badge]:
+        """Every area's badges for one instrument, in order."""
+        for entry in self.in_order():
+            yield from entry.value(instrument)
+
+
+class RequestHooks(Registry):
+    """Work done before every request except for static files, in order."""
+
+    def add(self, *, order: int):
+        """Decorator: register a hook taking no arguments."""
+
+        def decorate(hook: Callable[[], None]):
+            self.register(hook, order, _name_of(hook))
+            return hook
+
+        return decorate
+
+    def run(self) -> None:
+        """Run every hook, unless the request is for a static file (which needs no database)."""
+        endpoint = request.endpoint or ""
+        if endpoint == "static" or endpoint.endswith(".static"):
+            return
+        for entry in self.in_order():
+            entry.value()
 
 
 @dataclass(frozen=True)
 class NavLink:
-    """A link in the top navigation, for people holding one of `roles` (everyone when empty)."""
+    """A link in the top navigation."""
 
     label: str
     endpoint: str
-    roles: frozenset[Role]
-    order: int
 
 
-@dataclass
-class Navigation:
+class Navigation(Registry):
     """The top navigation, assembled from what each area registers."""
 
-    links: list[NavLink] = field(default_factory=list)
-
-    def add(self, label: str, endpoint: str, roles: set[Role] | None = None, order: int = 50):
+    def add(self, label: str, endpoint: str, roles: set[Role] | None = None, *, order: int):
         """Register a link."""
-        self.links.append(NavLink(label, endpoint, frozenset(roles or ()), order))
+        self.register(NavLink(label, endpoint), order, f"link '{label}' ({endpoint})", roles)
 
     def for_person(self, person: Person) -> list[NavLink]:
         """The links a person sees, in order."""
-        return sorted((l for l in self.links if not l.roles or person.has_role(*l.roles)),
-                      key=lambda l: l.order)
+        return [entry.value for entry in self.for_viewer(person)]
 
 
-navigation = Navigation()
+# Top navigation.
+navigation = Navigation("navigation")
+# Home page: sections load with the viewer.
+home_panels = Slot("home_panels")
+# Instrument page: sections load with the instrument.
+instrument_sections = Slot("instrument_sections")
+# Settings page: sections load with the lab settings row.
+settings_sections = Slot("settings_sections")
+# The safety officer's attention list on the home page.
+attention = AttentionSources("attention")
+# Banners atop every page for a logged-in person: sections load with the viewer.
+banners = Slot("banners")
+# Badges beside an instrument's status, wherever it shows.
+instrument_badges = InstrumentBadges("instrument_badges")
+# Work before every request (static files excepted).
+request_hooks = RequestHooks("request_hooks")
+
 navigation.add("Home", "home.index", order=0)
 navigation.add("Instruments", "instruments.index", order=10)
 navigation.add("People", "people.index", {Role.ADMIN}, order=80)
 navigation.add("Settings", "settings.index", {Role.SAFETY_OFFICER, Role.ADMIN}, order=90)
 navigation.add("Audit log", "audit.index", {Role.SAFETY_OFFICER, Role.ADMIN}, order=95)
+
+
+def validate_orders() -> None:
+    """Refuse the set-up when any slot has two registrations with one order."""
+    for slot in ALL_SLOTS:
+        slot.validate_orders()
+
+
+def install(app: Flask) -> None:
+    """Check the orders, run the request hooks before each request, give shared templates the slots."""
+    validate_orders()
+    app.before_request(request_hooks.run)
+
+    @app.context_processor
+    def _slots() -> dict:
+        return {"navigation": navigation, "instrument_badges": instrument_badges,
+                "banners": lambda: banners.render_for(current_user, current_user)
+                if current_user.is_authenticated else []}

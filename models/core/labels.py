@@ -1,5 +1,9 @@
-"""Plain words for the dose codes, shared by the command line, the pages and the e-mails."""
-from models.core.codes import LensSource, Level, Location, MrdPolicy, PeriodKind, Proration, Series
+"""Plain words for the dose codes: the one table per code, for the command line, the pages and the e-mails.
+
+Words start in lower case so they read inside a sentence; a page heading or a table cell that starts
+with one capitalises it with the `capfirst` filter.
+"""
+from models.core.codes import LensSource, Level, LevelKind, Location, MrdPolicy, PeriodKind, Proration, Result, Series
 
 LOCATION_LABELS = {
     Location.WHOLE_BODY: "whole body",
@@ -9,22 +13,22 @@ LOCATION_LABELS = {
     Location.ABDOMEN: "abdomen",
 }
 SERIES_LABELS = {
-    Series.EFFECTIVE: "effective",
-    Series.SKIN: "skin",
-    Series.LENS: "lens",
-    Series.LEFT_HAND: "left hand",
-    Series.RIGHT_HAND: "right hand",
-    Series.WORST_HAND: "worse hand",
-    Series.FETUS: "fetus",
+    Series.EFFECTIVE: "whole body, Hp(10)",
+    Series.SKIN: "skin, Hp(0.07)",
+    Series.LENS: "lens of the eye",
+    Series.LEFT_HAND: "left hand, Hp(0.07)",
+    Series.RIGHT_HAND: "right hand, Hp(0.07)",
+    Series.WORST_HAND: "worse hand, Hp(0.07)",
+    Series.FETUS: "embryo/fetus, Hp(10)",
 }
 PERIOD_LABELS = {
-    PeriodKind.YEAR: "year",
-    PeriodKind.ROLLING_12_MONTHS: "rolling 12 months",
-    PeriodKind.QUARTER: "quarter",
-    PeriodKind.MONTH: "month",
+    PeriodKind.YEAR: "calendar year",
+    PeriodKind.ROLLING_12_MONTHS: "last 12 months",
+    PeriodKind.QUARTER: "calendar quarter",
+    PeriodKind.MONTH: "calendar month",
     PeriodKind.FIVE_YEAR_BLOCK: "five-year block",
-    PeriodKind.ROLLING_FIVE_YEARS: "rolling five years",
-    PeriodKind.PREGNANCY: "pregnancy",
+    PeriodKind.ROLLING_FIVE_YEARS: "last five years",
+    PeriodKind.PREGNANCY: "since the pregnancy declaration",
 }
 LEVEL_LABELS = {
     Level.BELOW_1: "below level I",
@@ -32,6 +36,14 @@ LEVEL_LABELS = {
     Level.LEVEL_2: "level II",
     Level.LIMIT_REACHED: "limit reached",
 }
+RESULT_LABELS = {
+    Result.MEASURED: "measured",
+    Result.BELOW_MRD: "below the minimum reportable dose (MRD)",
+    Result.UNUSED: "unused (not worn)",
+    Result.LOST: "lost",
+    Result.NOT_RETURNED: "not returned",
+}
+LEVEL_KIND_LABELS = {LevelKind.FRACTION: "fraction of the limit", LevelKind.ABSOLUTE: "mSv per period"}
 PRORATION_LABELS = {
     Proration.PRORATE_DAYS: "Spread each record over its wear days; a period counts the days "
                             "inside it",
@@ -63,5 +75,5 @@ def measured_label(series: str, quantity: str, location: str) -> str:
 
 
 def dose_row_label(series: str, quantity: str, location: str, period: str) -> str:
-    """'Hp(10) whole body, quarter' or 'lens from Hp(0.07) whole body, quarter'."""
+    """'Hp(10) whole body, calendar quarter' or 'lens from Hp(0.07) whole body, calendar quarter'."""
     return f"{measured_label(series, quantity, location)}, {PERIOD_LABELS[PeriodKind(period)]}"

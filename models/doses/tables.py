@@ -43,6 +43,13 @@ class DoseSource(enum.StrEnum):
     INCIDENT_ESTIMATE = "incident_estimate"
 
 
+SOURCE_LABELS = {
+    DoseSource.DOSIMETRY_REPORT: "dosimetry report",
+    DoseSource.RSO_ESTIMATE: "estimate by the safety officer",
+    DoseSource.INCIDENT_ESTIMATE: "estimate after an incident",
+}
+
+
 class Dosimeter(IdMixin, Base):
     """A personal dosimeter issued to one wearer."""
 

@@ -27,7 +27,8 @@ from models.core.base import utcnow
 from models.core.codes import Level, Location, PeriodKind, Quantity, Series, code, decode
 from models.core.errors import Invalid
 from models.core.labels import LEVEL_LABELS, dose_row_label
-from models.exposure.lab_ops import LabEvaluation
+from models.core.settings import lab_zone
+from models.exposure.lab_ops import LabEvaluation, cached_lab_evaluation
 from models.exposure.tables import Investigation
 from models.instruments.tables import Authorisation, Instrument
 from models.people.tables import Person
@@ -123,7 +124,7 @@ def raise_investigations(session: Session, lab: LabEvaluation) -> list[Investiga
 
 
 def _row_of(investigation: Investigation) -> str:
-    """'Hp(10) whole body, quarter' for an investigation."""
+    """'Hp(10) whole body, calendar quarter' for an investigation."""
     return dose_row_label(investigation.series, investigation.quantity, investigation.location,
                           investigation.period)
 
@@ -170,6 +171,19 @@ def raise_survey_tasks(session: Session, new: list[Investigation], on: date,
                 f"{LEVEL_LABELS[Level(investigation.level)]} ({_row_of(investigation)} from "
                 f"{investigation.period_start.isoformat()}). Survey the instrument.")
     return list(tasks.values())
+
+
+def review_after_dose_change(session: Session, on: date) -> list[Investigation]:
+    """Evaluate the lab on `on`, raise investigations for new crossings and ask for surveys.
+
+    Returns the investigations raised, so the caller can tell people after it commits. Run after
+    any change to dose inputs (records, declarations, limit sets) and daily, because a date change
+    alone can reveal a crossing (a rolling window or a pregnancy).
+    """
+    lab = cached_lab_evaluation(session, on)
+    new = raise_investigations(session, lab)
+    raise_survey_tasks(session, new, on, lab_zone(session))
+    return new
 
 
 def validate_review(investigation: Investigation, signing: bool, findings: str | None,

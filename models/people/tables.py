@@ -32,6 +32,7 @@ CATEGORY_LABELS = {
     WorkerCategory.ADULT_WORKER: "Adult worker",
     WorkerCategory.TRAINEE: "Trainee or student (16-18)",
     WorkerCategory.PUBLIC: "Member of the public",
+    WorkerCategory.DECLARED_PREGNANT: "Declared pregnant worker",
 }
 
 

@@ -15,6 +15,7 @@ from models.exposure.investigation_ops import (
     raise_investigations,
     raise_survey_tasks,
     record_review,
+    review_after_dose_change,
     sign_off,
 )
 from models.exposure.lab_ops import LabEvaluation, evaluate_lab
@@ -94,7 +95,7 @@ def test_a_lens_assessed_from_the_body_badge_is_raised_as_the_lens(
     assert (item.series, item.quantity, item.location, item.level) == (
         "lens", "Hp(0.07)", "whole_body", "level_1")
     assert investigation_label(item) == (
-        "lens from Hp(0.07) whole body, quarter from 2026-10-01, level I")
+        "lens from Hp(0.07) whole body, calendar quarter from 2026-10-01, level I")
 
 
 def _rolling_lab(on: date, person_id: int) -> LabEvaluation:
@@ -148,6 +149,28 @@ def test_a_rise_asks_for_surveys_of_the_instruments_used(
     # An open dose-rise task is not doubled by the next crossing.
     make_dose(person, value=3.0, wear_start=date(2026, 11, 29), wear_end=date(2026, 11, 30))
     assert raise_survey_tasks(session, _raise(session), ON, UTC) == []
+
+
+def test_review_after_a_dose_change_returns_what_it_raised_and_asks_for_a_survey(
+        session, make_person, make_instrument, authorise, make_dose, use_limit_set):
+    use_limit_set("icrp103")
+    person = make_person()
+    instrument = make_instrument()
+    authorise(person, instrument)
+    _use(session, person, instrument, 3)
+    make_dose(person, value=1.5, **NOVEMBER)
+    raised = review_after_dose_change(session, ON)
+    session.commit()
+    # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md, investigation levels)
+    assert [(i.person_id, i.period, i.period_start, i.level) for i in raised] == [
+        (person.id, "quarter", date(2026, 10, 1), "level_1")]
+    stored = session.scalars(sa.select(Investigation)).all()
+    assert [i.id for i in stored] == [raised[0].id]
+    tasks = session.scalars(sa.select(SurveyTask)).all()
+    assert [(t.instrument_id, t.trigger) for t in tasks] == [(instrument.id, "dose_rise")]
+    # Nothing new since: the next review raises nothing and asks for no second survey.
+    assert review_after_dose_change(session, ON) == []
+    assert session.scalar(sa.select(sa.func.count()).select_from(SurveyTask)) == 1
 
 
 def test_no_survey_task_for_someone_not_authorised(

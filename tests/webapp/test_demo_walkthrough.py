@@ -47,7 +47,7 @@ def _instrument(name_start: str) -> Instrument:
 def test_the_person_above_a_level_heads_the_list_and_her_page_shows_it_all(demo, login):
     officer = login(demo("okessler"))
     lines = _attention(_text(officer.get("/")))
-    assert lines[0].startswith("level I: Lena Brandt: Hp(10) whole body, quarter")
+    assert lines[0].startswith("level I: Lena Brandt: Hp(10) whole body, calendar quarter")
     page = _text(officer.get(f"/exposure/person/{demo('lbrandt').id}"))
     assert "Dose by period" in page and "Dose records" in page
     assert "Dose at or above an investigation level." in page

@@ -11,7 +11,7 @@ from models.exposure import lab_ops
 from models.exposure.cache import UntilChanged
 from models.exposure.tables import Investigation
 from models.people.tables import Role
-from webapp.slots import Attention, Severity, attention
+from webapp.slots import Attention, Registration, Severity, attention
 
 ON = date(2026, 11, 15)  # day 46 of the 92-day fourth quarter: half of it has gone
 OCTOBER = {"wear_start": date(2026, 10, 1), "wear_end": date(2026, 10, 31)}
@@ -82,7 +82,7 @@ def test_show_prints_a_table_with_the_policies_in_force(app, make_person, make_d
     assert "not the official dose record" in text
     header = next(line for line in text.splitlines() if line.startswith("For "))
     quarter = next(line for line in text.splitlines()
-                   if line.startswith("effective") and " quarter " in line)
+                   if line.startswith("whole body, Hp(10)") and " calendar quarter " in line)
     assert "Hp(10)" in quarter and "whole body" in quarter
     assert "1.500" in quarter and "level I" in quarter
     # Aligned: the dose column ends where its heading ends.
@@ -170,9 +170,9 @@ def test_review_and_sign_off(session, make_person, login, crossing):
     client = login(make_person("rso", roles=(Role.SAFETY_OFFICER,)))
     url = f"/exposure/investigations/{crossing.id}"
     listing = client.get("/exposure/investigations/").get_data(as_text=True)
-    assert "Ada Example" in listing and "Hp(10) whole body, quarter from 2026-10-01" in listing
+    assert "Ada Example" in listing and "Hp(10) whole body, calendar quarter from 2026-10-01" in listing
     page = client.get(url).get_data(as_text=True)
-    assert "Hp(10) whole body, quarter from 2026-10-01, level I" in page
+    assert "Hp(10) whole body, calendar quarter from 2026-10-01, level I" in page
     assert f'href="/exposure/person/{crossing.person_id}"' in page
     assert "During the window, 2026-10-01 to 2026-12-31" in page
     assert "No sessions logged in this window." in page
@@ -213,7 +213,8 @@ def test_the_attention_list_puts_doses_first_in_order_of_severity(
                               dose_msv=1.3))
     session.commit()
     other = Attention(Severity.OUT_OF_SERVICE, "Name instrument out of service", "/x", "")
-    monkeypatch.setattr(attention, "sources", [lambda: [other], *attention.sources])
+    monkeypatch.setattr(attention, "entries", [*attention.entries,
+                                               Registration(0, frozenset(), "test", lambda: [other])])
     page = login(make_person("rso", roles=(Role.SAFETY_OFFICER,))).get("/")
     html = page.get_data(as_text=True)
     order = ["Name limit", "Name two", "Name one", "Name projected", "Investigation open: Name old",
@@ -221,9 +222,9 @@ def test_the_attention_list_puts_doses_first_in_order_of_severity(
     positions = [html.index(name) for name in order]
     assert positions == sorted(positions)
     assert "Name calm" not in html
-    assert "Name one: Hp(10) whole body, quarter: 1.500 mSv, level I" in html
-    assert ("Name projected: Hp(10) whole body, quarter: 1.000 mSv, projected to reach level I "
-            "by the end of the quarter") in html
+    assert "Name one: Hp(10) whole body, calendar quarter: 1.500 mSv, level I" in html
+    assert ("Name projected: Hp(10) whole body, calendar quarter: 1.000 mSv, projected to reach level I "
+            "by its end") in html
     assert 'href="/exposure/person/' in html
 
 

@@ -8,7 +8,7 @@ from flask import abort, g, jsonify, request
 from werkzeug.exceptions import HTTPException
 
 from models.audit.audit_ops import set_actor
-from models.core.errors import Invalid
+from models.core.errors import Invalid, errors_of
 from models.doses.tables import Dosimeter
 from models.instruments.token_ops import instrument_for_token, token_hash
 from models.people.person_ops import find_person
@@ -140,14 +140,11 @@ def _operator(body: dict) -> Person | None:
     return find_person(db.session, login.strip()) if isinstance(login, str) else None
 
 
-def _checked(body: dict, check) -> tuple[Person, dict]:
+def _validated(body: dict, validate) -> tuple[Person, dict]:
     """Read the body and run the session rules on it; every problem is reported together."""
     operator = _operator(body)
     values, errors = _values(body, operator)
-    try:
-        check(operator, values)
-    except Invalid as error:
-        errors = {**error.errors, **errors}
+    errors = {**errors_of(lambda: validate(operator, values)), **errors}
     if errors:
         # The form calls this field dosimeter_id; the API names dosimeters by serial.
         if "dosimeter_id" in errors:
@@ -184,7 +181,7 @@ def as_json(entry: InstrumentSession) -> dict:
 def open_():
     """Open a session on the token's instrument."""
     instrument, body = g.instrument, _body()
-    operator, values = _checked(body, lambda op, v: validate_opening(db.session, instrument, op, v))
+    operator, values = _validated(body, lambda op, v: validate_opening(db.session, instrument, op, v))
     entry = open_session(db.session, instrument, operator, values, source=EntrySource.API)
     db.session.commit()
     return jsonify(as_json(entry)), 201
@@ -194,7 +191,7 @@ def open_():
 def finished():
     """Log a session that already ended."""
     instrument, body = g.instrument, _body()
-    operator, values = _checked(body, lambda op, v: validate_finished(db.session, instrument, op, v))
+    operator, values = _validated(body, lambda op, v: validate_finished(db.session, instrument, op, v))
     entry = log_finished_session(db.session, instrument, operator, values, source=EntrySource.API)
     db.session.commit()
     return jsonify(as_json(entry)), 201

@@ -4,6 +4,7 @@ from __future__ import annotations
 import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
+from flask_wtf import FlaskForm
 
 from models.audit import audit_ops
 from models.checks.check_ops import (
@@ -32,7 +33,6 @@ from models.checks.checklist_ops import (
 )
 from models.checks.tables import SafetyCheck, TemporaryControl
 from models.core.base import utcnow
-from models.core.errors import Invalid
 from models.core.settings import lab_date
 from models.due.due_list_ops import check_item, horizon
 from models.instruments.instrument_ops import active_instruments
@@ -44,14 +44,17 @@ from webapp.checks import bp
 from webapp.checks.forms import ControlForm, ItemForm, ReasonForm, check_form
 from webapp.extensions import db
 from webapp.formatting import local
-from webapp.forms import validate_with
+from webapp.forms import error_text, validate_with
 from webapp.mail import tell_safety_officer
-from webapp.slots import Attention, Severity, attention, instrument_sections, settings_sections
+from webapp.slots import Attention, Severity, attention, instrument_sections, request_hooks, settings_sections
 
 
-@bp.before_app_request
+@request_hooks.add(order=10)
 def _lapse_controls() -> None:
-    """Apply expired temporary controls before anything reads an instrument's status."""
+    """Apply expired temporary controls before anything reads an instrument's status.
+
+    Ordered before the hook that names the actor, so the lapse is recorded as the system's doing.
+    """
     held = lapse_expired_controls(db.session, utcnow())
     if held:
         db.session.commit()
@@ -87,10 +90,10 @@ def new(instrument_id: int):
     def meter():
         return db.session.get(SurveyMeter, form.meter_pk()) if form.meter_pk() else None
 
-    def check(f):
+    def validate(f):
         validate_check(db.session, instrument, f.performed_at_utc(), f.answers(items), meter(), now)
 
-    if validate_with(form, check):
+    if validate_with(form, validate):
         safety_check = record_check(db.session, instrument, current_user, form.performed_at_utc(),
                                     form.answers(items), meter(), form.notes.data, now)
         db.session.commit()
@@ -147,30 +150,24 @@ def add(instrument_id: int):
     instrument = _instrument(instrument_id)
     template = checklist_for(db.session, instrument)
     form = ItemForm()
-    if form.validate_on_submit():
-        add_item(db.session, template, form.text.data)
+    if validate_with(form, lambda f: add_item(db.session, template, f.text.data)):
         db.session.commit()
         flash("Item added.", "info")
         return redirect(url_for("checks.checklist", instrument_id=instrument.id))
     return _checklist_page(instrument, template, form, 400)
 
 
-def _item_action(item_id: int, action, done: str, form=None):
-    """Load an item, run an edit on it, commit, and go back to its checklist."""
+def _item_action(item_id: int, action, done: str, form: FlaskForm | None = None):
+    """Load an item, run an edit on it, commit, and go back to its checklist (errors flashed there)."""
     item = db.session.get(ChecklistItem, item_id) or abort(404)
     instrument = db.session.scalar(sa.select(Instrument).where(
         Instrument.checklist_template_id == item.template_id)) or abort(404)
-    if form is not None and not form.validate_on_submit():
-        flash(" ".join(e for errors in form.errors.values() for e in errors), "error")
+    form = FlaskForm() if form is None else form
+    if validate_with(form, lambda f: action(item)):
+        db.session.commit()
+        flash(done, "info")
     else:
-        try:
-            action(item)
-        except Invalid as error:
-            db.session.rollback()
-            flash(" ".join(error.errors.values()), "error")
-        else:
-            db.session.commit()
-            flash(done, "info")
+        flash(error_text(form), "error")
     return redirect(url_for("checks.checklist", instrument_id=instrument.id))
 
 
@@ -219,9 +216,8 @@ def control(instrument_id: int):
     instrument = _instrument(instrument_id)
     now = utcnow()
     form = ControlForm()
-    check = lambda f: validate_control(db.session, instrument, f.description.data,  # noqa: E731
-                                    f.expires_at_utc(), now)
-    if validate_with(form, check):
+    if validate_with(form, lambda f: validate_control(db.session, instrument, f.description.data,
+                                                     f.expires_at_utc(), now)):
         record_control(db.session, instrument, current_user, form.description.data,
                        form.expires_at_utc(), now)
         db.session.commit()
@@ -238,17 +234,20 @@ def end(control_id: int):
     """Withdraw temporary controls before their expiry."""
     control_row = db.session.get(TemporaryControl, control_id) or abort(404)
     form = ReasonForm()
-    if form.validate_on_submit():
-        with audit_ops.reason(db.session, form.reason.data):
+
+    def withdraw(f):
+        with audit_ops.reason(db.session, f.reason.data):
             end_control(db.session, control_row, utcnow())
+
+    if validate_with(form, withdraw):
         db.session.commit()
         flash("Temporary controls withdrawn.", "info")
     else:
-        flash("Say why the controls are withdrawn.", "error")
+        flash(error_text(form), "error")
     return redirect(url_for("instruments.show", instrument_id=control_row.instrument_id))
 
 
-@instrument_sections.add("checks/_section.html", order=20)
+@instrument_sections.add("checks/_section.html", order=25)
 def _section(instrument: Instrument) -> dict:
     """Next check due and its state, temporary controls, and the check history."""
     now = utcnow()
@@ -270,7 +269,7 @@ def _settings(_lab) -> dict:
     return {"instruments": active_instruments(db.session)}
 
 
-@attention.add
+@attention.add(order=20)
 def _attention() -> list[Attention]:
     """Instruments out of service, held by a failed check, or running under temporary controls."""
     now = utcnow()

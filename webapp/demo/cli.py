@@ -7,11 +7,12 @@ from zoneinfo import ZoneInfo
 import click
 
 from models.audit import audit_ops
+from models.exposure.investigation_ops import review_after_dose_change
 from models.people.person_ops import find_person
 from models.people.tables import CATEGORY_LABELS, ROLE_LABELS
 from webapp.demo import bp
 from webapp.demo.lab import DEMO_PASSWORD, LAB_ZONE, PEOPLE, is_empty, load_demo_lab
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.passwords import hash_password
 
@@ -32,9 +33,10 @@ def load(if_empty, today):
     click.echo("Loading the demo lab (hashing the shared password once, then two years of records)...")
     with audit_ops.reason(db.session, "Demo lab loaded"):
         summary = load_demo_lab(db.session, day, hash_password(DEMO_PASSWORD))
-    db.session.commit()
     # As after any import: doses over a level raise investigations for the safety officer.
-    raised = review_dose_levels(day)
+    raised = review_after_dose_change(db.session, day)
+    db.session.commit()
+    tell_about(raised)
     click.echo(f"Loaded the demo lab up to {day.isoformat()}: {summary.people} people, "
                f"{summary.instruments} instruments, {summary.sessions} sessions, "
                f"{summary.checks} checks, {summary.surveys} surveys, "

@@ -9,10 +9,11 @@ import sqlalchemy as sa
 from models.core.errors import Invalid
 from models.doses.import_ops import PRODUCT_LAYOUT, commit_report, layout_of, validate_report
 from models.doses.tables import ImportMapping
-from models.exposure.investigation_ops import investigation_label
+from models.exposure.investigation_ops import investigation_label, review_after_dose_change
 from webapp.doses import bp
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
+from webapp.formatting import lab_today
 
 
 @bp.cli.command("import")
@@ -51,8 +52,10 @@ def import_report(file, mapping, dry_run):
     except Invalid as error:
         db.session.rollback()
         raise click.ClickException(" ".join(error.errors.values())) from error
+    raised = review_after_dose_change(db.session, lab_today())
     db.session.commit()
     click.echo(f"Imported {batch.row_count} dose records as batch #{batch.id}.")
-    for investigation in review_dose_levels():
+    tell_about(raised)
+    for investigation in raised:
         click.echo(f"Investigation raised: {investigation_label(investigation)} "
                    f"({investigation.person.name}).")

@@ -5,7 +5,6 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, request, url_for
 from sqlalchemy.orm import joinedload
 
-from models.core.errors import Invalid
 from models.doses.dosimeter_ops import (
     RESULT_GRACE_DAYS,
     issue_dosimeter,
@@ -21,7 +20,7 @@ from webapp.doses.forms import IssueForm, ReturnForm, worn_to_kind
 from webapp.doses.views import people_choices
 from webapp.extensions import db
 from webapp.formatting import lab_today
-from webapp.forms import validate_with
+from webapp.forms import error_text, validate_with
 
 
 @bp.route("/doses/dosimeters/")
@@ -44,13 +43,13 @@ def issue():
         form.wearer.data = request.args.get("person", type=int)
         form.issued_on.data = lab_today()
 
-    def check(f):
+    def validate(f):
         """The domain's checks on the submitted dosimeter."""
         kind, hand = worn_to_kind(f.worn.data)
         validate_issue(db.session, serial=f.serial.data, kind=kind, hand=hand, wearer_id=f.wearer.data,
                     issued_on=f.issued_on.data)
 
-    if validate_with(form, check):
+    if validate_with(form, validate):
         kind, hand = worn_to_kind(form.worn.data)
         dosimeter = issue_dosimeter(db.session, serial=form.serial.data, kind=kind, hand=hand,
                                     wearer_id=form.wearer.data, issued_on=form.issued_on.data,
@@ -67,16 +66,11 @@ def return_(dosimeter_id: int):
     """Record that a dosimeter came back for good."""
     dosimeter = db.session.get(Dosimeter, dosimeter_id) or abort(404)
     form = ReturnForm()
-    try:
-        if not form.validate_on_submit():
-            raise Invalid.one("returned_on", "Enter the return date.")
-        return_dosimeter(db.session, dosimeter, form.returned_on.data)
-    except Invalid as error:
-        db.session.rollback()
-        flash(f"Dosimeter {dosimeter.serial}: {' '.join(error.errors.values())}", "error")
-    else:
+    if validate_with(form, lambda f: return_dosimeter(db.session, dosimeter, f.returned_on.data)):
         db.session.commit()
         flash(f"Dosimeter {dosimeter.serial} returned on {dosimeter.returned_on}.", "info")
+    else:
+        flash(f"Dosimeter {dosimeter.serial}: {error_text(form)}", "error")
     return redirect(url_for("doses.dosimeters"))
 
 

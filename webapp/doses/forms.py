@@ -7,25 +7,13 @@ from wtforms import DateField, FloatField, SelectField, StringField, TextAreaFie
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
 from models.core.codes import Location, Quantity, Result
+from models.core.labels import LOCATION_LABELS, RESULT_LABELS
 from models.core.units import DOSE_UNITS
 from models.doses.import_ops import FIELD_LABELS, FIELDS, ISO_DATE
 from models.doses.record_ops import DoseEntry
-from models.doses.tables import DoseSource, DosimeterKind, ExchangeCycle, Hand
+from models.doses.tables import SOURCE_LABELS, DoseSource, DosimeterKind, ExchangeCycle, Hand
 from webapp.forms import choices
 
-RESULT_LABELS = {
-    Result.MEASURED: "Measured", Result.BELOW_MRD: "Below the minimum reportable dose (MRD)",
-    Result.UNUSED: "Unused (not worn)", Result.LOST: "Lost", Result.NOT_RETURNED: "Not returned",
-}
-SOURCE_LABELS = {
-    DoseSource.DOSIMETRY_REPORT: "Dosimetry report",
-    DoseSource.RSO_ESTIMATE: "Estimate by the safety officer",
-    DoseSource.INCIDENT_ESTIMATE: "Estimate after an incident",
-}
-LOCATION_LABELS = {
-    Location.WHOLE_BODY: "Whole body", Location.LEFT_HAND: "Left hand",
-    Location.RIGHT_HAND: "Right hand", Location.EYE: "Eye (lens)", Location.ABDOMEN: "Abdomen",
-}
 # Kind and hand in one choice, since a ring always names its hand.
 WORN_CHOICES = [("whole_body", "Whole body"), ("ring_left", "Ring, left hand"),
                 ("ring_right", "Ring, right hand"), ("eye", "Eye (lens)"), ("abdomen", "Abdomen")]
@@ -36,14 +24,6 @@ def worn_to_kind(worn: str) -> tuple[DosimeterKind, Hand | None]:
     if worn.startswith("ring_"):
         return DosimeterKind.RING, Hand(worn.removeprefix("ring_"))
     return DosimeterKind(worn), None
-
-
-def _member(cls, value):
-    """The enum member for a submitted value, or None when it is not one."""
-    try:
-        return cls(value)
-    except ValueError:
-        return None
 
 
 class DoseForm(FlaskForm):
@@ -68,18 +48,13 @@ class DoseForm(FlaskForm):
     basis = TextAreaField("Basis of the estimate", validators=[Length(max=4000)],
                           description="For an estimate: how the dose was worked out.")
 
-    def entry(self, person_id: int | None = None) -> DoseEntry | None:
-        """The entry the form describes (for `person_id` when given), or None on an unknown code."""
-        members = [_member(cls, f.data) for cls, f in (
-            (Quantity, self.quantity), (Location, self.location), (Result, self.result),
-            (DoseSource, self.source))]
-        if None in members:
-            return None
-        quantity, location, result, source = members
+    def entry(self, person_id: int | None = None) -> DoseEntry:
+        """The entry the form describes (for `person_id` when given); the fields must have passed."""
         return DoseEntry(person_id=person_id or self.person.data, dosimeter_id=self.dosimeter.data,
                          wear_start=self.wear_start.data, wear_end=self.wear_end.data,
-                         quantity=quantity, location=location, result=result, value=self.value.data,
-                         unit=self.unit.data, mrd=self.mrd.data, source=source, basis=self.basis.data)
+                         quantity=Quantity(self.quantity.data), location=Location(self.location.data),
+                         result=Result(self.result.data), value=self.value.data, unit=self.unit.data,
+                         mrd=self.mrd.data, source=DoseSource(self.source.data), basis=self.basis.data)
 
 
 class AmendForm(DoseForm):

@@ -8,6 +8,7 @@ from hashlib import sha256
 import sqlalchemy as sa
 from flask import abort, current_app, flash, redirect, render_template, request, url_for
 from flask_login import current_user
+from flask_wtf import FlaskForm
 
 from models.core.errors import Invalid
 from models.doses.import_ops import (
@@ -22,13 +23,15 @@ from models.doses.import_ops import (
     validate_report,
 )
 from models.doses.tables import DoseRecord, ImportBatch, ImportMapping
+from models.exposure.investigation_ops import review_after_dose_change
 from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.doses import bp
 from webapp.doses.forms import MappingForm, UploadForm
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
-from webapp.forms import attach_errors
+from webapp.formatting import lab_today
+from webapp.forms import error_text, validate_with
 
 NEW_MAPPING = "new"
 _SHA = re.compile(r"[0-9a-f]{64}")
@@ -104,19 +107,12 @@ def import_mapping(sha: str):
         field.choices = [("", "Not in the file")] + [(h, h) for h in header if h]
         if not form.is_submitted():
             field.data = next((h for h in header if h.lower() == name), "")
-    if form.validate_on_submit():
-        try:
-            mapping = save_mapping(db.session, name=form.name.data,
-                                   columns={n: getattr(form, n).data for n in FIELDS},
-                                   date_format=form.date_format.data.strip(),
-                                   default_unit=form.default_unit.data)
-        except Invalid as error:
-            db.session.rollback()
-            attach_errors(form, error)
-        else:
-            db.session.commit()
-            flash(f"Mapping '{mapping.name}' saved.", "info")
-            return redirect(url_for("doses.import_preview", sha=sha, layout=mapping.id, filename=filename))
+    if saved := validate_with(form, lambda f: save_mapping(
+            db.session, name=f.name.data, columns={n: getattr(f, n).data for n in FIELDS},
+            date_format=f.date_format.data.strip(), default_unit=f.default_unit.data)):
+        db.session.commit()
+        flash(f"Mapping '{saved.value.name}' saved.", "info")
+        return redirect(url_for("doses.import_preview", sha=sha, layout=saved.value.id, filename=filename))
     return render_template("doses/mapping.html", form=form, fields=FIELDS, filename=filename)
 
 
@@ -138,17 +134,18 @@ def import_commit(sha: str):
     layout_key = request.form.get("layout", "")
     filename = request.form.get("filename", "report.csv")[:255]
     preview = validate_report(db.session, _stored(sha), _layout(layout_key), filename)
-    try:
-        batch = commit_report(db.session, preview, imported_by_id=current_user.id)
-    except Invalid as error:
-        db.session.rollback()
-        flash(" ".join(error.errors.values()), "error")
+    form = FlaskForm()
+    if not (added := validate_with(form, lambda f: commit_report(db.session, preview,
+                                                                 imported_by_id=current_user.id))):
+        flash(error_text(form), "error")
         return redirect(url_for("doses.import_preview", sha=sha, layout=layout_key, filename=filename))
+    batch = added.value
     if batch is None:
         flash(f"This file was already imported (batch #{preview.earlier.id}); nothing was added.", "warning")
         return redirect(url_for("doses.import_batch", batch_id=preview.earlier.id))
+    raised = review_after_dose_change(db.session, lab_today())
     db.session.commit()
-    review_dose_levels()
+    tell_about(raised)
     os.remove(_upload_path(sha))
     flash(f"Imported {batch.row_count} dose records as batch #{batch.id}.", "info")
     return redirect(url_for("doses.import_batch", batch_id=batch.id))

@@ -5,6 +5,7 @@ from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 
 from models.core.errors import Invalid
+from models.exposure.investigation_ops import review_after_dose_change
 from models.exposure.pregnancy_ops import (
     END_REASONS,
     ENDED,
@@ -15,15 +16,16 @@ from models.exposure.pregnancy_ops import (
     open_declaration,
     open_declarations,
 )
+from models.exposure.tables import Investigation
 from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.doses import bp
 from webapp.doses.forms import DeclareForm, EndForm
 from webapp.doses.views import DOSE_ROLES, person_or_403
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today
-from webapp.forms import attach_errors
+from webapp.forms import validate_with
 from webapp.mail import tell_safety_officer
 
 # Who may do what: the person declares and withdraws; the safety officer declares for them and
@@ -87,23 +89,23 @@ def pregnancy_change(person_id: int, action: str):
         abort(403)
     declare_form, end_form = DeclareForm(), EndForm()
     form = declare_form if action == "declare" else end_form
-    if not form.validate_on_submit():
-        return _page(person_id, declare_form, end_form, 400)
-    try:
+
+    def change(f) -> list[Investigation]:
         if action == "declare":
-            declare(db.session, person_id, declare_form.declared_on.data, today=lab_today(),
+            declare(db.session, person_id, f.declared_on.data, today=lab_today(),
                     recorded_by_id=current_user.id)
         else:
             current = open_declaration(db.session, person_id)
             if current is None:
                 raise Invalid.one("ended_on", "No declaration is in force.")
-            end_declaration(db.session, current, end_form.ended_on.data, action, today=lab_today())
-    except Invalid as error:
-        db.session.rollback()
-        attach_errors(form, error)
+            end_declaration(db.session, current, f.ended_on.data, action, today=lab_today())
+        return review_after_dose_change(db.session, lab_today())
+
+    if not (changed := validate_with(form, change)):
         return _page(person_id, declare_form, end_form, 400)
+    raised = changed.value
     db.session.commit()
-    review_dose_levels()
+    tell_about(raised)
     if action == "declare" and current_user.id == person_id:
         tell_safety_officer("A declaration needs your review",
                             f"{subject.name} recorded a pregnancy declaration dated "

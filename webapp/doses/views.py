@@ -6,17 +6,19 @@ from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user
 from sqlalchemy.orm import joinedload
 
+from models.core.labels import LOCATION_LABELS, RESULT_LABELS
 from models.doses.dosimeter_ops import describe_dosimeter, missing_results, wear_period
 from models.doses.record_ops import add_dose_record, amend_dose_record, entry_of, validate_amendment, validate_entry
-from models.doses.tables import DoseRecord, Dosimeter
+from models.doses.tables import SOURCE_LABELS, DoseRecord, Dosimeter
 from models.doses.version_ops import chains, history, is_current
 from models.exposure.cache import UntilChanged
+from models.exposure.investigation_ops import review_after_dose_change
 from models.exposure.pregnancy_ops import declarations_of
 from models.people.tables import Person, Role
 from webapp.access import can_see_dose_of, roles_required
 from webapp.doses import bp
-from webapp.doses.forms import LOCATION_LABELS, RESULT_LABELS, SOURCE_LABELS, AmendForm, DoseForm
-from webapp.exposure.notify import review_dose_levels
+from webapp.doses.forms import AmendForm, DoseForm
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today
 from webapp.forms import validate_with
@@ -106,10 +108,11 @@ def new():
     form.dosimeter.choices = _dosimeter_choices()
     if not form.is_submitted():
         form.person.data = request.args.get("person", type=int)
-    if validate_with(form, lambda f: f.entry() and validate_entry(db.session, f.entry())):
+    if validate_with(form, lambda f: validate_entry(db.session, f.entry())):
         added = add_dose_record(db.session, form.entry(), created_by_id=current_user.id)
+        raised = review_after_dose_change(db.session, lab_today())
         db.session.commit()
-        review_dose_levels()
+        tell_about(raised)
         flash("Dose record saved.", "info")
         return redirect(url_for("doses.record", record_id=added.id))
     return render_template("doses/record_form.html", form=form, original=None)
@@ -135,18 +138,18 @@ def amend(record_id: int):
             getattr(form, name).data = getattr(entry, name).value
         form.dosimeter.data = entry.dosimeter_id
     entry = lambda f: f.entry(person_id=original.person_id)  # noqa: E731
-    if validate_with(form, lambda f: entry(f) and validate_amendment(db.session, original, entry(f),
-                                                                    f.reason.data)):
+    if validate_with(form, lambda f: validate_amendment(db.session, original, entry(f), f.reason.data)):
         version = amend_dose_record(db.session, original, entry(form), form.reason.data,
                                     created_by_id=current_user.id)
+        raised = review_after_dose_change(db.session, lab_today())
         db.session.commit()
-        review_dose_levels()
+        tell_about(raised)
         flash(f"Saved as version {version.version}; version {original.version} stays on file.", "info")
         return redirect(url_for("doses.record", record_id=version.id))
     return render_template("doses/record_form.html", form=form, original=original)
 
 
-@attention.add
+@attention.add(order=50)
 def _not_returned() -> list[Attention]:
     """Dosimeters whose result never came, for the safety officer's list (kept until records change)."""
     return _not_returned_lines.get(db.session, lab_today(), _not_returned_now)

@@ -38,7 +38,7 @@ OTHER_TARGETS = {"meter": ("surveys.meter", "meter_id"), "permit": ("surveys.per
 LATE_SEVERITY = {CHECK: Severity.OVERDUE, SURVEY: Severity.OVERDUE,
                  DOSIMETER: Severity.DOSIMETER_NOT_RETURNED, REFRESHER: Severity.TRAINING}
 
-navigation.add("What is due", "due.index", {Role.OPERATOR, Role.SAFETY_OFFICER}, order=30)
+navigation.add("What is due", "due.index", {Role.OPERATOR, Role.SAFETY_OFFICER}, order=32)
 
 
 def target_url(item: DueItem, external: bool = False) -> str:
@@ -54,9 +54,9 @@ def target_url(item: DueItem, external: bool = False) -> str:
     return url_for("due.index", _external=external)
 
 
-@bp.app_context_processor
+@bp.context_processor
 def _helpers() -> dict:
-    """Let templates link and colour due items."""
+    """Let this area's pages link and colour due items."""
     return {"due_url": target_url, "due_class": STATE_CLASS}
 
 
@@ -72,11 +72,11 @@ def index():
                            lab=lab, show_all=show_all, soon_days=settings().due_soon_days)
 
 
-@home_panels.add("due/_panel.html", roles={Role.OPERATOR}, order=20)
+@home_panels.add("due/_panel.html", roles={Role.OPERATOR}, order=25)
 def _panel(person) -> dict:
     """The operator's own tasks that are due soon or late."""
     return {"tasks": pending(person_items(db.session, person, utcnow())),
-            "soon_days": settings().due_soon_days}
+            "soon_days": settings().due_soon_days, "url": target_url, "state_class": STATE_CLASS}
 
 
 @settings_sections.add("due/_settings.html", order=20)
@@ -88,7 +88,7 @@ def _settings(lab) -> dict:
             "meter_months": due_dates.METER_CALIBRATION_MONTHS, "refresher_months": due_dates.REFRESHER_MONTHS}
 
 
-@attention.add
+@attention.add(order=40)
 def _attention() -> list[Attention]:
     """Late or never-done tasks across the lab, and training running out soon."""
     lines = []

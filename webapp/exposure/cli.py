@@ -19,10 +19,11 @@ from models.core.labels import (
 from models.core.settings import lab_settings
 from models.core.units import from_msv
 from models.exposure.evaluation import person_rows
+from models.exposure.investigation_ops import review_after_dose_change
 from models.exposure.lab_ops import LabEvaluation, evaluate_lab, limit_set_of
 from models.people.person_ops import find_person
 from webapp.exposure import bp
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today
 
@@ -109,5 +110,7 @@ def _table(rows: list[dict], unit: str) -> str:
               help="Evaluation date, YYYY-MM-DD (default: today in the lab's time zone).")
 def review(on):
     """Raise investigations for new level crossings, e-mail them, ask for surveys (for cron)."""
-    raised = review_dose_levels(on.date() if on else None)
+    raised = review_after_dose_change(db.session, on.date() if on else lab_today())
+    db.session.commit()
+    tell_about(raised)
     click.echo(f"{len(raised)} new investigation(s) raised.")

@@ -1,50 +1,25 @@
-"""Readable names for the dose codes, shared by the exposure pages, the limit pages and their forms."""
+"""The label tables the exposure pages use, under short names for templates; the tables live in the domain."""
 from __future__ import annotations
 
-from models.core.codes import Level, LevelKind, PeriodKind, Series, WorkerCategory
-from models.core.labels import LENS_LABELS, LEVEL_LABELS, LOCATION_LABELS, MRD_LABELS, PRORATION_LABELS
-from models.people.tables import CATEGORY_LABELS
+from models.core.codes import Level
+from models.core.labels import LENS_LABELS as LENS
+from models.core.labels import LEVEL_KIND_LABELS as LEVEL_KIND
+from models.core.labels import LEVEL_LABELS as LEVEL
+from models.core.labels import LOCATION_LABELS as LOCATION
+from models.core.labels import MRD_LABELS as MRD
+from models.core.labels import PERIOD_LABELS as PERIOD
+from models.core.labels import PRORATION_LABELS as PRORATION
+from models.core.labels import RESULT_LABELS as RESULT
+from models.core.labels import SERIES_LABELS as SERIES
+from models.doses.tables import SOURCE_LABELS as SOURCE
+from models.people.tables import CATEGORY_LABELS as CATEGORY
 
-SERIES = {
-    Series.EFFECTIVE: "Whole body, Hp(10)",
-    Series.SKIN: "Skin, Hp(0.07)",
-    Series.LENS: "Lens of the eye",
-    Series.LEFT_HAND: "Left hand, Hp(0.07)",
-    Series.RIGHT_HAND: "Right hand, Hp(0.07)",
-    Series.WORST_HAND: "Worse hand, Hp(0.07)",
-    Series.FETUS: "Embryo/fetus, Hp(10)",
-}
-PERIOD = {
-    PeriodKind.YEAR: "Calendar year",
-    PeriodKind.ROLLING_12_MONTHS: "Last 12 months",
-    PeriodKind.QUARTER: "Calendar quarter",
-    PeriodKind.MONTH: "Calendar month",
-    PeriodKind.FIVE_YEAR_BLOCK: "Five-year block",
-    PeriodKind.ROLLING_FIVE_YEARS: "Last five years",
-    PeriodKind.PREGNANCY: "Since the pregnancy declaration",
-}
-LEVEL = LEVEL_LABELS
+__all__ = ["CATEGORY", "LENS", "LEVEL", "LEVEL_CSS", "LEVEL_KIND", "LOCATION", "MRD", "PERIOD", "PRORATION",
+           "RESULT", "SERIES", "SOURCE"]
+
 LEVEL_CSS = {
     Level.BELOW_1: "state-good",
     Level.LEVEL_1: "state-warn",
     Level.LEVEL_2: "state-bad",
     Level.LIMIT_REACHED: "state-bad",
-}
-LOCATION = LOCATION_LABELS
-CATEGORY = {**CATEGORY_LABELS, WorkerCategory.DECLARED_PREGNANT: "Declared pregnant worker"}
-PRORATION = PRORATION_LABELS
-MRD = MRD_LABELS
-LENS = LENS_LABELS
-LEVEL_KIND = {LevelKind.FRACTION: "fraction of the limit", LevelKind.ABSOLUTE: "mSv per period"}
-RESULT = {
-    "measured": "measured",
-    "below_mrd": "below MRD",
-    "unused": "unused",
-    "lost": "lost",
-    "not_returned": "not returned",
-}
-SOURCE = {
-    "dosimetry_report": "dosimetry report",
-    "rso_estimate": "estimate by the safety officer",
-    "incident_estimate": "incident estimate",
 }

@@ -5,7 +5,6 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 
 from models.audit import audit_ops
-from models.core.errors import Invalid
 from models.exposure import presets
 from models.exposure.limit_set_ops import (
     choose_limit_set,
@@ -23,13 +22,13 @@ from webapp.exposure import bp, labels
 from webapp.exposure.forms import ChooseSetForm, CopyForm, PoliciesForm, ReasonForm, RuleForm
 from webapp.extensions import db
 from webapp.formatting import settings
-from webapp.forms import attach_errors, validate_with
+from webapp.forms import error_text, validate_with
 from webapp.slots import settings_sections
 
 RSO = Role.SAFETY_OFFICER
 
 
-@settings_sections.add("exposure/limits_settings_section.html", roles={RSO}, order=20)
+@settings_sections.add("exposure/limits_settings_section.html", roles={RSO}, order=25)
 def settings_section(lab) -> dict:
     """The set in force and the counting policies, with a link to change them."""
     return {"lab": lab, "labels": labels}
@@ -69,14 +68,13 @@ def limits_choose():
     form = ChooseSetForm()
     form.limit_set_id.choices = [(s.id, s.name) for s in _installed()]
 
-    def check(f):
+    def choose(f):
         """The set must exist and evaluate."""
         chosen = db.session.get(LimitSet, f.limit_set_id.data) if f.limit_set_id.data else None
         with audit_ops.reason(db.session, f.reason.data):
             choose_limit_set(db.session, settings(), chosen)
 
-    if not validate_with(form, check):
-        db.session.rollback()
+    if not validate_with(form, choose):
         return _index(choose=form, status=400)
     db.session.commit()
     flash(f"'{settings().limit_set.name}' is now the limit set in force.", "info")
@@ -89,14 +87,13 @@ def limits_policies():
     """Change how records are counted."""
     form = PoliciesForm()
 
-    def check(f):
+    def apply(f):
         """Apply the policies (rolled back if anything is wrong)."""
         with audit_ops.reason(db.session, f.reason.data):
             set_policies(db.session, settings(), {name: f[name].data for name in (
                 "proration", "mrd_policy", "lens_source", "five_year_first_year")})
 
-    if not validate_with(form, check):
-        db.session.rollback()
+    if not validate_with(form, apply):
         return _index(policies=form, status=400)
     db.session.commit()
     flash("Counting policies saved; every figure now follows them.", "info")
@@ -107,10 +104,9 @@ def limits_policies():
 @roles_required(RSO)
 def limits_install(key: str):
     """Store a shipped preset so it can be viewed, put in force or copied."""
-    try:
-        stored = install_preset(db.session, key)
-    except Invalid:
+    if key not in {p.key for p in presets.PRESETS}:
         abort(404)
+    stored = install_preset(db.session, key)
     db.session.commit()
     flash(f"'{stored.name}' is installed. It is read-only; copy it to change it.", "info")
     return redirect(url_for("exposure.limit_set", set_id=stored.id))
@@ -138,14 +134,9 @@ def limits_copy(set_id: int):
     """An editable copy of a set."""
     stored = _set(set_id)
     form = CopyForm()
-    if not form.validate_on_submit():
+    if not (copied := validate_with(form, lambda f: copy_limit_set(db.session, stored, f.name.data))):
         return limit_set(set_id, copy=form, status=400)
-    try:
-        copy = copy_limit_set(db.session, stored, form.name.data)
-    except Invalid as error:
-        db.session.rollback()
-        attach_errors(form, error)
-        return limit_set(set_id, copy=form, status=400)
+    copy = copied.value
     db.session.commit()
     flash(f"'{copy.name}' is an editable copy of '{stored.name}'.", "info")
     return redirect(url_for("exposure.limit_set", set_id=copy.id))
@@ -175,16 +166,15 @@ def limit_rule(set_id: int, rule_id: int | None = None):
         form.level1_kind.data = rule.level1_kind or ""
         form.level2_kind.data = rule.level2_kind or ""
 
-    def check(f):
+    def save(f):
         """Save the rule with the reason (rolled back if anything is wrong)."""
         with audit_ops.reason(db.session, f.reason.data):
             save_rule(db.session, stored, f.values(), rule)
 
-    if validate_with(form, check):
+    if validate_with(form, save):
         db.session.commit()
         flash("Rule saved.", "info")
         return redirect(url_for("exposure.limit_set", set_id=stored.id))
-    db.session.rollback()
     status = 400 if form.is_submitted() else 200
     return render_template("exposure/limits_rule.html", stored=stored, rule=rule, form=form,
                            in_force=settings().limit_set_id == stored.id), status
@@ -199,11 +189,14 @@ def limit_rule_remove(set_id: int, rule_id: int):
     if rule is None or rule.limit_set_id != stored.id:
         abort(404)
     form = ReasonForm()
-    if not form.validate_on_submit():
-        flash("Say why the rule is removed; nothing was changed.", "error")
+
+    def remove(f):
+        with audit_ops.reason(db.session, f.reason.data):
+            remove_rule(db.session, stored, rule)
+
+    if not validate_with(form, remove):
+        flash(f"{error_text(form)} Nothing was changed.", "error")
         return redirect(url_for("exposure.limit_set", set_id=stored.id))
-    with audit_ops.reason(db.session, form.reason.data):
-        remove_rule(db.session, stored, rule)
     db.session.commit()
     flash("Rule removed.", "info")
     return redirect(url_for("exposure.limit_set", set_id=stored.id))

@@ -1,39 +1,28 @@
-"""After dose records change: raise investigations for new crossings, ask for surveys, send e-mail."""
+"""E-mail about the investigations that `review_after_dose_change` raised."""
 from __future__ import annotations
 
 import smtplib
-from datetime import date
 
 from flask import current_app
 
 from models.core.codes import Level
 from models.core.labels import LEVEL_LABELS
-from models.exposure.investigation_ops import investigation_label, raise_investigations, raise_survey_tasks
-from models.exposure.lab_ops import cached_lab_evaluation
+from models.exposure.investigation_ops import investigation_label
 from models.exposure.tables import Investigation
-from webapp.extensions import db
-from webapp.formatting import dose, lab_today, lab_zone
+from webapp.formatting import dose
 from webapp.mail import link, send_mail, tell_safety_officer
 
 
-def review_dose_levels(on: date | None = None) -> list[Investigation]:
-    """Evaluate the lab on `on` (default today), commit new investigations, then e-mail each one.
+def tell_about(raised: list[Investigation]) -> None:
+    """E-mail each investigation raised to the person and the safety officer; call after committing.
 
-    Dose entry and import call this after committing their records; `flask exposure review`
-    runs it from cron so crossings that only a date change reveals are raised too.
+    The investigations are saved and head the attention list, so a lost e-mail is only logged.
     """
-    on = on or lab_today()
-    lab = cached_lab_evaluation(db.session, on)
-    new = raise_investigations(db.session, lab)
-    raise_survey_tasks(db.session, new, on, lab_zone())
-    db.session.commit()
-    for investigation in new:
+    for investigation in raised:
         try:
             _tell(investigation)
         except (smtplib.SMTPException, OSError):
-            # The investigation is saved and heads the attention list; a lost e-mail is logged.
             current_app.logger.exception("Could not e-mail about investigation %s", investigation.id)
-    return new
 
 
 def _tell(investigation: Investigation) -> None:

@@ -7,7 +7,7 @@ from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 
 from models.core.codes import Level, Location, PeriodKind, Quantity, Series, code, decode
-from models.core.labels import LEVEL_LABELS, PERIOD_LABELS, dose_row_label
+from models.core.labels import LEVEL_LABELS, dose_row_label
 from models.exposure.evaluation import worst_levels
 from models.exposure.investigation_ops import (
     investigation_label,
@@ -73,7 +73,7 @@ def investigation(investigation_id: int):
                            person_url=url_for("exposure.person", person_id=item.person_id))
 
 
-@attention.add
+@attention.add(order=60)
 def dose_levels() -> list[Attention]:
     """People at a level or a limit, or projected to cross one, from the cached evaluation."""
     lab = cached_lab_evaluation(db.session, lab_today())
@@ -98,7 +98,7 @@ def dose_levels() -> list[Attention]:
             severity, label = LEVEL_SEVERITY[level], LEVEL_LABELS[decode(Level, [level])[0]]
         else:
             text = (f"{name}: {_row_text(lab, p, s_proj, t_proj)}, projected to reach "
-                    f"{REACH[reach]} by the end of the {_period(t_proj)}")
+                    f"{REACH[reach]} by its end")
             severity, label = Severity.PROJECTED, "projected"
         lines.append(Attention(severity, text, url_for("exposure.person", person_id=int(lab.person_ids[p])),
                                label))
@@ -116,13 +116,8 @@ def _projected_rows(evaluation, people: np.ndarray) -> list[tuple[int, int]]:
             for i, a in enumerate(at)]
 
 
-def _period(t: int) -> str:
-    """The plain name of a period kind code."""
-    return PERIOD_LABELS[decode(PeriodKind, [t])[0]]
-
-
 def _row_label(lab, p: int, s: int, t: int) -> str:
-    """'Hp(10) whole body, quarter' for one row of the arrays."""
+    """'Hp(10) whole body, calendar quarter' for one row of the arrays."""
     totals = lab.totals
     return dose_row_label(decode(Series, [s])[0], decode(Quantity, [totals.quantity[p, s]])[0],
                           decode(Location, [totals.location[p, s, t]])[0],
@@ -134,7 +129,7 @@ def _row_text(lab, p: int, s: int, t: int) -> str:
     return f"{_row_label(lab, p, s, t)}: {dose(float(lab.totals.dose[p, s, t]))}"
 
 
-@attention.add
+@attention.add(order=61)
 def investigations_open() -> list[Attention]:
     """Investigations waiting for the safety officer's review and sign-off."""
     return [

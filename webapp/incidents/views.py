@@ -9,8 +9,9 @@ from flask_login import current_user, login_required
 
 from models.audit import audit_ops
 from models.core.codes import Location, Quantity
-from models.core.errors import Invalid
 from models.core.units import to_msv
+from models.exposure.investigation_ops import review_after_dose_change
+from models.exposure.tables import Investigation
 from models.incidents.incident_ops import (
     TYPE_LABELS,
     add_note,
@@ -28,10 +29,10 @@ from models.instruments.instrument_ops import active_instruments
 from models.instruments.tables import Instrument
 from models.people.tables import Person, Role
 from webapp.access import can_see_dose_of, roles_required
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
-from webapp.formatting import from_local, local
-from webapp.forms import attach_errors, validate_with
+from webapp.formatting import from_local, lab_today, local
+from webapp.forms import validate_with
 from webapp.incidents import bp
 from webapp.incidents.forms import CloseForm, DoseForm, NoteForm, ReportForm, StopForm
 from webapp.mail import link, tell_safety_officer
@@ -47,7 +48,7 @@ def _people() -> list[Person]:
                               .order_by(Person.name)).all()
 
 
-@attention.add
+@attention.add(order=10)
 def _open_incidents() -> list[Attention]:
     """Open incidents; a suspected exposure ranks at the top (see the module's README notes)."""
     lines = []
@@ -166,23 +167,20 @@ _FORM_NAMES = {NoteForm: "note_form", StopForm: "stop_form", DoseForm: "dose_for
 
 
 def _follow_up(incident_id: int, form, action, done: str, reason: str | None = None, after=None):
-    """Run one follow-up action from a form; commit, run `after`, redirect; or show the errors."""
+    """Run one follow-up action from a form; commit, pass its result to `after`, redirect; or show the errors."""
     incident = db.session.get(Incident, incident_id) or abort(404)
-    if form.validate_on_submit():
-        try:
-            with audit_ops.reason(db.session, reason):
-                action(incident, form)
-        except Invalid as error:
-            db.session.rollback()
-            attach_errors(form, error)
-        else:
-            db.session.commit()
-            if after is not None:
-                after()
-            flash(done, "info")
-            return redirect(url_for("incidents.show", incident_id=incident.id))
-    return _show(incident, **{_FORM_NAMES[type(form)]: form})
 
+    def run(f):
+        with audit_ops.reason(db.session, reason):
+            return action(incident, f)
+
+    if outcome := validate_with(form, run):
+        db.session.commit()
+        if after is not None:
+            after(outcome.value)
+        flash(done, "info")
+        return redirect(url_for("incidents.show", incident_id=incident.id))
+    return _show(incident, **{_FORM_NAMES[type(form)]: form})
 
 
 @bp.route("/incidents/<int:incident_id>/notes", methods=["POST"])
@@ -204,14 +202,15 @@ def out_of_service(incident_id: int):
                       reason=f"Incident {incident_id}: {form.reason.data or ''}".strip())
 
 
-def _record_dose(incident: Incident, form: DoseForm) -> None:
-    """Store the estimate, converting from the unit it was entered in."""
+def _record_dose(incident: Incident, form: DoseForm) -> list[Investigation]:
+    """Store the estimate, converting from the unit it was entered in; returns the investigations raised."""
     value = to_msv(form.value.data, form.unit.data)
     record_estimated_dose(
         db.session, incident, person=db.session.get(Person, optional_id(form.person_id.data) or 0),
         quantity=Quantity(form.quantity.data), location=Location(form.location.data),
         wear_start=form.wear_start.data, wear_end=form.wear_end.data, value_msv=value,
         basis=form.basis.data, entered_unit=form.unit.data, created_by=current_user)
+    return review_after_dose_change(db.session, lab_today())
 
 
 @bp.route("/incidents/<int:incident_id>/dose", methods=["POST"])
@@ -219,7 +218,7 @@ def _record_dose(incident: Incident, form: DoseForm) -> None:
 def dose(incident_id: int):
     """Record an estimated dose for one person."""
     return _follow_up(incident_id, DoseForm(), _record_dose, "Estimated dose recorded.",
-                      after=review_dose_levels)
+                      after=tell_about)
 
 
 @bp.route("/incidents/<int:incident_id>/close", methods=["POST"])

@@ -3,4 +3,4 @@ from flask import Blueprint
 
 bp = Blueprint("instruments", __name__, template_folder="templates", cli_group="instruments")
 
-from webapp.instruments import cli, views  # noqa: E402,F401
+from webapp.instruments import cli, panels, views  # noqa: E402,F401

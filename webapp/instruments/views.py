@@ -5,7 +5,6 @@ from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 
 from models.audit import audit_ops
-from models.core.errors import Invalid
 from models.instruments.instrument_ops import (
     active_instruments,
     retire_instrument,
@@ -18,7 +17,7 @@ from models.instruments.tables import KIND_LABELS, Instrument
 from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.extensions import db
-from webapp.forms import validate_with
+from webapp.forms import error_text, validate_with
 from webapp.instruments import bp
 from webapp.instruments.forms import InstrumentForm, ServiceForm
 from webapp.slots import instrument_sections
@@ -77,13 +76,16 @@ def retire(instrument_id: int):
     """Retire an instrument; its records stay."""
     instrument = db.session.get(Instrument, instrument_id) or abort(404)
     form = ServiceForm()
-    if form.validate_on_submit():
-        with audit_ops.reason(db.session, form.reason.data):
+
+    def retire(f):
+        with audit_ops.reason(db.session, f.reason.data):
             retire_instrument(db.session, instrument)
+
+    if validate_with(form, retire):
         db.session.commit()
         flash(f"{instrument.name} is retired.", "info")
     else:
-        flash("Give a reason to retire the instrument.", "error")
+        flash(error_text(form), "error")
     return redirect(url_for("instruments.show", instrument_id=instrument.id))
 
 
@@ -93,20 +95,18 @@ def service(instrument_id: int):
     """The safety officer takes an instrument out of service, or returns it, with a reason."""
     instrument = db.session.get(Instrument, instrument_id) or abort(404)
     form = ServiceForm()
-    if not form.validate_on_submit():
-        flash("Give a reason.", "error")
-        return redirect(url_for("instruments.show", instrument_id=instrument.id))
-    try:
-        with audit_ops.reason(db.session, form.reason.data):
+
+    def switch(f):
+        with audit_ops.reason(db.session, f.reason.data):
             if instrument.in_service:
-                set_out_of_service(db.session, instrument, form.reason.data)
+                set_out_of_service(db.session, instrument, f.reason.data)
             else:
                 return_to_service(db.session, instrument)
-    except Invalid as error:
-        db.session.rollback()
-        flash(" ".join(error.errors.values()), "error")
-    else:
+
+    if validate_with(form, switch):
         db.session.commit()
         flash(f"{instrument.name} is {'in service' if instrument.in_service else 'out of service'}.",
               "info")
+    else:
+        flash(error_text(form), "error")
     return redirect(url_for("instruments.show", instrument_id=instrument.id))

@@ -6,12 +6,11 @@ from flask import abort, flash, redirect, render_template, url_for
 
 from models.audit import audit_ops
 from models.core.codes import WorkerCategory
-from models.core.errors import Invalid
 from models.people.person_ops import add_person, set_active, update_person, validate_new_person
 from models.people.tables import Person, Role
 from webapp.access import roles_required
 from webapp.extensions import db
-from webapp.forms import attach_errors, validate_with
+from webapp.forms import error_text, validate_with
 from webapp.passwords import hash_password
 from webapp.people import bp
 from webapp.people.forms import DeactivateForm, NewPersonForm, PersonForm
@@ -49,18 +48,12 @@ def edit(person_id: int):
     form = PersonForm(obj=person)
     if not form.is_submitted():
         form.roles.data = [r.value for r in person.role_set]
-    if form.validate_on_submit():
-        try:
-            update_person(db.session, person, name=form.name.data, email=form.email.data,
-                          roles={Role(r) for r in form.roles.data},
-                          category=WorkerCategory(form.category.data))
-        except Invalid as error:
-            db.session.rollback()
-            attach_errors(form, error)
-        else:
-            db.session.commit()
-            flash("Saved.", "info")
-            return redirect(url_for("people.index"))
+    if validate_with(form, lambda f: update_person(db.session, person, name=f.name.data, email=f.email.data,
+                                                   roles={Role(r) for r in f.roles.data},
+                                                   category=WorkerCategory(f.category.data))):
+        db.session.commit()
+        flash("Saved.", "info")
+        return redirect(url_for("people.index"))
     return render_template("people/edit.html", form=form, person=person,
                            deactivate=DeactivateForm())
 
@@ -71,11 +64,14 @@ def toggle_active(person_id: int):
     """Deactivate an account (with a reason) or reactivate it; nobody is deleted."""
     person = db.session.get(Person, person_id) or abort(404)
     form = DeactivateForm()
-    if not form.validate_on_submit():
-        flash("Give a reason to change whether the account is active.", "error")
+
+    def switch(f):
+        with audit_ops.reason(db.session, f.reason.data):
+            set_active(db.session, person, not person.active)
+
+    if not validate_with(form, switch):
+        flash(error_text(form), "error")
         return redirect(url_for("people.edit", person_id=person.id))
-    with audit_ops.reason(db.session, form.reason.data):
-        set_active(db.session, person, not person.active)
     db.session.commit()
     flash(f"{person.name} is now {'active' if person.active else 'deactivated'}.", "info")
     return redirect(url_for("people.index"))

@@ -18,7 +18,7 @@ from models.reports.year_ops import BAND_NAMES, LabYear, lab_year
 from webapp.exposure import labels
 from webapp.exposure.pages import person_table
 from webapp.extensions import db
-from webapp.formatting import lab_today, lab_zone, local, settings
+from webapp.formatting import capfirst, lab_today, lab_zone, local, settings
 from webapp.reports.charts import bands_png, beam_hours_png
 from webapp.reports.pdf import Document, Provenance
 
@@ -48,9 +48,9 @@ def _in_year(record: DoseRecord, year: int) -> bool:
 def _record_row(record: DoseRecord, current: bool) -> list:
     value = _msv(record.value_msv) if record.value_msv is not None else ""
     return [f"{record.wear_start} – {record.wear_end}", record.quantity.value,
-            labels.LOCATION[record.location], labels.RESULT[record.result.value], value,
+            capfirst(labels.LOCATION[record.location]), capfirst(labels.RESULT[record.result.value]), value,
             _msv(record.mrd_msv) if record.mrd_msv is not None else "",
-            labels.SOURCE[record.source.value], f"v{record.version}{'' if current else ' (replaced)'}",
+            capfirst(labels.SOURCE[record.source.value]), f"v{record.version}{'' if current else ' (replaced)'}",
             record.reason or ""]
 
 
@@ -67,10 +67,10 @@ def person_statement(person: Person, year: int, made_by: str, now_text: str) -> 
     doc.section(f"Dose by quantity and period on {on}")
     doc.rows_table(
         ("Quantity", "Period", "From", "To", "Dose mSv", "Limit mSv", "% of limit", "Level", "Missing"),
-        [(labels.SERIES[Series(r["series"])], labels.PERIOD[PeriodKind(r["period"])], r["start"], r["end"],
+        [(capfirst(labels.SERIES[Series(r["series"]))], capfirst(labels.PERIOD[PeriodKind(r["period"]))], r["start"], r["end"],
           _msv(r["dose_msv"]), _msv(r["limit_msv"], 1),
           "—" if r["fraction"] is None else f"{100 * r['fraction']:.1f}",
-          labels.LEVEL.get(Level(r["level"]), r["level"]), r["missing"] or "")
+          capfirst(labels.LEVEL.get(Level(r["level"]), r["level"])), r["missing"] or "")
          for r in rows],
         widths=(34, 26, 18, 18, 16, 16, 14, 22, 14), empty="No dose records and no limits apply.")
     chains = [c for c in record_versions(db.session, person.id) if any(_in_year(r, year) for r in c)]
@@ -82,14 +82,14 @@ def person_statement(person: Person, year: int, made_by: str, now_text: str) -> 
     doc.section("Estimates and their basis")
     doc.rows_table(("Wear period", "Quantity", "mSv", "Source", "Basis"),
                    [(f"{r.wear_start} – {r.wear_end}", r.quantity.value, _msv(r.value_msv),
-                     labels.SOURCE[r.source.value], r.basis or "") for r in estimates],
+                     capfirst(labels.SOURCE[r.source.value]), r.basis or "") for r in estimates],
                    widths=(32, 18, 16, 34, 80), empty="No estimates this year.")
     missing = [chain[0] for chain in chains if chain[0].value_msv is None
                and chain[0].result.value in ("lost", "not_returned")]
     doc.section("Missing results")
     doc.rows_table(("Wear period", "Quantity", "Where", "Result"),
-                   [(f"{r.wear_start} – {r.wear_end}", r.quantity.value, labels.LOCATION[r.location],
-                     labels.RESULT[r.result.value]) for r in missing],
+                   [(f"{r.wear_start} – {r.wear_end}", r.quantity.value, capfirst(labels.LOCATION[r.location]),
+                     capfirst(labels.RESULT[r.result.value])) for r in missing],
                    widths=(40, 30, 40, 70),
                    empty="No lost or unreturned dosimeters without an estimate this year.")
     if missing:
@@ -125,11 +125,11 @@ def lab_year_document(figures: LabYear, made_by: str, now_text: str) -> bytes:
                               now_text, made_by))
     doc.section("People monitored")
     doc.rows_table(("Worker category", "People"),
-                   [(labels.CATEGORY[c], n) for c, n in sorted(figures.people_by_category.items())],
+                   [(capfirst(labels.CATEGORY[c]), n) for c, n in sorted(figures.people_by_category.items())],
                    widths=(90, 30), empty="Nobody wore a dosimeter this year.")
     doc.section("Collective dose")
     doc.rows_table(("Quantity", "Person-mSv"),
-                   [(labels.SERIES[s], f"{v:.3f}") for s, v in figures.collective_msv.items()],
+                   [(capfirst(labels.SERIES[s]), f"{v:.3f}") for s, v in figures.collective_msv.items()],
                    widths=(90, 30))
     doc.section("Annual Hp(10) by band")
     doc.rows_table(("Band", "People"), list(zip(BAND_NAMES, figures.bands, strict=True)), widths=(90, 30))

@@ -6,7 +6,6 @@ from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 
 from models.audit import audit_ops
-from models.core.errors import Invalid
 from models.instruments.authorisation_ops import (
     authorised_users,
     grant_authorisation,
@@ -19,7 +18,7 @@ from models.people.tables import Person, Role
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today
-from webapp.forms import validate_with
+from webapp.forms import error_text, validate_with
 from webapp.sessions import bp
 from webapp.sessions.forms import AuthoriseForm, RevokeForm, optional_id
 from webapp.slots import instrument_sections
@@ -62,15 +61,13 @@ def revoke(authorisation_id: int):
     authorisation = db.session.get(Authorisation, authorisation_id) or abort(404)
     form = RevokeForm()
     back = redirect(url_for("sessions.authorisations", instrument_id=authorisation.instrument_id))
-    if not form.validate_on_submit():
-        flash("Say why the authorisation is revoked.", "error")
-        return back
-    try:
-        with audit_ops.reason(db.session, form.reason.data.strip()):
+
+    def withdraw(f):
+        with audit_ops.reason(db.session, f.reason.data.strip()):
             revoke_authorisation(db.session, authorisation)
-    except Invalid as error:
-        db.session.rollback()
-        flash(" ".join(error.errors.values()), "error")
+
+    if not validate_with(form, withdraw):
+        flash(error_text(form), "error")
         return back
     db.session.commit()
     flash(f"{authorisation.person.name}'s authorisation on {authorisation.instrument.name} "

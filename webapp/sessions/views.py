@@ -8,7 +8,6 @@ from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from models.core.base import utcnow
-from models.core.errors import Invalid
 from models.doses.tables import Dosimeter, DosimeterKind
 from models.instruments.instrument_ops import active_instruments, current_authorisations
 from models.instruments.tables import Instrument
@@ -30,7 +29,7 @@ from models.sessions.tables import InstrumentSession
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import day_start, lab_today, lab_zone
-from webapp.forms import attach_errors, validate_with
+from webapp.forms import validate_with
 from webapp.sessions import bp
 from webapp.sessions.forms import EndForm, LogForm, StartForm, optional_id
 from webapp.slots import home_panels, instrument_sections, navigation
@@ -95,16 +94,10 @@ def end(session_id: int):
     """End an open session; beam-on time defaults to the whole session."""
     entry = _own_session(session_id)
     form = EndForm()
-    if form.validate_on_submit():
-        try:
-            close_session(db.session, entry, beam_on_minutes=form.beam_on_minutes.data)
-        except Invalid as error:
-            db.session.rollback()
-            attach_errors(form, error)
-        else:
-            db.session.commit()
-            flash(f"Session on {entry.instrument.name} ended.", "info")
-            return redirect(url_for("sessions.show", session_id=entry.id))
+    if validate_with(form, lambda f: close_session(db.session, entry, beam_on_minutes=f.beam_on_minutes.data)):
+        db.session.commit()
+        flash(f"Session on {entry.instrument.name} ended.", "info")
+        return redirect(url_for("sessions.show", session_id=entry.id))
     return render_template("sessions/end.html", form=form, entry=entry, figures=figures(entry))
 
 

@@ -6,14 +6,13 @@ from flask import abort, flash, redirect, render_template, url_for
 from flask_login import login_required
 
 from models.audit import audit_ops
-from models.core.errors import Invalid
 from models.people.tables import Role
 from models.surveys.meter_ops import calibration_on, recalibrate, retire_meter, save_meter, validate_meter
 from models.surveys.tables import Survey, SurveyMeter
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, settings
-from webapp.forms import attach_errors, validate_with
+from webapp.forms import validate_with
 from webapp.surveys import bp
 from webapp.surveys.forms import CalibrationForm, MeterForm, ReasonForm
 
@@ -66,18 +65,16 @@ def recalibrate_meter(meter_id: int):
     """Record a new calibration date."""
     meter = db.session.get(SurveyMeter, meter_id) or abort(404)
     form = CalibrationForm()
-    if form.validate_on_submit():
-        try:
-            with audit_ops.reason(db.session, form.note.data or "New calibration"):
-                recalibrate(db.session, meter, form.calibrated_on.data,
-                            form.calibration_interval_months.data, lab_today())
-        except Invalid as error:
-            db.session.rollback()
-            attach_errors(form, error)
-        else:
-            db.session.commit()
-            flash(f"Recorded the calibration of meter {meter.serial}.", "info")
-            return redirect(url_for("surveys.meter", meter_id=meter.id))
+
+    def calibrate(f):
+        with audit_ops.reason(db.session, f.note.data or "New calibration"):
+            recalibrate(db.session, meter, f.calibrated_on.data, f.calibration_interval_months.data,
+                        lab_today())
+
+    if validate_with(form, calibrate):
+        db.session.commit()
+        flash(f"Recorded the calibration of meter {meter.serial}.", "info")
+        return redirect(url_for("surveys.meter", meter_id=meter.id))
     return _show(meter, form, ReasonForm())
 
 
@@ -87,10 +84,13 @@ def retire(meter_id: int):
     """Retire a meter; surveys made with it stay."""
     meter = db.session.get(SurveyMeter, meter_id) or abort(404)
     form = ReasonForm()
-    if not form.validate_on_submit():
+
+    def retire(f):
+        with audit_ops.reason(db.session, f.reason.data):
+            retire_meter(db.session, meter)
+
+    if not validate_with(form, retire):
         return _show(meter, CalibrationForm(), form)
-    with audit_ops.reason(db.session, form.reason.data):
-        retire_meter(db.session, meter)
     db.session.commit()
     flash(f"Meter {meter.serial} is retired.", "info")
     return redirect(url_for("surveys.meter", meter_id=meter.id))

@@ -19,18 +19,19 @@ from models.surveys.survey_ops import latest_failed_surveys, open_survey_tasks, 
 from models.surveys.tables import BypassPermit
 from webapp.extensions import db
 from webapp.formatting import lab_today, local, settings
-from webapp.slots import Attention, Severity, attention, instrument_sections, navigation
-from webapp.surveys import bp
+from webapp.slots import (
+    Attention,
+    Badge,
+    Severity,
+    attention,
+    banners,
+    instrument_badges,
+    instrument_sections,
+    navigation,
+)
 
 navigation.add("Surveys", "surveys.surveys", order=30)
 navigation.add("Bypass permits", "surveys.permits", order=35)
-
-
-@bp.app_context_processor
-def _bypass_banner() -> dict:
-    """Every page can list the instruments under an active bypass."""
-    return {"active_bypass_permits": current_bypasses,
-            "bypass_instrument_ids": lambda: {p.instrument_id for p in current_bypasses()}}
 
 
 def current_bypasses() -> list[BypassPermit]:
@@ -42,7 +43,21 @@ def current_bypasses() -> list[BypassPermit]:
     return g.active_bypasses
 
 
-@attention.add
+@banners.add("surveys/_bypass_banner.html", order=10)
+def _bypass_banner(_viewer) -> dict:
+    """Every page lists the instruments under an active bypass."""
+    return {"permits": current_bypasses()}
+
+
+@instrument_badges.add(order=10)
+def _bypass_badge(instrument: Instrument) -> list[Badge]:
+    """An instrument under an active bypass says so wherever its status shows."""
+    if any(p.instrument_id == instrument.id for p in current_bypasses()):
+        return [Badge("bypass active", "state-bad")]
+    return []
+
+
+@attention.add(order=30)
 def _meter_lines() -> list[Attention]:
     """Meters out of calibration, or running out soon."""
     today, soon = lab_today(), settings().due_soon_days
@@ -59,7 +74,7 @@ def _meter_lines() -> list[Attention]:
     return lines
 
 
-@attention.add
+@attention.add(order=31)
 def _permit_lines() -> list[Attention]:
     """Permits past their window and not closed, permits in force, requests to decide."""
     lines = [Attention(Severity.BYPASS,
@@ -78,7 +93,7 @@ def _permit_lines() -> list[Attention]:
     return lines
 
 
-@attention.add
+@attention.add(order=32)
 def _survey_lines() -> list[Attention]:
     """Failed latest surveys and surveys asked for."""
     lines = [Attention(Severity.FAILED_CHECK,

@@ -5,7 +5,7 @@ from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from models.core.base import utcnow
-from models.core.errors import Invalid
+from models.core.errors import Invalid, errors_of
 from models.instruments.authorisation_ops import authorised_for, instruments_for
 from models.instruments.tables import Instrument
 from models.people.tables import Role
@@ -25,7 +25,7 @@ from models.surveys.tables import BypassPermit
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, local
-from webapp.forms import attach_errors, validate_with
+from webapp.forms import error_text, validate_with
 from webapp.mail import send_mail, tell_safety_officer
 from webapp.surveys import bp
 from webapp.surveys.forms import DecisionForm, PermitForm, utc
@@ -63,7 +63,7 @@ def new_permit():
     form.instrument_id.choices = [(i.id, i.name) for i in instruments_for(db.session, current_user, today)]
     if not form.is_submitted():
         form.instrument_id.data = request.args.get("instrument_id", type=int)
-    if validate_with(form, lambda f: _check(f, today)):
+    if validate_with(form, lambda f: _validate(f, today)):
         permit = request_permit(db.session, _values(form))
         db.session.commit()
         tell_safety_officer(
@@ -86,17 +86,14 @@ def _values(form: PermitForm) -> PermitRequest:
         window_end=utc(form.window_end), ring_dosimetry_confirmed=form.ring_dosimetry_confirmed.data)
 
 
-def _check(form: PermitForm, today) -> None:
+def _validate(form: PermitForm, today) -> None:
     """The request's rules, and that the person may work on the instrument."""
     values = _values(form)
     errors = {}
     if values.instrument is not None and not authorised_for(db.session, current_user,
                                                             values.instrument, today):
         errors["instrument_id"] = f"You hold no current authorisation on {values.instrument.name}."
-    try:
-        validate_request(values, utcnow())
-    except Invalid as error:
-        errors = {**error.errors, **errors}
+    errors = {**errors_of(lambda: validate_request(values, utcnow())), **errors}
     if errors:
         raise Invalid(errors)
 
@@ -119,13 +116,8 @@ def _decide(permit_id: int, approve: bool):
     """Record the decision and tell the requester."""
     permit = db.session.get(BypassPermit, permit_id) or abort(404)
     form = DecisionForm()
-    if not form.validate_on_submit():
-        return _show(permit, form)
-    try:
-        decide(db.session, permit, current_user._get_current_object(), approve, form.note.data)
-    except Invalid as error:
-        db.session.rollback()
-        attach_errors(form, error)
+    if not validate_with(form, lambda f: decide(db.session, permit, current_user._get_current_object(),
+                                                approve, f.note.data)):
         return _show(permit, form)
     db.session.commit()
     word = "approved" if approve else "refused"
@@ -145,13 +137,8 @@ def close(permit_id: int):
     if not may_close(permit, current_user):
         abort(403)
     form = DecisionForm()
-    if not form.validate_on_submit():
-        return _show(permit, form)
-    try:
-        close_permit(db.session, permit, current_user._get_current_object())
-    except Invalid as error:
-        db.session.rollback()
-        flash(" ".join(error.errors.values()), "error")
+    if not validate_with(form, lambda f: close_permit(db.session, permit, current_user._get_current_object())):
+        flash(error_text(form), "error")
         return redirect(url_for("surveys.permit", permit_id=permit.id))
     db.session.commit()
     flash("Permit closed. Restore every bypassed device and remove the sign; a survey of the "

@@ -5,7 +5,7 @@ from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from models.core.base import utcnow
-from models.core.errors import Invalid
+from models.core.errors import Invalid, errors_of
 from models.core.units import RATE_UNITS
 from models.instruments.authorisation_ops import authorised_for, instruments_for
 from models.instruments.tables import Instrument
@@ -63,7 +63,7 @@ def new_survey():
     if not form.is_submitted():
         form.instrument_id.data = request.args.get("instrument_id", type=int)
         form.trigger.data = request.args.get("trigger", SurveyTrigger.PERIODIC.value)
-    if validate_with(form, lambda f: _check(f, today)):
+    if validate_with(form, lambda f: _validate(f, today)):
         survey = record_survey(db.session, _values(form))
         db.session.commit()
         if survey.passed:
@@ -96,7 +96,7 @@ def _values(form: SurveyForm) -> SurveyInput:
         unit=form.unit.data, points=form.point_values(), notes=form.notes.data)
 
 
-def _check(form: SurveyForm, today) -> None:
+def _validate(form: SurveyForm, today) -> None:
     """Domain checks, with each point's errors put beside its own cell."""
     values = _values(form)
     errors = {}
@@ -104,10 +104,7 @@ def _check(form: SurveyForm, today) -> None:
                                                             values.instrument, today):
         errors["instrument_id"] = (f"You hold no current authorisation on {values.instrument.name}; "
                                    "an authorised operator or the safety officer records its surveys.")
-    try:
-        validate_survey(values, utcnow())
-    except Invalid as error:
-        errors = {**error.errors, **errors}
+    errors = {**errors_of(lambda: validate_survey(values, utcnow())), **errors}
     rows = form.filled_rows()
     if "points" in errors:  # no row filled in: say so beside the first row
         form.points[0].form.reading.errors = [errors.pop("points")]
