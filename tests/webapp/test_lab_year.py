@@ -89,7 +89,7 @@ def test_out_of_service_periods_come_from_the_trail(session, monkeypatch, make_i
 def test_page_pdf_and_command(app, make_person, login, year_2025, tmp_path):
     client = login(make_person("officer", roles=(Role.SAFETY_OFFICER,)))
     page = client.get("/reports/year/2025").get_data(as_text=True)
-    assert "38.800" in page and "over 20 mSv" in page
+    assert "38.800" in page and "Over 20 mSv" in page
     assert client.get("/reports/year/2025/bands.png").mimetype == "image/png"
     assert login(make_person("boss", roles=(Role.ADMIN,))).get("/reports/year/2025").status_code == 403
     out = tmp_path / "year.pdf"

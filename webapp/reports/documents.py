@@ -67,7 +67,8 @@ def person_statement(person: Person, year: int, made_by: str, now_text: str) -> 
     doc.section(f"Dose by quantity and period on {on}")
     doc.rows_table(
         ("Quantity", "Period", "From", "To", "Dose mSv", "Limit mSv", "% of limit", "Level", "Missing"),
-        [(capfirst(labels.SERIES[Series(r["series"]))], capfirst(labels.PERIOD[PeriodKind(r["period"]))], r["start"], r["end"],
+        [(capfirst(labels.SERIES[Series(r["series"])]), capfirst(labels.PERIOD[PeriodKind(r["period"])]),
+          r["start"], r["end"],
           _msv(r["dose_msv"]), _msv(r["limit_msv"], 1),
           "—" if r["fraction"] is None else f"{100 * r['fraction']:.1f}",
           capfirst(labels.LEVEL.get(Level(r["level"]), r["level"])), r["missing"] or "")
