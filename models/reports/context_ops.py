@@ -2,13 +2,14 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date, datetime, time, timedelta
+from datetime import date
 from zoneinfo import ZoneInfo
 
 import sqlalchemy as sa
 from sqlalchemy.orm import Session, selectinload
 
 from models.core.codes import PeriodKind
+from models.core.settings import lab_days
 from models.exposure.periods import period_bounds
 from models.exposure.tables import Investigation
 from models.incidents.tables import Incident
@@ -45,8 +46,7 @@ def investigation_context(session: Session, investigation: Investigation, zone: 
     """The person's sessions, their permits and the incidents naming them, within the window."""
     first, last = context_window(investigation, investigation.raised_at.astimezone(zone).date(),
                                  first_block_year)
-    start = datetime.combine(first, time.min, tzinfo=zone)
-    end = datetime.combine(last + timedelta(days=1), time.min, tzinfo=zone)
+    start, end = lab_days(first, last, zone)
     person_id = investigation.person_id
     sessions = session.scalars(
         sa.select(InstrumentSession).options(selectinload(InstrumentSession.instrument))

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
-from datetime import date, datetime, time, timedelta
+from datetime import date
 from zoneinfo import ZoneInfo
 
 import sqlalchemy as sa
@@ -11,6 +11,7 @@ from sqlalchemy.orm import Session, aliased
 
 from models.audit.tables import AuditEvent
 from models.checks.tables import SafetyCheck
+from models.core.settings import lab_days
 from models.doses.tables import DoseRecord, Dosimeter
 from models.exposure.tables import Investigation
 from models.incidents.tables import Incident
@@ -195,11 +196,9 @@ def _bounds(column: sa.ColumnElement, first: date | None, last: date | None,
     conditions = []
     is_date = isinstance(column.type, sa.Date)
     if first is not None:
-        conditions.append(column >= (first if is_date else
-                                     datetime.combine(first, time.min, tzinfo=zone)))
+        conditions.append(column >= (first if is_date else lab_days(first, first, zone)[0]))
     if last is not None:
-        conditions.append(column <= last if is_date else
-                          column < datetime.combine(last + timedelta(days=1), time.min, tzinfo=zone))
+        conditions.append(column <= last if is_date else column < lab_days(last, last, zone)[1])
     return conditions
 
 

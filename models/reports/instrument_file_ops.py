@@ -2,13 +2,14 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date, datetime, time, timedelta
+from datetime import date
 from zoneinfo import ZoneInfo
 
 import sqlalchemy as sa
 from sqlalchemy.orm import Session, selectinload
 
 from models.checks.tables import SafetyCheck
+from models.core.settings import lab_days
 from models.incidents.tables import Incident
 from models.instruments.tables import Authorisation, Instrument
 from models.reports.year_ops import service_history
@@ -35,8 +36,7 @@ class InstrumentFile:
 def instrument_file(session: Session, instrument: Instrument, first: date, last: date,
                     zone: ZoneInfo) -> InstrumentFile:
     """Everything about the instrument in the period; authorisations in force at any time in it."""
-    start = datetime.combine(first, time.min, tzinfo=zone)
-    end = datetime.combine(last + timedelta(days=1), time.min, tzinfo=zone)
+    start, end = lab_days(first, last, zone)
     of = instrument.id
     authorisations = session.scalars(
         sa.select(Authorisation).options(selectinload(Authorisation.person))

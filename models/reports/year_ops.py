@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from collections import Counter
 from dataclasses import dataclass
-from datetime import date, datetime, time, timedelta
+from datetime import date, datetime, timedelta
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -13,6 +13,7 @@ from sqlalchemy.orm import Session
 from models.audit.tables import AuditEvent
 from models.checks.tables import SafetyCheck
 from models.core.codes import Location, PeriodKind, Quantity, Result, Series, WorkerCategory, code
+from models.core.settings import lab_days
 from models.doses.tables import DoseRecord
 from models.exposure.lab_ops import LabEvaluation
 from models.exposure.tables import Investigation
@@ -82,8 +83,7 @@ class LabYear:
 
 
 def _bounds(year: int, zone: ZoneInfo) -> tuple[datetime, datetime]:
-    return (datetime.combine(date(year, 1, 1), time.min, tzinfo=zone),
-            datetime.combine(date(year + 1, 1, 1), time.min, tzinfo=zone))
+    return lab_days(date(year, 1, 1), date(year, 12, 31), zone)
 
 
 def _below_mrd_only(session: Session, year: int, person_ids: list[int]) -> set[int]:
