@@ -6,7 +6,10 @@ import os
 import time
 from datetime import UTC, datetime
 
-from bench import synthetic, timing
+import sqlalchemy as sa
+
+from bench import sessions_list, synthetic, timing
+from models.people.tables import Person
 
 OUT = os.path.join(os.path.dirname(__file__), "out")
 HOME_TARGET_S = 0.150
@@ -19,14 +22,15 @@ def main(argv=None) -> None:
     parser.add_argument("--people", type=int, default=1000)
     parser.add_argument("--years", type=int, default=10)
     parser.add_argument("--runs", type=int, default=7, help="runs per median (engine, home page)")
+    parser.add_argument("--sessions", type=int, default=1_000_000, help="sessions in the log")
     parser.add_argument("--path", default=os.path.join(OUT, "bench.sqlite"))
     args = parser.parse_args(argv)
     os.makedirs(os.path.dirname(os.path.abspath(args.path)), exist_ok=True)
-    for line in run(args.path, args.people, args.years, args.runs):
+    for line in run(args.path, args.people, args.years, args.runs, args.sessions):
         print(line, flush=True)
 
 
-def run(path: str, people: int, years: int, runs: int):
+def run(path: str, people: int, years: int, runs: int, sessions: int = 1_000_000):
     """Yield the report's lines as the figures come in."""
     from webapp.extensions import db
 
@@ -44,18 +48,28 @@ def run(path: str, people: int, years: int, runs: int):
     yield f"Built and inserted in {built:.1f} s into {path}; evaluation date {on}"
     yield ""
     with app.app_context():
+        started = time.perf_counter()
+        person_ids = list(db.session.scalars(sa.select(Person.id)))
+        with db.engine.begin() as connection:
+            sessions_list.insert_sessions(connection, sessions, person_ids, on)
+        yield f"{sessions:,} sessions on {sessions_list.N_INSTRUMENTS} instruments inserted in {time.perf_counter() - started:.1f} s"
+        yield ""
+    with app.app_context():
         read_s, records = timing.time_read(db.session, max(3, runs // 2))
         engine_s = timing.time_engine(db.session, records, on, runs)
         loop_s = timing.time_loop(db.session, on, max(1, runs // 3))
     with app.app_context(), app.test_client() as client:
         cold_s, warm_s, lines = timing.time_home(client, synthetic.OFFICER_LOGIN,
                                                  synthetic.OFFICER_PASSWORD, 3 * runs)
+        first_page_s, deep_page_s = sessions_list.time_pages(client, runs)
     rows = [
         ("(a) engine alone: compute_doses + evaluate, everyone", engine_s),
         ("(b) read: one SQL query into the engine's arrays", read_s),
         ("(c) plain Python loop over the rows (fixed periods only)", loop_s),
         ("(d) safety officer's home page, first request (cold)", cold_s),
         ("(d) safety officer's home page, warm (median)", warm_s),
+        (f"(e) sessions list, newest page of {sessions:,}", first_page_s),
+        ("(e) sessions list, 11th page (keyset)", deep_page_s),
     ]
     width = max(len(label) for label, _ in rows)
     yield f"{'what':<{width}}  {'ms':>9}"
@@ -69,6 +83,9 @@ def run(path: str, people: int, years: int, runs: int):
     yield (f"home page warm = {1000 * warm_s:.1f} ms (target < {1000 * HOME_TARGET_S:.0f} ms: "
            f"{'met' if warm_s < HOME_TARGET_S else 'NOT met'}); cold = {1000 * cold_s:.0f} ms "
            f"(reads and evaluates once, then cached); {lines} attention lines")
+    slowest = max(first_page_s, deep_page_s)
+    yield (f"sessions list = {1000 * slowest:.1f} ms at {sessions:,} sessions (target < "
+           f"{1000 * sessions_list.PAGE_TARGET_S:.0f} ms: {'met' if slowest < sessions_list.PAGE_TARGET_S else 'NOT met'})")
 
 
 if __name__ == "__main__":

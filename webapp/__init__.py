@@ -31,6 +31,7 @@ BLUEPRINTS = (
     "webapp.exposure",
     "webapp.demo",
     "webapp.backup",
+    "webapp.reports",
 )
 
 

@@ -1,7 +1,7 @@
 """Conversions at the edge: UTC to the lab's time, mSv to the display unit."""
 from __future__ import annotations
 
-from datetime import UTC, date, datetime
+from datetime import UTC, date, datetime, time
 from zoneinfo import ZoneInfo
 
 from flask import Flask, g
@@ -39,6 +39,17 @@ def local(dt: datetime | None, fmt: str = "%Y-%m-%d %H:%M") -> str:
 def lab_today() -> date:
     """Today's date in the lab's time zone."""
     return datetime.now(lab_zone()).date()
+
+
+def day_start(text: str | None) -> datetime | None:
+    """The first moment of a lab date given as YYYY-MM-DD (1950-2100), or None if absent or bad."""
+    try:
+        day = datetime.strptime(text or "", "%Y-%m-%d").date()
+    except ValueError:
+        return None
+    if not 1950 <= day.year <= 2100:
+        return None
+    return datetime.combine(day, time.min, tzinfo=lab_zone())
 
 
 def dose(value_msv: float | None, digits: int = 3) -> str:

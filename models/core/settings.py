@@ -1,7 +1,7 @@
 """The lab's own settings: one row."""
 from __future__ import annotations
 
-from datetime import date, datetime
+from datetime import date, datetime, time, timedelta
 from typing import TYPE_CHECKING
 from zoneinfo import ZoneInfo
 
@@ -75,3 +75,9 @@ def lab_zone(session: Session) -> ZoneInfo:
 def lab_date(session: Session, moment: datetime) -> date:
     """The lab's calendar date of a UTC moment."""
     return moment.astimezone(lab_zone(session)).date()
+
+
+def lab_days(first: date, last: date, zone: ZoneInfo) -> tuple[datetime, datetime]:
+    """The UTC-comparable [start, end) of lab days `first` to `last`, both inclusive."""
+    return (datetime.combine(first, time.min, tzinfo=zone),
+            datetime.combine(last + timedelta(days=1), time.min, tzinfo=zone))

@@ -424,7 +424,7 @@ class Usage:
     energy_kwh: float
 
 
-def usage(sessions: list[InstrumentSession]) -> Usage:
+def usage(sessions) -> Usage:
     """Beam hours and kWh of the ended sessions in a list (open ones have no beam time yet)."""
     ended = [s for s in sessions if s.beam_on_minutes is not None]
     if not ended:

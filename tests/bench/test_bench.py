@@ -77,9 +77,11 @@ def test_each_timing_runs(tiny):
 
 
 def test_the_command_prints_the_figures_and_ratios(tmp_path):
-    lines = list(run(str(tmp_path / "bench.sqlite"), 5, 1, 1))
+    # 2,500 sessions: more than the 11 pages of 100 that the list timing walks through.
+    lines = list(run(str(tmp_path / "bench.sqlite"), 5, 1, 1, 2_500))
     text = "\n".join(lines)
     assert "Dose records in force: 192 = 12 x (2 x 5 whole body + 2 x 2 rings + 2 lens)" in text
     for label in ("(a) engine", "(b) read", "(c) plain Python loop", "(d) safety officer's home",
-                  "engine / read =", "loop / engine =", "home page warm ="):
+                  "engine / read =", "loop / engine =", "home page warm =", "(e) sessions list, newest page of 2,500",
+                  "(e) sessions list, 11th page", "sessions list = "):
         assert label in text

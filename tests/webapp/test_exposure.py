@@ -174,6 +174,8 @@ def test_review_and_sign_off(session, make_person, login, crossing):
     page = client.get(url).get_data(as_text=True)
     assert "Hp(10) whole body, calendar quarter from 2026-10-01, level I" in page
     assert f'href="/exposure/person/{crossing.person_id}"' in page
+    assert "During the window, 2026-10-01 to 2026-12-31" in page
+    assert "No sessions logged in this window." in page
     refused = client.post(url, data={"questions": "Alignment?", "sign": "1"})
     assert refused.status_code == 200
     assert "Write the findings before signing off." in refused.get_data(as_text=True)

@@ -1,46 +1,47 @@
-"""Browse the audit trail, newest first, filtered by record type."""
+"""Browse the audit trail, newest first, filtered by record type, person and date."""
 from __future__ import annotations
 
+from datetime import timedelta
 from types import SimpleNamespace
 
 import sqlalchemy as sa
 from flask import render_template, request
 from flask_login import current_user
 
+from models.audit.list_ops import EventFilter, event_page
 from models.audit.tables import AuditEvent
 from models.people.tables import Person, Role
+from models.reports.export_ops import DOSE_ENTITIES
 from models.surveys.survey_ops import SURVEY_ASKED
 from webapp.access import roles_required
 from webapp.audit import bp
 from webapp.extensions import db
-
-PAGE_SIZE = 100
-# Dose and pregnancy details stay with the safety officer, even in the trail; dosimeters too,
-# since an abdomen dosimeter issued to someone hints at a pregnancy.
-DOSE_ENTITIES = frozenset({"dose_record", "pregnancy_declaration", "investigation", "dosimeter",
-                           "import_batch"})
+from webapp.formatting import day_start
 
 
 @bp.route("/audit/")
 @roles_required(Role.SAFETY_OFFICER, Role.ADMIN)
 def index():
     """A page of audit events; an admin without the safety officer role sees no dose content."""
+    officer = current_user.has_role(Role.SAFETY_OFFICER)
     entity = request.args.get("entity", "")
-    page = max(request.args.get("page", 1, type=int), 1)
-    query = sa.select(AuditEvent).order_by(AuditEvent.id.desc())
-    if entity:
-        query = query.where(AuditEvent.entity == entity)
-    if not current_user.has_role(Role.SAFETY_OFFICER):
-        query = query.where(AuditEvent.entity.not_in(DOSE_ENTITIES))
-    events = db.session.scalars(query.limit(PAGE_SIZE).offset((page - 1) * PAGE_SIZE)).all()
+    actor = db.session.get(Person, request.args.get("person", 0, type=int))
+    until = day_start(request.args.get("to"))
+    chosen = EventFilter(entity or None, actor.id if actor else None, day_start(request.args.get("from")),
+                         until + timedelta(days=1) if until else None,
+                         frozenset() if officer else DOSE_ENTITIES)
+    before = request.args.get("before", type=int)
+    events, next_before = event_page(db.session, chosen, before if before and 0 < before < 2**63 else None)
     actors = {p.id: p for p in db.session.scalars(
         sa.select(Person).where(Person.id.in_({e.actor_id for e in events if e.actor_id})))}
     entities = db.session.scalars(sa.select(AuditEvent.entity).distinct().order_by(AuditEvent.entity))
-    shown = [e for e in entities if current_user.has_role(Role.SAFETY_OFFICER) or e not in DOSE_ENTITIES]
-    if not current_user.has_role(Role.SAFETY_OFFICER):
+    shown = [e for e in entities if officer or e not in DOSE_ENTITIES]
+    if not officer:
         events = [_without_dose_reasons(e) for e in events]
+    args = {k: v for k, v in request.args.items() if k != "before"}
     return render_template("audit/index.html", events=events, actors=actors, entity=entity,
-                           entities=shown, page=page, more=len(events) == PAGE_SIZE)
+                           entities=shown, people=db.session.scalars(sa.select(Person).order_by(Person.name)),
+                           actor=actor, args=args, next_before=next_before, first_page=before is None)
 
 
 def _without_dose_reasons(event: AuditEvent) -> AuditEvent | SimpleNamespace:

@@ -66,7 +66,7 @@ def _optional(value) -> float | None:
     return None if np.isnan(value) else float(value)
 
 
-def _table(lab, person_id: int) -> list[dict]:
+def person_table(lab, person_id: int) -> list[dict]:
     """The person's evaluation rows with their investigation levels and missing-result counts."""
     row = lab.row_of(person_id)
     rows = person_rows(lab.evaluation, row)
@@ -92,7 +92,7 @@ def person(person_id: int):
     subject = _subject(person_id)
     on, date_problem = _evaluation_date()
     lab = cached_lab_evaluation(db.session, on)
-    rows = _table(lab, person_id)
+    rows = person_table(lab, person_id)
     chains = record_versions(db.session, person_id)
     fetal = None
     fetal_row = next((r for r in rows if r["series"] == Series.FETUS), None)

@@ -19,11 +19,12 @@ from models.exposure.investigation_ops import (
 from models.exposure.lab_ops import cached_lab_evaluation
 from models.exposure.tables import Investigation
 from models.people.tables import Person, Role
+from models.reports.context_ops import investigation_context
 from webapp.access import roles_required
 from webapp.exposure import bp
 from webapp.exposure.forms import ReviewForm
 from webapp.extensions import db
-from webapp.formatting import dose, lab_today, local
+from webapp.formatting import dose, lab_today, lab_zone, local, settings
 from webapp.forms import validate_with
 from webapp.slots import Attention, Severity, attention, navigation
 
@@ -66,8 +67,9 @@ def investigation(investigation_id: int):
         flash("Signed off." if form.sign.data else "Review saved.", "info")
         return redirect(url_for("exposure.investigation", investigation_id=item.id))
     signer = item.signed_off_by_id and db.session.get(Person, item.signed_off_by_id)
+    context = investigation_context(db.session, item, lab_zone(), settings().five_year_first_year)
     return render_template("exposure/investigation.html", item=item, form=form, signer=signer,
-                           label=investigation_label(item),
+                           label=investigation_label(item), context=context,
                            person_url=url_for("exposure.person", person_id=item.person_id))
 
 

@@ -12,6 +12,7 @@ from models.doses.tables import Dosimeter, DosimeterKind
 from models.instruments.instrument_ops import active_instruments, current_authorisations
 from models.instruments.tables import Instrument
 from models.people.tables import Person, Role
+from models.sessions.list_ops import SessionFilter, filtered_usage, session_page
 from models.sessions.session_ops import (
     active_bypass_permit,
     close_session,
@@ -21,12 +22,11 @@ from models.sessions.session_ops import (
     log_finished_session,
     open_session,
     open_sessions_of,
-    usage,
 )
 from models.sessions.tables import InstrumentSession
 from webapp.access import can_see_dose_of, roles_required
 from webapp.extensions import db
-from webapp.formatting import lab_today, lab_zone
+from webapp.formatting import day_start, lab_today, lab_zone
 from webapp.forms import validate_with
 from webapp.sessions import bp
 from webapp.sessions.forms import EndForm, LogForm, StartForm, optional_id
@@ -128,30 +128,42 @@ def show(session_id: int):
                            dosimeter=dosimeter)
 
 
-def _day_start(text: str | None) -> datetime | None:
-    """The first moment of a lab-local date given as YYYY-MM-DD, or None if absent or bad."""
+def _page_key(text: str | None) -> tuple[datetime, int] | None:
+    """The keyset position `ISO-time_id` of a 'next page' link, or None for the first page."""
+    at, _, row_id = (text or "").rpartition("_")
     try:
-        day = datetime.strptime(text or "", "%Y-%m-%d").date()
+        moment = datetime.fromisoformat(at)
+        key = int(row_id)
     except ValueError:
         return None
-    return datetime.combine(day, time.min, tzinfo=lab_zone())
+    if moment.tzinfo is None or not 0 < key < 2**63:
+        return None
+    return moment, key
 
 
 @bp.route("/sessions/")
 @login_required
 def index():
-    """Sessions filtered by instrument, person and date range, with usage totals."""
+    """Sessions filtered by instrument, person and date range, one page at a time, newest first."""
     instrument = db.session.get(Instrument, request.args.get("instrument", 0, type=int))
     person = db.session.get(Person, request.args.get("person", 0, type=int))
-    start = _day_start(request.args.get("from"))
-    until = _day_start(request.args.get("to"))
-    end = until + timedelta(days=1) if until else None
-    rows = find_sessions(db.session, instrument=instrument, operator=person, start=start, end=end)
+    start = day_start(request.args.get("from"))
+    until = day_start(request.args.get("to"))
+    chosen = SessionFilter(instrument.id if instrument else None, person.id if person else None,
+                           start, until + timedelta(days=1) if until else None)
+    page = session_page(db.session, chosen, _page_key(request.args.get("before")))
+    # Totals read every session of the range, so they wait until a range is chosen.
+    totals = filtered_usage(db.session, chosen) if start and until else None
+    next_args = None
+    if page.next_key:
+        at, row_id = page.next_key
+        next_args = {**request.args.to_dict(), "before": f"{at.isoformat()}_{row_id}"}
     return render_template(
-        "sessions/index.html", rows=[(s, figures(s)) for s in rows], totals=usage(rows),
+        "sessions/index.html", rows=[(s, figures(s)) for s in page.rows], totals=totals,
         instrument=instrument, person=person, instruments=active_instruments(db.session),
         people=db.session.scalars(sa.select(Person).order_by(Person.name)).all(),
-        args=request.args)
+        args={k: v for k, v in request.args.items() if k != "before"}, next_args=next_args,
+        first_page=request.args.get("before") is None)
 
 
 @instrument_sections.add("sessions/_instrument.html", order=20)

@@ -1,0 +1,1 @@
+"""Reports area: exports and documents that read across every other area."""
