@@ -10,6 +10,7 @@ from wtforms.validators import DataRequired, Length, Optional
 from models.checks.check_ops import RESULT_LABELS, Answer
 from models.checks.checklist_ops import MAX_TEXT
 from models.checks.tables import ItemResult
+from models.core.base import utcnow
 from models.instruments.tables import ChecklistItem
 from models.surveys.tables import SurveyMeter
 from webapp.formatting import from_local, lab_zone
@@ -66,7 +67,7 @@ def check_form(items: list[ChecklistItem], meters: list[SurveyMeter]) -> CheckFo
     form.meter_id.choices = [(NO_METER, "No meter used")] + [
         (str(m.id), f"{m.serial} {m.model}".strip()) for m in meters]
     if not form.is_submitted():
-        form.performed_at.data = datetime.now(lab_zone()).replace(second=0, microsecond=0,
+        form.performed_at.data = utcnow().astimezone(lab_zone()).replace(second=0, microsecond=0,
                                                                   tzinfo=None)
     return form
 
