@@ -7,10 +7,12 @@ from flask import Flask, g, render_template
 from flask_login import current_user
 from flask_wtf.csrf import CSRFError
 
+import migrations
 from models.audit.audit_ops import set_actor
 from models.people.tables import Person
 from webapp import config, formatting
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
+from webapp.settings.new_database import set_lab_zone_after_first_revision
 
 BLUEPRINTS = (
     "webapp.auth",
@@ -39,7 +41,8 @@ def create_app(overrides: dict | None = None) -> Flask:
     app.config.update(overrides or {})
 
     db.init_app(app)
-    migrate.init_app(app, db, directory=os.path.join(os.path.dirname(app.root_path), "migrations"))
+    migrate.init_app(app, db, directory=os.path.dirname(migrations.__file__),
+                     on_version_apply=set_lab_zone_after_first_revision)
     csrf.init_app(app)
     limiter.init_app(app)
     login_manager.init_app(app)
