@@ -59,12 +59,6 @@ def lab_clock(monkeypatch):
 
 
 @pytest.fixture
-def now() -> datetime:
-    """The instant each test starts at on the app's clock."""
-    return LAB_NOW
-
-
-@pytest.fixture
 def today() -> date:
     """The lab's date in every test."""
     return LAB_TODAY

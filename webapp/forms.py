@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
-from wtforms import SelectMultipleField, widgets
+from wtforms import SelectChoice, SelectMultipleField, widgets
 
 from models.core.errors import Invalid
 
@@ -40,7 +40,7 @@ def validate_with(form: FlaskForm, check) -> bool:
     return valid
 
 
-def choices(enum_cls, labels: dict | None = None) -> list[tuple[str, str]]:
+def choices(enum_cls, labels: dict | None = None) -> list[SelectChoice]:
     """Select choices from an enum, with readable labels."""
     labels = labels or {}
-    return [(m.value, labels.get(m, m.value.replace("_", " ").capitalize())) for m in enum_cls]
+    return [SelectChoice(m.value, labels.get(m, m.value.replace("_", " ").capitalize())) for m in enum_cls]

@@ -4,7 +4,7 @@ from __future__ import annotations
 from datetime import datetime
 
 from flask_wtf import FlaskForm
-from wtforms import DateTimeLocalField, RadioField, SelectField, StringField, TextAreaField
+from wtforms import DateTimeLocalField, RadioField, SelectChoice, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, Length, Optional
 
 from models.checks.check_ops import RESULT_LABELS, Answer
@@ -59,13 +59,13 @@ def check_form(items: list[ChecklistItem], meters: list[SurveyMeter]) -> CheckFo
 
     for item in items:
         setattr(Form, f"result_{item.id}", RadioField(
-            item.text, choices=[(r.value, label) for r, label in RESULT_LABELS.items()],
+            item.text, choices=[SelectChoice(r.value, label) for r, label in RESULT_LABELS.items()],
             validate_choice=False))
         setattr(Form, f"comment_{item.id}", TextAreaField(
             "Comment", validators=[Length(max=2000)], render_kw={"rows": 1}))
     form = Form()
-    form.meter_id.choices = [(NO_METER, "No meter used")] + [
-        (str(m.id), f"{m.serial} {m.model}".strip()) for m in meters]
+    form.meter_id.choices = [SelectChoice(NO_METER, "No meter used")] + [
+        SelectChoice(str(m.id), f"{m.serial} {m.model}".strip()) for m in meters]
     if not form.is_submitted():
         form.performed_at.data = utcnow().astimezone(lab_zone()).replace(second=0, microsecond=0,
                                                                   tzinfo=None)
