@@ -6,7 +6,7 @@ export FLASK_APP := wsgi.py
 HOST ?= 127.0.0.1
 PORT ?= 5000
 
-.PHONY: run test install install-test demo bench clean
+.PHONY: run test install install-test demo bench wheel clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -41,5 +41,9 @@ test: install-test
 bench: install
 	$(BIN)/python -m bench
 
+## Build the installable wheel into dist/ (the app, its domain and its migrations).
+wheel: install
+	$(BIN)/pip wheel --quiet --no-deps --wheel-dir dist .
+
 clean:
-	rm -rf $(VENV) instance .pytest_cache .hypothesis
+	rm -rf $(VENV) instance .pytest_cache .hypothesis build dist

@@ -1,12 +1,14 @@
 """Shared fixtures: the app on SQLite and PostgreSQL, factories, SMTP and a live server."""
 from __future__ import annotations
 
+import contextlib
 import os
 import shutil
 import socket
 import threading
+import time
 import uuid
-from datetime import UTC, date, timedelta
+from datetime import UTC, date, datetime, timedelta
 
 import psycopg
 import pytest
@@ -17,6 +19,7 @@ from werkzeug.serving import make_server
 from models import Base
 from models.audit.audit_ops import use_key
 from models.audit.verify_ops import record_baseline
+from models.core import base
 from models.core.codes import WorkerCategory
 from models.core.settings import LabSettings
 from models.exposure.cache import UntilChanged
@@ -32,6 +35,10 @@ PASSWORD = "correct horse battery"
 PASSWORD_HASH = generate_password_hash(PASSWORD, method="pbkdf2:sha256:1000")
 AUDIT_KEY = "test-audit-key"
 PG_ADMIN_URL = os.environ.get("TEST_POSTGRES_URL", "postgresql://postgres@127.0.0.1:5432/test")
+# The lab's clock in every test: noon UTC (the tests' lab zone), so hours either side stay on the
+# same day whatever the machine's clock and TZ say. The date is the day these tests were written.
+LAB_NOW = datetime(2026, 12, 2, 12, 0, tzinfo=UTC)
+LAB_TODAY = LAB_NOW.date()
 BACKENDS = [b for b in os.environ.get("TEST_BACKENDS", "sqlite,postgresql").split(",") if b]
 
 
@@ -43,14 +50,28 @@ def _flag(name: str) -> bool:
 def base_config(database_url: str, **extra) -> dict:
     """Configuration for a test app."""
     return {"TESTING": True, "SECRET_KEY": "test", "AUDIT_KEY": AUDIT_KEY, "SQLALCHEMY_DATABASE_URI": database_url,
-            "WTF_CSRF_ENABLED": False, "RATELIMIT_ENABLED": False, "MAIL_SERVER": "", **extra}
+            "WTF_CSRF_ENABLED": False, "RATELIMIT_ENABLED": False, "MAIL_SERVER": "",
+            "LAB_TIMEZONE": "UTC", **extra}
 
 
-def migrate_to_head(database_url: str) -> None:
+@pytest.fixture(autouse=True)
+def lab_clock(monkeypatch):
+    """The app's clock starts at LAB_NOW in every test and runs on from there."""
+    started = time.monotonic()
+    monkeypatch.setattr(base, "clock", lambda: LAB_NOW + timedelta(seconds=time.monotonic() - started))
+
+
+@pytest.fixture
+def today() -> date:
+    """The lab's date in every test."""
+    return LAB_TODAY
+
+
+def migrate_to_head(database_url: str, **extra) -> None:
     """Build a database's schema the way production does: by running the migrations."""
     from flask_migrate import upgrade
 
-    app = create_app(base_config(database_url))
+    app = create_app(base_config(database_url, **extra))
     with app.app_context():
         upgrade()
         db.engine.dispose()
@@ -64,9 +85,9 @@ def sqlite_template(tmp_path_factory) -> str:
     return str(path)
 
 
-@pytest.fixture(scope="session")
-def postgres_database():
-    """A fresh, migrated PostgreSQL database for this run, dropped at the end."""
+@contextlib.contextmanager
+def empty_postgres_database():
+    """A new, empty PostgreSQL database, dropped afterwards; skips (or fails) when unreachable."""
     try:
         admin = psycopg.connect(PG_ADMIN_URL, autocommit=True, connect_timeout=3)
     except psycopg.OperationalError as error:
@@ -75,13 +96,19 @@ def postgres_database():
         pytest.skip(f"PostgreSQL unreachable at {PG_ADMIN_URL}: {error}")
     name = f"logbook_test_{uuid.uuid4().hex[:12]}"
     admin.execute(f'CREATE DATABASE "{name}"')
-    url = PG_ADMIN_URL.rsplit("/", 1)[0].replace("postgresql://", "postgresql+psycopg://") + f"/{name}"
     try:
-        migrate_to_head(url)
-        yield url
+        yield PG_ADMIN_URL.rsplit("/", 1)[0].replace("postgresql://", "postgresql+psycopg://") + f"/{name}"
     finally:
         admin.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
         admin.close()
+
+
+@pytest.fixture(scope="session")
+def postgres_database():
+    """A fresh, migrated PostgreSQL database for this run, dropped at the end."""
+    with empty_postgres_database() as url:
+        migrate_to_head(url)
+        yield url
 
 
 @pytest.fixture(params=BACKENDS)
@@ -177,7 +204,7 @@ def authorise(app):
     def make(person, instrument, *, level=AuthorisationLevel.INDEPENDENT,
              trained_on: date | None = None, refresher_due: date | None = None):
         # Trained a while ago, so sessions from earlier today are covered whatever the hour.
-        trained_on = trained_on or date.today() - timedelta(days=30)
+        trained_on = trained_on or LAB_TODAY - timedelta(days=30)
         auth = Authorisation(person_id=person.id, instrument_id=instrument.id, level=level,
                              trained_on=trained_on,
                              refresher_due=refresher_due or trained_on + timedelta(days=365))
@@ -353,14 +380,12 @@ def make_dose(app):
 @pytest.fixture
 def make_session_entry(app):
     """Factory: a committed session written straight to the table (no rules applied)."""
-    from datetime import datetime
-
     from models.sessions.tables import InstrumentSession
 
     def make(instrument, operator, *, started_at: datetime | None = None,
              ended_at: datetime | None = None, kv: float = 40.0, ma: float = 40.0,
              beam_on_minutes: float | None = None):
-        started_at = started_at or datetime.now(UTC) - timedelta(hours=1)
+        started_at = started_at or LAB_NOW - timedelta(hours=1)
         entry = InstrumentSession(instrument_id=instrument.id, operator_id=operator.id,
                                   started_at=started_at, ended_at=ended_at, kv=kv, ma=ma,
                                   beam_on_minutes=beam_on_minutes, pre_use_checks_confirmed=True)
@@ -391,14 +416,13 @@ def record_a_check(app):
     from models.checks.check_ops import Answer, record_check
     from models.checks.checklist_ops import active_items, checklist_for
     from models.checks.tables import ItemResult
-    from models.core.base import utcnow
 
     def make(instrument, person, *, fail: tuple[int, ...] = (), performed_at=None):
         items = active_items(checklist_for(db.session, instrument))
         answers = {item.id: Answer(ItemResult.FAIL, "Does not work.") if n in fail
                    else Answer(ItemResult.PASS) for n, item in enumerate(items)}
-        check = record_check(db.session, instrument, person, performed_at or utcnow(), answers,
-                             None, None, utcnow())
+        check = record_check(db.session, instrument, person, performed_at or LAB_NOW, answers,
+                             None, None, LAB_NOW)
         db.session.commit()
         return check
 
@@ -418,10 +442,10 @@ def make_meter(app):
     def make(**values):
         n = next(counter)
         defaults = {"serial": f"SM-{n}", "model": "Thin-window GM", "detector_type": "Geiger-Müller",
-                    "calibrated_on": date.today() - timedelta(days=30),
+                    "calibrated_on": LAB_TODAY - timedelta(days=30),
                     "calibration_interval_months": 12, "correction_factor": 1.0,
                     "energy_response_notes": None}
-        meter = save_meter(db.session, {**defaults, **values}, date.today())
+        meter = save_meter(db.session, {**defaults, **values}, LAB_TODAY)
         db.session.commit()
         return meter
 

@@ -1,22 +1,32 @@
-"""The migrations build exactly the schema the models describe, on every backend."""
+"""The migrations build exactly the schema the models describe, on every backend, and undo it."""
 import importlib.util
+import sqlite3
 from datetime import UTC, datetime, timedelta
 from pathlib import Path
 
 import pytest
+import sqlalchemy as sa
 from alembic.autogenerate import compare_metadata
 from alembic.migration import MigrationContext
 from alembic.operations import Operations
+from flask_migrate import downgrade, upgrade
 
 from models import Base
 from models.sessions.tables import InstrumentSession
+from tests.conftest import BACKENDS, base_config, empty_postgres_database
+from webapp import create_app
 from webapp.extensions import db
 
 
-def test_models_and_migrations_agree(app):
+def _differences() -> list:
+    """What autogenerate would write to make the database match the models."""
     with db.engine.connect() as conn:
         context = MigrationContext.configure(conn, opts={"compare_type": True})
-        diff = compare_metadata(context, Base.metadata)
+        return compare_metadata(context, Base.metadata)
+
+
+def test_models_and_migrations_agree(app):
+    diff = _differences()
     assert diff == [], f"models and migrations disagree; add a migration: {diff}"
 
 
@@ -28,16 +38,45 @@ def test_sqlite_has_foreign_keys_and_wal(app):
         assert conn.exec_driver_sql("PRAGMA journal_mode").scalar() == "wal"
 
 
-def test_a_new_database_takes_its_time_zone_from_the_environment(tmp_path, monkeypatch):
-    import sqlite3
+@pytest.fixture(params=BACKENDS)
+def empty_database_url(request, tmp_path):
+    """A database with no tables at all, on each backend in turn."""
+    if request.param == "sqlite":
+        yield f"sqlite:///{tmp_path / 'empty.sqlite'}"
+        return
+    with empty_postgres_database() as url:
+        yield url
 
-    from tests.conftest import migrate_to_head
 
+def test_migrations_go_down_to_base_and_up_again(empty_database_url):
+    app = create_app(base_config(empty_database_url))
+    with app.app_context():
+        upgrade()
+        downgrade(revision="base")
+        # Only Alembic's own bookkeeping table may outlive the downgrade, and it must be empty.
+        assert set(sa.inspect(db.engine).get_table_names()) <= {"alembic_version"}
+        upgrade()
+        diff = _differences()
+        db.engine.dispose()
+    assert diff == [], f"after down and up again, models and migrations disagree: {diff}"
+
+
+def test_flask_db_upgrade_gives_a_new_database_the_zone_in_lab_timezone(tmp_path, monkeypatch):
     monkeypatch.setenv("LAB_TIMEZONE", "America/Chicago")
     path = tmp_path / "zoned.sqlite"
-    migrate_to_head(f"sqlite:///{path}")
+    app = create_app({"SQLALCHEMY_DATABASE_URI": f"sqlite:///{path}", "SECRET_KEY": "test"})
+    result = app.test_cli_runner().invoke(args=["db", "upgrade"])
+    with app.app_context():
+        db.engine.dispose()
+    assert result.exit_code == 0, result.output
     with sqlite3.connect(path) as conn:
-        assert conn.execute("SELECT timezone FROM lab_settings").fetchone() == ("America/Chicago",)
+        assert conn.execute("SELECT timezone FROM lab_settings").fetchall() == [("America/Chicago",)]
+
+
+def test_an_unknown_lab_timezone_stops_the_app_and_names_the_setting(monkeypatch):
+    monkeypatch.setenv("LAB_TIMEZONE", "Mars/Olympus_Mons")
+    with pytest.raises(ValueError, match="LAB_TIMEZONE: unknown time zone 'Mars/Olympus_Mons'"):
+        create_app({"SECRET_KEY": "test"})
 
 
 def test_postgresql_refuses_overlapping_sessions_in_the_schema(app):

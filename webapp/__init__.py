@@ -7,11 +7,13 @@ from flask import Flask, g, render_template, session
 from flask_login import current_user
 from flask_wtf.csrf import CSRFError
 
+import migrations
 from models.audit.audit_ops import set_actor, use_key
 from models.people.tables import Person
 from webapp import config, formatting, slots
 from webapp.auth import login_sessions
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
+from webapp.settings.new_database import set_lab_zone_after_first_revision
 
 BLUEPRINTS = (
     "webapp.auth",
@@ -44,7 +46,8 @@ def create_app(overrides: dict | None = None) -> Flask:
     use_key(app.config["AUDIT_KEY"])
 
     db.init_app(app)
-    migrate.init_app(app, db, directory=os.path.join(os.path.dirname(app.root_path), "migrations"))
+    migrate.init_app(app, db, directory=os.path.dirname(migrations.__file__),
+                     on_version_apply=set_lab_zone_after_first_revision)
     csrf.init_app(app)
     limiter.init_app(app)
     login_manager.init_app(app)

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import os
 import secrets
+from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
 
 def _flag(name: str, default: bool = False) -> bool:
@@ -11,6 +12,16 @@ def _flag(name: str, default: bool = False) -> bool:
     if value is None:
         return default
     return value.strip().lower() in {"1", "true", "yes", "on"}
+
+
+def _zone(name: str) -> str:
+    """Read a time zone name; an unknown one stops the app here, not every page later."""
+    zone = os.environ.get(name) or "UTC"
+    try:
+        ZoneInfo(zone)
+    except (ValueError, ZoneInfoNotFoundError):
+        raise ValueError(f"{name}: unknown time zone {zone!r} (use a name such as Europe/Berlin)") from None
+    return zone
 
 
 def from_environment(instance_path: str) -> dict:
@@ -31,6 +42,8 @@ def from_environment(instance_path: str) -> dict:
         "MAIL_PASSWORD": os.environ.get("MAIL_PASSWORD", ""),
         "MAIL_USE_TLS": _flag("MAIL_USE_TLS"),
         "MAIL_FROM": os.environ.get("MAIL_FROM", "logbook@localhost"),
+        # Read once, by the command that creates a new database; the Settings page rules afterwards.
+        "LAB_TIMEZONE": _zone("LAB_TIMEZONE"),
         "BASE_URL": os.environ.get("BASE_URL", "http://127.0.0.1:5000"),
         "RATELIMIT_ENABLED": _flag("RATELIMIT_ENABLED", True),
         "RATELIMIT_STORAGE_URI": os.environ.get("RATELIMIT_STORAGE_URI", "memory://"),

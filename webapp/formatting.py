@@ -6,6 +6,7 @@ from zoneinfo import ZoneInfo
 
 from flask import Flask, g
 
+from models.core.base import utcnow
 from models.core.settings import LabSettings, lab_settings
 from models.core.units import from_msv
 from webapp.extensions import db
@@ -38,7 +39,7 @@ def local(dt: datetime | None, fmt: str = "%Y-%m-%d %H:%M") -> str:
 
 def lab_today() -> date:
     """Today's date in the lab's time zone."""
-    return datetime.now(lab_zone()).date()
+    return utcnow().astimezone(lab_zone()).date()
 
 
 def day_start(text: str | None) -> datetime | None:

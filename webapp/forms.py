@@ -6,7 +6,7 @@ from dataclasses import dataclass
 from typing import Generic, TypeVar
 
 from flask_wtf import FlaskForm
-from wtforms import SelectMultipleField, widgets
+from wtforms import SelectChoice, SelectMultipleField, widgets
 
 from models.core.errors import Invalid
 from webapp.extensions import db
@@ -65,7 +65,7 @@ def error_text(form: FlaskForm) -> str:
     return " ".join(message for messages in form.errors.values() for message in messages)
 
 
-def choices(enum_cls, labels: dict | None = None) -> list[tuple[str, str]]:
+def choices(enum_cls, labels: dict | None = None) -> list[SelectChoice]:
     """Select choices from an enum, with readable labels."""
     labels = labels or {}
-    return [(m.value, capfirst(labels.get(m, m.value.replace("_", " ")))) for m in enum_cls]
+    return [SelectChoice(m.value, capfirst(labels.get(m, m.value.replace("_", " ")))) for m in enum_cls]

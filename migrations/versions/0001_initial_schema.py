@@ -5,9 +5,6 @@ Revises:
 Create Date: 2026-12-01 23:05:15.436431
 
 """
-import os
-from zoneinfo import ZoneInfo
-
 from alembic import op
 import sqlalchemy as sa
 
@@ -542,16 +539,13 @@ def upgrade():
 
     # ### end Alembic commands ###
 
-    # The lab settings row exists from the start, so reading settings never writes. A new
-    # database takes its time zone from LAB_TIMEZONE; the Settings page changes it afterwards.
-    zone = os.environ.get("LAB_TIMEZONE") or "UTC"
-    ZoneInfo(zone)  # an unknown zone stops the migration here, not every page later
+    # The lab settings row exists from the start, so reading settings never writes. The migration
+    # reads nothing from its surroundings: the command that creates the database sets the lab's
+    # zone right after this revision (webapp/settings/new_database.py); the Settings page later.
     op.execute(
-        sa.text(
-            "INSERT INTO lab_settings (id, lab_name, timezone, proration, mrd_policy, lens_source, "
-            "display_unit, five_year_first_year, due_soon_days, reminders_enabled) VALUES "
-            "(1, 'X-ray laboratory', :zone, 'prorate_days', 'zero', 'hp007', 'mSv', 2026, 7, true)"
-        ).bindparams(zone=zone)
+        "INSERT INTO lab_settings (id, lab_name, timezone, proration, mrd_policy, lens_source, "
+        "display_unit, five_year_first_year, due_soon_days, reminders_enabled) VALUES "
+        "(1, 'X-ray laboratory', 'UTC', 'prorate_days', 'zero', 'hp007', 'mSv', 2026, 7, true)"
     )
 
 

@@ -33,6 +33,7 @@ def upgrade():
 
 def downgrade():
     with op.batch_alter_table("survey_point", schema=None) as batch_op:
-        batch_op.drop_constraint("ck_survey_point_point_level_positive", type_="check")
+        batch_op.drop_constraint(batch_op.f("ck_survey_point_point_level_positive"), type_="check")
+        batch_op.drop_constraint(batch_op.f("ck_survey_point_pointlevel"), type_="check")  # the enum's check
         batch_op.drop_column("action_level_usv_h")
         batch_op.drop_column("level")

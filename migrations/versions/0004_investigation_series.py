@@ -39,4 +39,6 @@ def downgrade():
     with op.batch_alter_table("investigation", schema=None) as batch_op:
         batch_op.drop_constraint("uq_investigation_crossing", type_="unique")
         batch_op.create_unique_constraint("uq_investigation_crossing", OLD_KEY)
+        # The enum's check names the column; SQLite's copied table would keep it without the column.
+        batch_op.drop_constraint(batch_op.f("ck_investigation_series"), type_="check")
         batch_op.drop_column("series")

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import enum
 from datetime import UTC, datetime
+from functools import partial
 
 import sqlalchemy as sa
 from sqlalchemy.orm import DeclarativeBase, InstrumentedAttribute, Mapped, Session, mapped_column
@@ -17,9 +18,13 @@ NAMING_CONVENTION = {
 }
 
 
+# The one reading of the machine's clock; the tests replace it with a fixed starting instant.
+clock = partial(datetime.now, UTC)
+
+
 def utcnow() -> datetime:
     """Return the current time as an aware UTC datetime."""
-    return datetime.now(UTC)
+    return clock()
 
 
 class UTCDateTime(sa.TypeDecorator):

@@ -1,5 +1,5 @@
 """Recording checks, the service hold a failure sets, temporary controls and their expiry."""
-from datetime import date, timedelta
+from datetime import timedelta
 
 import pytest
 
@@ -15,11 +15,11 @@ from models.checks.check_ops import (
 )
 from models.checks.checklist_ops import DEFAULT_ITEMS, active_items, checklist_for
 from models.checks.tables import ItemResult
-from models.core.base import utcnow
 from models.core.errors import Invalid
 from models.instruments.instrument_ops import return_to_service, set_out_of_service
 from models.people.tables import Role
 from models.surveys.tables import SurveyMeter
+from tests.conftest import LAB_NOW, LAB_TODAY
 
 
 @pytest.fixture
@@ -67,7 +67,7 @@ def test_a_backdated_pass_does_not_lift_a_later_failure(session, make_instrument
                                                        record_a_check):
     instrument = make_instrument()
     record_a_check(instrument, rso, fail=(1,))
-    record_a_check(instrument, rso, performed_at=utcnow() - timedelta(days=3))
+    record_a_check(instrument, rso, performed_at=LAB_NOW - timedelta(days=3))
     assert instrument.in_service is False
 
 
@@ -77,8 +77,8 @@ def test_every_problem_is_named_by_field(session, make_instrument, rso):
                           i1=Answer(None))
     items = active_items(checklist_for(session, instrument))
     with pytest.raises(Invalid) as error:
-        record_check(session, instrument, rso, utcnow() + timedelta(hours=1), answers, None, None,
-                     utcnow())
+        record_check(session, instrument, rso, LAB_NOW + timedelta(hours=1), answers, None, None,
+                     LAB_NOW)
     assert set(error.value.errors) == {"performed_at", f"comment_{items[0].id}",
                                        f"result_{items[1].id}"}
     assert "fail needs a comment" in error.value.errors[f"comment_{items[0].id}"]
@@ -86,13 +86,13 @@ def test_every_problem_is_named_by_field(session, make_instrument, rso):
 
 def test_a_meter_out_of_calibration_is_refused(session, make_instrument, rso):
     instrument = make_instrument()
-    meter = SurveyMeter(serial="M-1", calibrated_on=date.today() - timedelta(days=400),
+    meter = SurveyMeter(serial="M-1", calibrated_on=LAB_TODAY - timedelta(days=400),
                         calibration_interval_months=12)
     session.add(meter)
     session.flush()
     with pytest.raises(Invalid) as error:
-        record_check(session, instrument, rso, utcnow(), answers_for(session, instrument), meter,
-                     None, utcnow())
+        record_check(session, instrument, rso, LAB_NOW, answers_for(session, instrument), meter,
+                     None, LAB_NOW)
     assert "out of calibration on" in error.value.errors["meter_id"]
 
 
@@ -101,7 +101,7 @@ def test_only_authorised_operators_and_the_safety_officer_may_record(
     instrument = make_instrument()
     operator, stranger = make_person(), make_person()
     authorise(operator, instrument)
-    now = utcnow()
+    now = LAB_NOW
     assert may_record_check(session, rso, instrument, now)
     assert may_record_check(session, operator, instrument, now)
     assert not may_record_check(session, stranger, instrument, now)
@@ -110,7 +110,7 @@ def test_only_authorised_operators_and_the_safety_officer_may_record(
 def test_controls_allow_use_until_they_expire(session, make_instrument, rso, record_a_check):
     instrument = make_instrument()
     record_a_check(instrument, rso, fail=(4,))
-    now = utcnow()
+    now = LAB_NOW
     control = record_control(session, instrument, rso, "Second person at the emergency stop.",
                              now + timedelta(days=2), now)
     assert instrument.in_service is True
@@ -127,7 +127,7 @@ def test_withdrawing_controls_holds_the_instrument_again(session, make_instrumen
                                                         record_a_check):
     instrument = make_instrument()
     record_a_check(instrument, rso, fail=(4,))
-    now = utcnow()
+    now = LAB_NOW
     control = record_control(session, instrument, rso, "Shutter locked closed.",
                              now + timedelta(days=2), now)
     end_control(session, control, now)
@@ -138,7 +138,7 @@ def test_controls_need_a_failed_check_and_a_future_expiry(session, make_instrume
                                                           record_a_check):
     instrument = make_instrument()
     record_a_check(instrument, rso)
-    now = utcnow()
+    now = LAB_NOW
     with pytest.raises(Invalid) as error:
         record_control(session, instrument, rso, "", now - timedelta(hours=1), now)
     assert set(error.value.errors) == {"instrument", "description", "expires_at"}
@@ -149,5 +149,5 @@ def test_a_manual_return_stands_until_the_next_event(session, make_instrument, r
     record_a_check(instrument, rso, fail=(0,))
     return_to_service(session, instrument)
     assert instrument.out_of_service_cause is None
-    assert lapse_expired_controls(session, utcnow()) == []
+    assert lapse_expired_controls(session, LAB_NOW) == []
     assert instrument.in_service is True

@@ -4,7 +4,6 @@ from datetime import UTC, date, datetime, timedelta
 import pytest
 
 from models.core import due_dates
-from models.core.base import utcnow
 from models.doses.dosimeter_ops import wear_period
 from models.doses.tables import Dosimeter, DosimeterKind, ExchangeCycle
 from models.due.due_list_ops import (
@@ -21,6 +20,7 @@ from models.due.due_list_ops import (
 )
 from models.people.tables import Role
 from models.surveys.tables import BypassPermit, PermitStatus, SurveyMeter
+from tests.conftest import LAB_NOW, LAB_TODAY
 
 D = date.fromisoformat
 
@@ -128,9 +128,9 @@ def test_the_lab_list_puts_the_overdue_check_first(session, make_instrument, mak
     rso = make_person(roles=(Role.SAFETY_OFFICER,))
     late = make_instrument(name="Late XRD")
     fresh = make_instrument(name="Fresh XRF")
-    record_a_check(late, rso, performed_at=utcnow() - timedelta(days=40))
+    record_a_check(late, rso, performed_at=LAB_NOW - timedelta(days=40))
     record_a_check(fresh, rso)
-    items = pending(lab_items(session, utcnow()))
+    items = pending(lab_items(session, LAB_NOW))
     first = items[0]
     assert (first.kind, first.subject, first.state, first.days_late) == (CHECK, "Late XRD",
                                                                         due_dates.OVERDUE, 10)
@@ -142,19 +142,19 @@ def test_a_person_sees_their_instruments_training_permits_and_dosimeters(
         session, make_instrument, make_person, authorise):
     me, other = make_person(), make_person()
     mine, theirs = make_instrument(name="Mine"), make_instrument(name="Theirs")
-    authorise(me, mine, trained_on=date.today() - timedelta(days=360),
-              refresher_due=date.today() + timedelta(days=2))
+    authorise(me, mine, trained_on=LAB_TODAY - timedelta(days=360),
+              refresher_due=LAB_TODAY + timedelta(days=2))
     authorise(other, theirs)
-    now = utcnow()
+    now = LAB_NOW
     session.add_all([
         Dosimeter(serial="D-1", kind=DosimeterKind.WHOLE_BODY, wearer_id=me.id,
-                  issued_on=date.today() - timedelta(days=40)),
+                  issued_on=LAB_TODAY - timedelta(days=40)),
         Dosimeter(serial="D-2", kind=DosimeterKind.WHOLE_BODY, wearer_id=other.id,
-                  issued_on=date.today() - timedelta(days=40)),
+                  issued_on=LAB_TODAY - timedelta(days=40)),
         BypassPermit(instrument_id=mine.id, devices="Door interlock", reason="Alignment",
                      requested_by_id=me.id, window_start=now - timedelta(hours=5),
                      window_end=now - timedelta(hours=1), status=PermitStatus.APPROVED),
-        SurveyMeter(serial="M-9", calibrated_on=date.today() - timedelta(days=500)),
+        SurveyMeter(serial="M-9", calibrated_on=LAB_TODAY - timedelta(days=500)),
     ])
     session.flush()
     subjects = {(i.kind, i.subject) for i in person_items(session, me, now)}

@@ -10,6 +10,7 @@ from models.instruments import tube
 from models.people.person_ops import whom_to_ask
 from models.people.tables import Role
 from models.sessions.session_ops import close_session, figures, instrument_usage, log_finished_session, open_session
+from tests.conftest import LAB_NOW
 
 T0 = datetime(2025, 3, 10, 9, 0, tzinfo=UTC)
 NOW = T0 + timedelta(days=1)
@@ -97,7 +98,7 @@ def test_alignment_and_configuration_changes_ask_for_a_survey_once(
         session, make_person, make_instrument, authorise):
     # Surveys after component changes and alignment with the beam on: 25 Pa. Code 227a;
     # Mont. ARM 37.14.1306 (REFERENCE.md, analytical X-ray equipment).
-    from datetime import datetime, timedelta
+    from datetime import timedelta
 
     from models.sessions.session_ops import log_finished_session
     from models.surveys.survey_ops import open_survey_tasks
@@ -105,7 +106,7 @@ def test_alignment_and_configuration_changes_ask_for_a_survey_once(
     operator = make_person("op")
     instrument = make_instrument()
     authorise(operator, instrument)
-    start = datetime.now(UTC) - timedelta(hours=5)
+    start = LAB_NOW - timedelta(hours=5)
     values = {"kv": 40.0, "ma": 30.0, "pre_use_checks_confirmed": True, "alignment": True,
               "caution_acknowledged": True, "configuration_changed": True,
               "configuration_change": "new Goebel mirror"}

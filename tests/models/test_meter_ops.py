@@ -7,6 +7,7 @@ from models.core.due_dates import DUE_SOON, METER_CALIBRATION_MONTHS, OK, OVERDU
 from models.core.errors import Invalid
 from models.surveys.meter_ops import calibration_on, recalibrate, validate_meter_usable
 from models.surveys.tables import SurveyMeter
+from tests.conftest import LAB_TODAY
 
 D = date.fromisoformat
 
@@ -56,6 +57,6 @@ def test_duplicate_serial_is_refused(make_meter):
 def test_recalibration_moves_the_date_forward_only(session, make_meter):
     meter = make_meter(calibrated_on=D("2024-01-10"))
     with pytest.raises(Invalid, match="before the one on record"):
-        recalibrate(session, meter, D("2023-12-01"), 12, date.today())
-    recalibrate(session, meter, D("2025-01-09"), 12, date.today())
+        recalibrate(session, meter, D("2023-12-01"), 12, LAB_TODAY)
+    recalibrate(session, meter, D("2025-01-09"), 12, LAB_TODAY)
     assert meter.calibrated_on == D("2025-01-09")

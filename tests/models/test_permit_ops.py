@@ -1,5 +1,5 @@
 """Bypass permits: request rules, the safety officer's decision, closing raises a survey task."""
-from datetime import UTC, datetime, timedelta
+from datetime import timedelta
 
 import pytest
 
@@ -16,8 +16,9 @@ from models.surveys.permit_ops import (
 )
 from models.surveys.survey_ops import open_survey_tasks
 from models.surveys.tables import PermitStatus, SurveyTrigger
+from tests.conftest import LAB_NOW
 
-NOW = datetime.now(UTC)
+NOW = LAB_NOW
 HOUR = timedelta(hours=1)
 
 

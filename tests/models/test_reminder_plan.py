@@ -3,10 +3,10 @@ from datetime import date, timedelta
 
 import pytest
 
-from models.core.base import utcnow
 from models.due.due_list_ops import check_item
 from models.due.reminder_ops import plan_reminders, record_sent, reminder_key
 from models.people.tables import Role
+from tests.conftest import LAB_NOW
 
 D = date.fromisoformat
 
@@ -33,8 +33,8 @@ def test_a_second_plan_after_recording_finds_nothing_new(session, make_instrumen
     operator = make_person()
     instrument = make_instrument()
     authorise(operator, instrument)
-    record_a_check(instrument, rso, performed_at=utcnow() - timedelta(days=35))
-    now = utcnow()
+    record_a_check(instrument, rso, performed_at=LAB_NOW - timedelta(days=35))
+    now = LAB_NOW
     plan = plan_reminders(session, now)
     assert {(r.person.login, r.digest) for r in plan} == {(operator.login, False),
                                                           (rso.login, True)}

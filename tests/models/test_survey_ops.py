@@ -1,5 +1,5 @@
 """Surveys: net readings, action levels with their sources, pass and fail, survey tasks."""
-from datetime import UTC, date, datetime, timedelta
+from datetime import timedelta
 
 import pytest
 import sqlalchemy as sa
@@ -23,8 +23,9 @@ from models.surveys.survey_ops import (
     unit_conversions,
 )
 from models.surveys.tables import PointLevel, Survey, SurveyPoint, SurveyTask, SurveyTrigger
+from tests.conftest import LAB_NOW, LAB_TODAY
 
-NOW = datetime.now(UTC)
+NOW = LAB_NOW
 
 
 @pytest.mark.parametrize(
@@ -123,7 +124,7 @@ def test_mr_per_hour_readings_are_converted_before_comparing(
 def test_a_meter_out_of_calibration_is_refused_and_nothing_is_written(
         session, make_instrument, make_person, make_meter):
     instrument, rso = make_instrument(), make_person(roles=(Role.SAFETY_OFFICER,))
-    meter = make_meter(calibrated_on=date.today() - timedelta(days=400))
+    meter = make_meter(calibrated_on=LAB_TODAY - timedelta(days=400))
     with pytest.raises(Invalid) as caught:
         record_survey(session, _survey(instrument, rso, meter, [PointInput("Door", 0.5)]))
     message = caught.value.errors["meter_id"]

@@ -3,13 +3,14 @@ from __future__ import annotations
 
 import hashlib
 import re
-from datetime import UTC, datetime, timedelta
+from datetime import timedelta
 
 import sqlalchemy as sa
 
 from models.instruments.tables import ApiToken
 from models.people.tables import Role
 from models.sessions.tables import EntrySource, InstrumentSession
+from tests.conftest import LAB_NOW
 from webapp.api.openapi import document
 from webapp.extensions import db
 
@@ -41,7 +42,7 @@ def test_open_close_and_list_through_the_api(client, make_person, make_instrumen
 
 def test_finished_session_through_the_api(client, make_person, make_instrument, authorise, api_token):
     _instrument, headers = _setup(make_person, make_instrument, authorise, api_token)
-    start = datetime.now(UTC) - timedelta(hours=2)
+    start = LAB_NOW - timedelta(hours=2)
     response = client.post("/api/v1/sessions/finished", headers=headers, json={
         **BODY, "started_at": start.isoformat(), "ended_at": (start + timedelta(hours=1)).isoformat()})
     assert response.status_code == 201
@@ -59,7 +60,7 @@ def test_missing_bad_and_revoked_tokens_get_401_problems(client, make_person, ma
         assert response.get_json()["status"] == 401
         assert response.headers["WWW-Authenticate"] == "Bearer"
     row = db.session.scalar(sa.select(ApiToken))
-    row.revoked_at = datetime.now(UTC)
+    row.revoked_at = LAB_NOW
     db.session.commit()
     assert client.get("/api/v1/sessions", headers=headers).status_code == 401
 

@@ -9,6 +9,7 @@ import sqlalchemy as sa
 from models.audit.tables import AuditEvent
 from models.instruments.tables import Authorisation
 from models.people.tables import Role
+from tests.conftest import LAB_TODAY
 from webapp.extensions import db
 from webapp.formatting import CAUTION
 
@@ -59,7 +60,7 @@ def test_printable_list_names_instrument_date_rso_and_caution(
               refresher_due=date(2026, 6, 1))
     page = _text(login(make_person("viewer")).get(f"/instruments/{instrument.id}/authorised/print"))
     assert "Authorised users of Cu powder" in page
-    assert f"printed {date.today().isoformat()}" in page
+    assert f"printed {LAB_TODAY.isoformat()}" in page
     assert "Radiation safety officer: <strong>Rae Safety</strong>" in page
     assert "Olga Operator" in page and "2026-06-01" in page
     assert CAUTION in page and "print.css" in page

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import os
-from datetime import date, timedelta
+from datetime import timedelta
 
 import pytest
 
@@ -10,7 +10,7 @@ from models.instruments.instrument_ops import save_instrument
 from models.instruments.tables import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind
 from models.people.person_ops import add_person
 from models.people.tables import Role
-from tests.conftest import PASSWORD_HASH, browser_log_in
+from tests.conftest import LAB_TODAY, PASSWORD_HASH, browser_log_in
 from webapp.extensions import db
 
 pytestmark = pytest.mark.browser
@@ -35,8 +35,8 @@ def served(live_server):
             "housing_action_level_usv_h": 25.0})
         db.session.add(Authorisation(person_id=operator.id, instrument_id=instrument.id,
                                      level=AuthorisationLevel.INDEPENDENT,
-                                     trained_on=date.today() - timedelta(days=30),
-                                     refresher_due=date.today() + timedelta(days=330)))
+                                     trained_on=LAB_TODAY - timedelta(days=30),
+                                     refresher_due=LAB_TODAY + timedelta(days=330)))
         db.session.commit()
         instrument_id = instrument.id
     return url, instrument_id

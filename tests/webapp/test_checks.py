@@ -5,8 +5,8 @@ import pytest
 
 from models.checks.checklist_ops import active_items, checklist_for
 from models.checks.tables import SafetyCheck
-from models.core.base import utcnow
 from models.people.tables import Role
+from tests.conftest import LAB_NOW
 from webapp.formatting import local
 
 
@@ -29,7 +29,7 @@ def form_data(session, instrument, fail_first=False, comment=""):
     """A filled-in check form: everything passes unless told."""
     items = active_items(checklist_for(session, instrument))
     session.commit()
-    data = {"performed_at": local(utcnow() - timedelta(minutes=5), "%Y-%m-%dT%H:%M"),
+    data = {"performed_at": local(LAB_NOW - timedelta(minutes=5), "%Y-%m-%dT%H:%M"),
             "meter_id": "", "notes": ""}
     for n, item in enumerate(items):
         data[f"result_{item.id}"] = "fail" if fail_first and n == 0 else "pass"
@@ -77,7 +77,7 @@ def test_a_failed_check_takes_the_instrument_out_and_a_pass_brings_it_back(
 def test_a_future_time_is_refused(session, lab, login):
     rso, operator, instrument = lab
     data = form_data(session, instrument)
-    data["performed_at"] = local(utcnow() + timedelta(days=1), "%Y-%m-%dT%H:%M")
+    data["performed_at"] = local(LAB_NOW + timedelta(days=1), "%Y-%m-%dT%H:%M")
     response = login(operator).post(f"/instruments/{instrument.id}/checks/new", data=data)
     assert "The check time is in the future" in response.text
 
@@ -90,7 +90,7 @@ def test_an_operator_not_authorised_cannot_record(session, lab, make_person, log
 
 def test_the_instrument_page_shows_next_check_and_history(session, lab, login, record_a_check):
     rso, operator, instrument = lab
-    record_a_check(instrument, rso, performed_at=utcnow() - timedelta(days=40))
+    record_a_check(instrument, rso, performed_at=LAB_NOW - timedelta(days=40))
     page = login(operator).get(f"/instruments/{instrument.id}").text
     assert "Safety-device checks" in page
     assert "late, 10 days" in page
@@ -108,7 +108,7 @@ def test_temporary_controls_through_the_page(session, lab, login, record_a_check
     bad = client.post(f"/instruments/{instrument.id}/controls/new",
                       data={"description": "Two people present.", "expires_at": "2000-01-01T00:00"})
     assert "The expiry must be in the future." in bad.text
-    expiry = local(utcnow() + timedelta(days=3), "%Y-%m-%dT%H:%M")
+    expiry = local(LAB_NOW + timedelta(days=3), "%Y-%m-%dT%H:%M")
     response = client.post(f"/instruments/{instrument.id}/controls/new",
                            data={"description": "Two people present; shutter locked.",
                                  "expires_at": expiry})
@@ -124,7 +124,7 @@ def test_expired_controls_put_the_instrument_out_on_the_next_request(
 
     rso, operator, instrument = lab
     record_a_check(instrument, rso, fail=(2,))
-    now = utcnow()
+    now = LAB_NOW
     control = record_control(session, instrument, rso, "Shutter locked.", now + timedelta(days=1), now)
     control.recorded_at = now - timedelta(days=3)
     control.expires_at = now - timedelta(days=1)

@@ -1,7 +1,6 @@
 """The issues' walk-throughs on the demo lab itself, as `make run` serves it."""
 import html
 import re
-from datetime import datetime
 from zoneinfo import ZoneInfo
 
 import pytest
@@ -9,7 +8,7 @@ import sqlalchemy as sa
 
 from models.instruments.tables import Instrument
 from models.people.person_ops import find_person
-from tests.conftest import PASSWORD_HASH
+from tests.conftest import LAB_NOW, PASSWORD_HASH
 from webapp.demo.lab import LAB_ZONE, load_demo_lab
 from webapp.extensions import db
 
@@ -25,7 +24,7 @@ def app_config(mail_app_config):
 @pytest.fixture
 def demo(app):
     """The demo lab up to today, every demo person logging in with the test password."""
-    load_demo_lab(db.session, datetime.now(ZoneInfo(LAB_ZONE)).date(), PASSWORD_HASH)
+    load_demo_lab(db.session, LAB_NOW.astimezone(ZoneInfo(LAB_ZONE)).date(), PASSWORD_HASH)
     db.session.commit()
     return lambda login: find_person(db.session, login)
 

@@ -6,7 +6,6 @@ import sqlalchemy as sa
 
 from models.exposure.tables import Investigation
 from models.people.tables import Role
-from webapp.formatting import lab_today
 
 
 @pytest.fixture
@@ -19,14 +18,14 @@ def _quarter_start(day: date) -> date:
 
 
 def test_entering_a_dose_over_level_one_raises_an_investigation(
-        make_person, login, use_limit_set, session, smtp_server):
+        make_person, login, use_limit_set, session, smtp_server, today):
     _port, mailbox = smtp_server
     use_limit_set("icrp103")
     rso = make_person("rso", roles=(Role.SAFETY_OFFICER,))
     worker = make_person("worker")
-    start = _quarter_start(lab_today())
+    start = _quarter_start(today)
     response = login(rso).post("/doses/new", data={
-        "person": worker.id, "wear_start": start.isoformat(), "wear_end": lab_today().isoformat(),
+        "person": worker.id, "wear_start": start.isoformat(), "wear_end": today.isoformat(),
         "quantity": "Hp(10)", "location": "whole_body", "value": "1.5", "unit": "mSv",
         "result": "measured", "source": "dosimetry_report"})
     assert response.status_code == 302, response.data.decode()[:2000]

@@ -13,6 +13,7 @@ from models.doses.tables import DoseRecord, ImportBatch, ImportMapping
 from models.exposure.pregnancy_ops import declare
 from models.exposure.tables import PregnancyDeclaration
 from models.people.tables import Role
+from tests.conftest import LAB_TODAY
 from tests.models.test_dose_import import report, thousand_rows
 
 OFFICER = (Role.SAFETY_OFFICER,)
@@ -234,7 +235,7 @@ def test_a_declaration_is_seen_only_by_the_person_and_the_officer(session, make_
     ann = make_person("ann", name="Ann Quist")
     make_dose(ann)
     declared = date(2025, 11, 3)
-    declare(session, ann.id, declared, today=date.today())
+    declare(session, ann.id, declared, today=LAB_TODAY)
     session.commit()
     for viewer in (make_person("bob"), make_person("boss", roles=(Role.ADMIN,))):
         client = login(viewer)
@@ -250,7 +251,7 @@ def test_a_declaration_is_seen_only_by_the_person_and_the_officer(session, make_
 
 def test_declare_withdraw_and_end(session, make_person, login, client):
     ann = make_person("ann")
-    today = date.today()
+    today = LAB_TODAY
     login(ann)
     page = client.get("/doses/pregnancy", follow_redirects=True).get_data(as_text=True)
     assert "A declaration changes the limits that apply." in page
@@ -278,7 +279,7 @@ def test_declare_withdraw_and_end(session, make_person, login, client):
 def test_dosimeters_issue_return_and_not_returned(session, make_person, make_dose, login):
     ann = make_person("ann", name="Ann Quist")
     client = login(make_person("rso", roles=OFFICER))
-    long_ago = date.today() - timedelta(days=200)
+    long_ago = LAB_TODAY - timedelta(days=200)
     response = client.post("/doses/dosimeters/new", data={
         "wearer": ann.id, "serial": "WB-9", "worn": "ring_left", "issued_on": long_ago.isoformat(),
         "exchange_cycle": "monthly"})
@@ -296,7 +297,7 @@ def test_dosimeters_issue_return_and_not_returned(session, make_person, make_dos
                         data={"returned_on": (long_ago - timedelta(days=1)).isoformat()}, follow_redirects=True)
     assert "before the issue date" in early.get_data(as_text=True)
     done = client.post(f"/doses/dosimeters/{dosimeter_id}/return",
-                       data={"returned_on": date.today().isoformat()}, follow_redirects=True)
+                       data={"returned_on": LAB_TODAY.isoformat()}, follow_redirects=True)
     assert "returned on" in done.get_data(as_text=True)
 
 

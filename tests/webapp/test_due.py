@@ -1,13 +1,13 @@
 """The due list page, the home panel, settings help, reminders by e-mail and the calendar feed."""
-from datetime import date, timedelta
+from datetime import timedelta
 
 import icalendar
 import pytest
 import sqlalchemy as sa
 
-from models.core.base import utcnow
 from models.due.tables import ReminderSent
 from models.people.tables import Role
+from tests.conftest import LAB_NOW, LAB_TODAY
 
 
 @pytest.fixture
@@ -22,7 +22,7 @@ def late_lab(make_person, make_instrument, authorise, record_a_check):
     operator = make_person("op", email="op@example.org")
     instrument = make_instrument(name="Late XRD")
     authorise(operator, instrument)
-    record_a_check(instrument, rso, performed_at=utcnow() - timedelta(days=40))
+    record_a_check(instrument, rso, performed_at=LAB_NOW - timedelta(days=40))
     return rso, operator, instrument
 
 
@@ -103,7 +103,7 @@ def test_the_calendar_feed_has_the_due_dates_and_an_old_address_stops(late_lab, 
     assert response.mimetype == "text/calendar"
     events = icalendar.Calendar.from_ical(response.data).walk("VEVENT")
     starts = {str(e["summary"]): e.decoded("dtstart") for e in events}
-    assert starts["Safety-device check: Late XRD"] == date.today() - timedelta(days=10)
+    assert starts["Safety-device check: Late XRD"] == LAB_TODAY - timedelta(days=10)
     assert f"Refresher training: {operator.name} on Late XRD" in starts
     login(operator)
     client.post("/calendar/renew")

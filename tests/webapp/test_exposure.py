@@ -1,6 +1,6 @@
 """`flask exposure show` and `review`, investigation pages, the dose lines of the attention list."""
 import json
-from datetime import date, datetime
+from datetime import date
 from zoneinfo import ZoneInfo
 
 import pytest
@@ -11,6 +11,7 @@ from models.exposure import lab_ops
 from models.exposure.cache import UntilChanged
 from models.exposure.tables import Investigation
 from models.people.tables import Role
+from tests.conftest import LAB_NOW
 from webapp.slots import Attention, Registration, Severity, attention
 
 ON = date(2026, 11, 15)  # day 46 of the 92-day fourth quarter: half of it has gone
@@ -104,7 +105,7 @@ def test_show_defaults_to_today_in_the_lab_time_zone(app, session, make_person):
     result = _show(app, "--person", "ada", "--json")
     assert result.exit_code == 0, result.output
     month = next(r for r in json.loads(result.output) if r["period"] == "month")
-    today = datetime.now(ZoneInfo("Pacific/Kiritimati")).date()
+    today = LAB_NOW.astimezone(ZoneInfo("Pacific/Kiritimati")).date()
     assert month["start"] == today.replace(day=1).isoformat()
 
 

@@ -13,6 +13,7 @@ from models.doses.record_ops import amend_dose_record, entry_of
 from models.exposure.limit_set_ops import install_preset
 from models.exposure.tables import PregnancyDeclaration
 from models.people.tables import Role
+from tests.conftest import LAB_TODAY
 
 D = date
 RSO, ADMIN = (Role.SAFETY_OFFICER,), (Role.ADMIN,)
@@ -29,7 +30,7 @@ def lab(session, make_person):
 
 def _this_month() -> dict:
     """A wear period from the first of this month to today (the pages show today's figures)."""
-    today = D.today()
+    today = LAB_TODAY
     return {"wear_start": today.replace(day=1), "wear_end": today}
 
 
@@ -119,8 +120,8 @@ def test_missing_results_and_versions_are_shown(client, login, lab, make_dose, s
     assert "version 1, replaced" in page and "Correction: Badge read for the wrong wearer" in page
 
 
-def test_strong_caution_at_an_investigation_level(client, login, lab, make_dose):
-    today = D.today()  # the lab's zone is UTC in tests; the operator's page shows today
+def test_strong_caution_at_an_investigation_level(client, login, lab, make_dose, today):
+    # the lab's zone is UTC in tests; the operator's page shows today
     # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md)
     make_dose(lab["op"], value=1.5, wear_start=today.replace(day=1), wear_end=today)
     _as(client, login, lab["op"])

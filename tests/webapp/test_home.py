@@ -4,7 +4,6 @@ from datetime import timedelta
 from models.instruments.instrument_ops import set_out_of_service
 from models.instruments.tables import AuthorisationLevel
 from models.people.tables import Role
-from webapp.formatting import lab_today
 
 
 def test_admin_sees_people_by_role_and_instruments_by_status(session, make_person,
@@ -25,10 +24,9 @@ def test_admin_sees_people_by_role_and_instruments_by_status(session, make_perso
 
 
 def test_operator_sees_own_instruments_with_refresher_state(session, make_person,
-                                                           make_instrument, authorise, login):
+                                                           make_instrument, authorise, login, today):
     operator = make_person("op")
     other = make_person("other")
-    today = lab_today()
     soon = make_instrument(name="Soon due")
     lapsed = make_instrument(name="Lapsed")
     fine = make_instrument(name="Fine")

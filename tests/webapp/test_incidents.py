@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import html
-from datetime import UTC, date, datetime, timedelta
+from datetime import timedelta
 
 import pytest
 import sqlalchemy as sa
@@ -11,6 +11,7 @@ from models.core.codes import Result
 from models.doses.tables import DoseRecord, DoseSource
 from models.incidents.tables import Incident
 from models.people.tables import Role
+from tests.conftest import LAB_NOW, LAB_TODAY
 from webapp.extensions import db
 
 
@@ -34,7 +35,7 @@ def people(make_person, make_instrument):
 
 
 def _report(client, people, **over):
-    when = (datetime.now(UTC) - timedelta(minutes=20)).strftime("%Y-%m-%dT%H:%M")
+    when = (LAB_NOW - timedelta(minutes=20)).strftime("%Y-%m-%dT%H:%M")
     data = {"type": "suspected_exposure", "instrument": str(people["instrument"].id),
             "occurred_at": when, "people": [str(people["op"].id), str(people["peer"].id)],
             "description": "Hand near the beam during alignment with the shutter open.",
@@ -60,7 +61,7 @@ def test_report_sends_exactly_one_email_to_the_safety_officer(people, login, smt
 
 def test_bad_report_is_explained_and_sends_nothing(people, login, smtp_server):
     _port, mailbox = smtp_server
-    future = (datetime.now(UTC) + timedelta(days=1)).strftime("%Y-%m-%dT%H:%M")
+    future = (LAB_NOW + timedelta(days=1)).strftime("%Y-%m-%dT%H:%M")
     page = _text(_report(login(people["op"]), people, type="", description=" ", occurred_at=future))
     assert "Choose what kind of incident it was." in page
     assert "Describe what happened." in page
@@ -85,12 +86,12 @@ def test_safety_officer_sees_it_first_and_follows_it_up(people, login, make_pers
     client.post(f"{url}/notes", data={"text": "Talked to Olga; reconstructing times."})
     page = _text(client.post(f"{url}/dose", data={
         "person_id": str(people["op"].id), "quantity": "Hp(0.07)", "location": "right_hand",
-        "wear_start": date.today().isoformat(), "wear_end": date.today().isoformat(),
+        "wear_start": LAB_TODAY.isoformat(), "wear_end": LAB_TODAY.isoformat(),
         "value": "", "unit": "mSv", "basis": ""}))
     assert "Enter a number." in page or "Enter the estimated dose." in page
     client.post(f"{url}/dose", data={
         "person_id": str(people["op"].id), "quantity": "Hp(0.07)", "location": "right_hand",
-        "wear_start": date.today().isoformat(), "wear_end": date.today().isoformat(),
+        "wear_start": LAB_TODAY.isoformat(), "wear_end": LAB_TODAY.isoformat(),
         "value": "500", "unit": "mrem", "basis": "2 s in a 10 mSv/s beam edge, from the log."})
     record = db.session.scalar(sa.select(DoseRecord))
     assert (record.source, record.result, record.incident_id) == (
@@ -109,7 +110,7 @@ def test_estimated_dose_is_seen_only_by_the_person_and_the_safety_officer(people
     incident = db.session.scalar(sa.select(Incident))
     login(people["rso"]).post(f"/incidents/{incident.id}/dose", data={
         "person_id": str(people["op"].id), "quantity": "Hp(10)", "location": "whole_body",
-        "wear_start": date.today().isoformat(), "wear_end": date.today().isoformat(),
+        "wear_start": LAB_TODAY.isoformat(), "wear_end": LAB_TODAY.isoformat(),
         "value": "0.123", "unit": "mSv", "basis": "Scatter estimate."})
     assert db.session.scalar(sa.select(sa.func.count()).select_from(DoseRecord)) == 1
     url = f"/incidents/{incident.id}"

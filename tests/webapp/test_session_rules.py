@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import html
 import re
-from datetime import UTC, date, datetime, timedelta
+from datetime import datetime, timedelta
 
 import pytest
 import sqlalchemy as sa
@@ -12,6 +12,7 @@ from models.instruments.instrument_ops import retire_instrument, set_out_of_serv
 from models.instruments.tables import Authorisation
 from models.people.tables import Role
 from models.sessions.tables import InstrumentSession
+from tests.conftest import LAB_NOW, LAB_TODAY
 from webapp.extensions import db
 
 RSO = "Rae Safety"
@@ -22,7 +23,7 @@ def _minute(moment: datetime) -> datetime:
     return moment.replace(second=0, microsecond=0)
 
 
-NOW = _minute(datetime.now(UTC))
+NOW = _minute(LAB_NOW)
 START, END = NOW - timedelta(hours=2), NOW - timedelta(hours=1)
 
 
@@ -38,8 +39,8 @@ def lab(make_person, make_instrument, authorise, api_token, login):
     operator = make_person("op", name="Olga Operator")
     other = make_person("other", name="Otto Other")
     instrument = make_instrument(name="Cu powder", max_kv=60.0, max_ma=60.0, max_power_w=2200.0)
-    authorise(operator, instrument, trained_on=date.today() - timedelta(days=30))
-    authorise(other, instrument, trained_on=date.today() - timedelta(days=30))
+    authorise(operator, instrument, trained_on=LAB_TODAY - timedelta(days=30))
+    authorise(other, instrument, trained_on=LAB_TODAY - timedelta(days=30))
     token = api_token(instrument)
     client = login(operator)
     return {"instrument": instrument, "operator": operator, "other": other, "client": client,
@@ -91,14 +92,14 @@ def _retired(lab):
 def _expired(lab):
     auth = db.session.scalar(sa.select(Authorisation).where(
         Authorisation.person_id == lab["operator"].id))
-    auth.trained_on = date.today() - timedelta(days=400)
-    auth.refresher_due = date.today() - timedelta(days=1)
+    auth.trained_on = LAB_TODAY - timedelta(days=400)
+    auth.refresher_due = LAB_TODAY - timedelta(days=1)
 
 
 def _revoked(lab):
     auth = db.session.scalar(sa.select(Authorisation).where(
         Authorisation.person_id == lab["operator"].id))
-    auth.revoked_at = datetime.now(UTC)
+    auth.revoked_at = LAB_NOW
 
 
 def _unauthorised(lab):
@@ -210,7 +211,7 @@ def test_values_at_the_ratings_are_accepted(lab):
 
 def test_closing_with_too_much_beam_time_is_refused_by_form_and_api(lab, make_session_entry):
     entry = make_session_entry(lab["instrument"], lab["operator"],
-                               started_at=datetime.now(UTC) - timedelta(minutes=30))
+                               started_at=LAB_NOW - timedelta(minutes=30))
     response = lab["client"].post(f"/sessions/{entry.id}/end", data={"beam_on_minutes": "45"})
     assert "Beam-on time 45 min is longer than the session (30 min)." in html.unescape(response.get_data(as_text=True))
     response = lab["client"].post(f"/api/v1/sessions/{entry.id}/close", json={"beam_on_minutes": 45},
@@ -223,7 +224,7 @@ def test_closing_with_too_much_beam_time_is_refused_by_form_and_api(lab, make_se
 
 def test_closing_with_an_end_in_the_future_is_refused_by_the_api(lab, make_session_entry):
     entry = make_session_entry(lab["instrument"], lab["operator"])
-    later = (datetime.now(UTC) + timedelta(hours=1)).isoformat()
+    later = (LAB_NOW + timedelta(hours=1)).isoformat()
     response = lab["client"].post(f"/api/v1/sessions/{entry.id}/close", json={"ended_at": later},
                                   headers=lab["headers"])
     assert response.status_code == 422

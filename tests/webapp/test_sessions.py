@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import html
 import re
-from datetime import UTC, date, datetime, timedelta
+from datetime import UTC, datetime, timedelta
 
 import sqlalchemy as sa
 
@@ -11,6 +11,7 @@ from models.instruments import tube
 from models.people.tables import Role
 from models.sessions.tables import InstrumentSession
 from models.surveys.tables import BypassPermit, PermitStatus
+from tests.conftest import LAB_NOW, LAB_TODAY
 from webapp.extensions import db
 
 START = {"kv": "40", "ma": "40", "purpose": "quartz standard", "pre_use_checks_confirmed": "y",
@@ -55,9 +56,9 @@ def test_start_and_end_from_home_in_two_clicks_plus_one(make_person, make_instru
 def test_written_up_session_shows_figures_of_models_tube(make_person, make_instrument, authorise, login):
     operator = make_person("op")
     instrument = make_instrument(name="Mo crystal", anode="Mo", max_kv=50, max_ma=1, max_power_w=50)
-    authorise(operator, instrument, trained_on=date.today() - timedelta(days=10))
+    authorise(operator, instrument, trained_on=LAB_TODAY - timedelta(days=10))
     client = login(operator)
-    start = (datetime.now(UTC) - timedelta(hours=3)).replace(second=0, microsecond=0)
+    start = (LAB_NOW - timedelta(hours=3)).replace(second=0, microsecond=0)
     response = client.post("/sessions/log", data={
         **START, "kv": "15", "ma": "1", "instrument": str(instrument.id),
         "started_at": start.strftime("%Y-%m-%dT%H:%M"),
@@ -98,7 +99,7 @@ def test_active_bypass_permit_flags_the_session_and_needs_the_caution(
     operator = make_person("op")
     instrument = make_instrument(name="Open beam", max_kv=50, max_ma=40, max_power_w=2000)
     authorise(operator, instrument)
-    now = datetime.now(UTC)
+    now = LAB_NOW
     permit = BypassPermit(instrument_id=instrument.id, devices="door interlock", reason="alignment",
                           requested_by_id=operator.id, window_start=now - timedelta(hours=1),
                           window_end=now + timedelta(hours=2), status=PermitStatus.APPROVED,

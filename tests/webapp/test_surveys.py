@@ -10,6 +10,7 @@ from models.audit.tables import AuditEvent
 from models.people.tables import Role
 from models.surveys.permit_ops import PermitRequest, decide, request_permit
 from models.surveys.tables import BypassPermit, PermitStatus, Survey, SurveyMeter, SurveyTask
+from tests.conftest import LAB_NOW, LAB_TODAY
 
 
 @pytest.fixture
@@ -31,7 +32,7 @@ def _local(dt: datetime) -> str:
 
 
 def _survey_form(instrument, meter, points, unit="uSv/h", **extra):
-    data = {"instrument_id": instrument.id, "performed_at": _local(datetime.now(UTC) - timedelta(hours=1)),
+    data = {"instrument_id": instrument.id, "performed_at": _local(LAB_NOW - timedelta(hours=1)),
             "trigger": "periodic", "kv": "40", "ma": "30", "meter_id": meter.id, "unit": unit,
             "notes": "", **extra}
     for i, (where, reading, level) in enumerate(points):
@@ -55,16 +56,16 @@ def test_safety_officer_registers_and_recalibrates_a_meter(rso, login, session):
     client = login(rso)
     response = client.post("/meters/new", data={
         "serial": "GM-7", "model": "Pancake GM", "detector_type": "GM",
-        "calibrated_on": str(date.today() - timedelta(days=400)),
+        "calibrated_on": str(LAB_TODAY - timedelta(days=400)),
         "calibration_interval_months": "12", "correction_factor": "1.3"})
     assert response.status_code == 302
     meter = session.scalar(sa.select(SurveyMeter))
     assert "out of calibration" in client.get("/meters/").data.decode()
     response = client.post(f"/meters/{meter.id}/calibration", data={
-        "calibrated_on": str(date.today()), "calibration_interval_months": "12", "note": "Cert 42"})
+        "calibrated_on": str(LAB_TODAY), "calibration_interval_months": "12", "note": "Cert 42"})
     assert response.status_code == 302
     session.refresh(meter)
-    assert meter.calibrated_on == date.today()
+    assert meter.calibrated_on == LAB_TODAY
     event = session.scalar(sa.select(AuditEvent).where(AuditEvent.entity == "survey_meter",
                                                        AuditEvent.action == "update"))
     assert event.reason == "Cert 42" and "calibrated_on" in event.before
@@ -172,7 +173,7 @@ def test_unauthorised_operator_cannot_survey(operator, login, session, make_inst
 
 
 def _permit_form(instrument, ring="y"):
-    now = datetime.now(UTC)
+    now = LAB_NOW
     data = {"instrument_id": instrument.id, "devices": "Door interlock", "reason": "Beam alignment",
             "window_start": _local(now - timedelta(minutes=5)), "window_end": _local(now + timedelta(hours=2))}
     if ring:
@@ -212,7 +213,7 @@ def _approved_permit(session, instrument, requester, officer, start, end):
 @pytest.mark.parametrize("path", ["/", "/instruments/", "/surveys/", "/permits/", "/meters/"])
 def test_active_bypass_banner_shows_on_every_page(rso, operator, login, session, make_instrument, path):
     instrument = make_instrument(name="Open beam Mo")
-    now = datetime.now(UTC)
+    now = LAB_NOW
     _approved_permit(session, instrument, operator, rso, now - timedelta(hours=1), now + timedelta(hours=1))
     page = login(operator).get(path).data.decode()
     banner = re.search(r'<div class="banner-bypass".*?</div>', page, re.S)
@@ -221,7 +222,7 @@ def test_active_bypass_banner_shows_on_every_page(rso, operator, login, session,
 
 def test_instrument_list_and_page_mark_the_bypass(rso, operator, login, session, make_instrument):
     instrument = make_instrument()
-    now = datetime.now(UTC)
+    now = LAB_NOW
     _approved_permit(session, instrument, operator, rso, now - timedelta(hours=1), now + timedelta(hours=1))
     client = login(operator)
     assert "bypass active" in client.get("/instruments/").data.decode()
@@ -229,14 +230,14 @@ def test_instrument_list_and_page_mark_the_bypass(rso, operator, login, session,
 
 
 def test_no_banner_without_an_active_permit(rso, operator, login, session, make_instrument):
-    now = datetime.now(UTC)
+    now = LAB_NOW
     _approved_permit(session, make_instrument(), operator, rso, now - timedelta(hours=3), now - timedelta(hours=1))
     assert 'class="banner-bypass"' not in login(operator).get("/").data.decode()
 
 
 def test_closing_a_permit_raises_a_survey_task(rso, operator, login, session, make_instrument, make_person):
     instrument = make_instrument()
-    now = datetime.now(UTC)
+    now = LAB_NOW
     permit = _approved_permit(session, instrument, operator, rso, now - timedelta(hours=1), now + timedelta(hours=1))
     stranger = login(make_person(roles=(Role.OPERATOR,)))
     assert stranger.post(f"/permits/{permit.id}/close").status_code == 403
@@ -248,7 +249,7 @@ def test_closing_a_permit_raises_a_survey_task(rso, operator, login, session, ma
 
 
 def test_expired_unclosed_permit_is_on_the_attention_list(rso, operator, login, session, make_instrument):
-    now = datetime.now(UTC)
+    now = LAB_NOW
     permit = _approved_permit(session, make_instrument(name="SAXS"), operator, rso,
                               now - timedelta(hours=5), now - timedelta(hours=1))
     page = login(rso).get("/").data.decode()
@@ -266,7 +267,7 @@ def test_status_command_lists_what_needs_doing(app, rso, operator, session, make
     runner = app.test_cli_runner()
     assert "Nothing needs doing." in runner.invoke(args=["surveys", "status"]).output
     make_meter(serial="OLD-2", calibrated_on=date(2020, 1, 1))
-    now = datetime.now(UTC)
+    now = LAB_NOW
     _approved_permit(session, make_instrument(name="XRF"), operator, rso,
                      now - timedelta(hours=5), now - timedelta(hours=1))
     result = runner.invoke(args=["surveys", "status", "--json"])

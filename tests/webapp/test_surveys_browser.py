@@ -1,5 +1,5 @@
 """In a real browser: an operator asks for a bypass, the safety officer approves, the banner shows."""
-from datetime import UTC, date, datetime, timedelta
+from datetime import timedelta
 
 import pytest
 
@@ -7,7 +7,7 @@ from models.instruments.instrument_ops import save_instrument
 from models.instruments.tables import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind
 from models.people.person_ops import add_person
 from models.people.tables import Role
-from tests.conftest import PASSWORD_HASH, browser_log_in
+from tests.conftest import LAB_NOW, LAB_TODAY, PASSWORD_HASH, browser_log_in
 from webapp.extensions import db
 
 pytestmark = pytest.mark.browser
@@ -28,15 +28,15 @@ def served(live_server):
             "surface_action_level_usv_h": 2.5, "housing_action_level_usv_h": 25.0})
         db.session.add(Authorisation(person_id=op.id, instrument_id=instrument.id,
                                      level=AuthorisationLevel.INDEPENDENT,
-                                     trained_on=date.today() - timedelta(days=30),
-                                     refresher_due=date.today() + timedelta(days=365)))
+                                     trained_on=LAB_TODAY - timedelta(days=30),
+                                     refresher_due=LAB_TODAY + timedelta(days=365)))
         db.session.commit()
     return url
 
 
 def test_bypass_request_approval_banner_and_close(browser, served):
     # The live lab runs on UTC (the default), so the browser's local inputs are UTC too.
-    now = datetime.now(UTC)
+    now = LAB_NOW
     operator = browser.new_context().new_page()
     browser_log_in(operator, served, "op")
     operator.goto(f"{served}/permits/new")

@@ -4,12 +4,13 @@ from __future__ import annotations
 from datetime import datetime
 
 from flask_wtf import FlaskForm
-from wtforms import DateTimeLocalField, RadioField, SelectField, StringField, TextAreaField
+from wtforms import DateTimeLocalField, RadioField, SelectChoice, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, Length, Optional
 
 from models.checks.check_ops import RESULT_LABELS, Answer
 from models.checks.checklist_ops import MAX_TEXT
 from models.checks.tables import ItemResult
+from models.core.base import utcnow
 from models.instruments.tables import ChecklistItem
 from models.surveys.tables import SurveyMeter
 from webapp.formatting import from_local, lab_zone
@@ -58,15 +59,15 @@ def check_form(items: list[ChecklistItem], meters: list[SurveyMeter]) -> CheckFo
 
     for item in items:
         setattr(Form, f"result_{item.id}", RadioField(
-            item.text, choices=[(r.value, label) for r, label in RESULT_LABELS.items()],
+            item.text, choices=[SelectChoice(r.value, label) for r, label in RESULT_LABELS.items()],
             validate_choice=False))
         setattr(Form, f"comment_{item.id}", TextAreaField(
             "Comment", validators=[Length(max=2000)], render_kw={"rows": 1}))
     form = Form()
-    form.meter_id.choices = [(NO_METER, "No meter used")] + [
-        (str(m.id), f"{m.serial} {m.model}".strip()) for m in meters]
+    form.meter_id.choices = [SelectChoice(NO_METER, "No meter used")] + [
+        SelectChoice(str(m.id), f"{m.serial} {m.model}".strip()) for m in meters]
     if not form.is_submitted():
-        form.performed_at.data = datetime.now(lab_zone()).replace(second=0, microsecond=0,
+        form.performed_at.data = utcnow().astimezone(lab_zone()).replace(second=0, microsecond=0,
                                                                   tzinfo=None)
     return form
 

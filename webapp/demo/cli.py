@@ -1,12 +1,12 @@
 """`flask demo load` and `flask demo logins`: the demo lab for a first look."""
 from __future__ import annotations
 
-from datetime import datetime
 from zoneinfo import ZoneInfo
 
 import click
 
 from models.audit import audit_ops
+from models.core.base import utcnow
 from models.exposure.investigation_ops import review_after_dose_change
 from models.people.person_ops import find_person
 from models.people.tables import CATEGORY_LABELS, ROLE_LABELS
@@ -29,7 +29,7 @@ def load(if_empty, today):
             click.echo("The database already holds people; the demo lab was not loaded.")
             return
         raise click.ClickException("The demo lab loads only into an empty database.")
-    day = today.date() if today else datetime.now(ZoneInfo(LAB_ZONE)).date()
+    day = today.date() if today else utcnow().astimezone(ZoneInfo(LAB_ZONE)).date()
     click.echo("Loading the demo lab (hashing the shared password once, then two years of records)...")
     with audit_ops.reason(db.session, "Demo lab loaded"):
         summary = load_demo_lab(db.session, day, hash_password(DEMO_PASSWORD))

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from flask_wtf import FlaskForm
 from flask_wtf.file import FileField, FileRequired
-from wtforms import DateField, FloatField, SelectField, StringField, TextAreaField
+from wtforms import DateField, FloatField, SelectChoice, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
 from models.core.codes import Location, Quantity, Result
@@ -15,8 +15,9 @@ from models.doses.tables import SOURCE_LABELS, DoseSource, DosimeterKind, Exchan
 from webapp.forms import choices
 
 # Kind and hand in one choice, since a ring always names its hand.
-WORN_CHOICES = [("whole_body", "Whole body"), ("ring_left", "Ring, left hand"),
-                ("ring_right", "Ring, right hand"), ("eye", "Eye (lens)"), ("abdomen", "Abdomen")]
+WORN_CHOICES = [SelectChoice("whole_body", "Whole body"), SelectChoice("ring_left", "Ring, left hand"),
+                SelectChoice("ring_right", "Ring, right hand"), SelectChoice("eye", "Eye (lens)"),
+                SelectChoice("abdomen", "Abdomen")]
 
 
 def worn_to_kind(worn: str) -> tuple[DosimeterKind, Hand | None]:
@@ -40,7 +41,7 @@ class DoseForm(FlaskForm):
     result = SelectField("Result", choices=choices(Result, RESULT_LABELS))
     value = FloatField("Value", validators=[Optional()],
                        description="Leave empty for a lost or not-returned dosimeter.")
-    unit = SelectField("Unit", choices=[(u, u) for u in DOSE_UNITS],
+    unit = SelectField("Unit", choices=[SelectChoice(u, u) for u in DOSE_UNITS],
                        description="1 mrem = 0.01 mSv; stored in mSv.")
     mrd = FloatField("Minimum reportable dose (MRD)", validators=[Optional()],
                      description="In the same unit as the value; needed for a result below the MRD.")
@@ -97,7 +98,7 @@ class MappingForm(FlaskForm):
     date_format = StringField("Date format", default="%d.%m.%Y",
                               description=f"Codes: %d day, %m month, %Y year (e.g. %d/%m/%Y); "
                                           f"'{ISO_DATE}' for 2026-01-31.")
-    default_unit = SelectField("Unit when the file gives none", choices=[(u, u) for u in DOSE_UNITS])
+    default_unit = SelectField("Unit when the file gives none", choices=[SelectChoice(u, u) for u in DOSE_UNITS])
 
 
 for _name in FIELDS:

@@ -9,6 +9,7 @@ import sqlalchemy as sa
 from flask import abort, current_app, flash, redirect, render_template, request, url_for
 from flask_login import current_user
 from flask_wtf import FlaskForm
+from wtforms import SelectChoice
 
 from models.core.errors import Invalid
 from models.doses.import_ops import (
@@ -78,8 +79,8 @@ def import_upload():
     """Upload a report and choose how to read its columns."""
     mappings = db.session.scalars(sa.select(ImportMapping).order_by(ImportMapping.name)).all()
     form = UploadForm()
-    form.layout.choices = ([("", "The logbook's own layout")] + [(str(m.id), m.name) for m in mappings]
-                           + [(NEW_MAPPING, "A new mapping: choose the columns")])
+    form.layout.choices = ([SelectChoice("", "The logbook's own layout")] + [SelectChoice(str(m.id), m.name) for m in mappings]
+                           + [SelectChoice(NEW_MAPPING, "A new mapping: choose the columns")])
     if form.validate_on_submit():
         sha = _store(form.file.data.read())
         filename = (form.file.data.filename or "report.csv")[:255]
@@ -104,7 +105,7 @@ def import_mapping(sha: str):
     form = MappingForm()
     for name in FIELDS:
         field = getattr(form, name)
-        field.choices = [("", "Not in the file")] + [(h, h) for h in header if h]
+        field.choices = [SelectChoice("", "Not in the file")] + [SelectChoice(h, h) for h in header if h]
         if not form.is_submitted():
             field.data = next((h for h in header if h.lower() == name), "")
     if saved := validate_with(form, lambda f: save_mapping(

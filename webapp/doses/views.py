@@ -5,6 +5,7 @@ import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user
 from sqlalchemy.orm import joinedload
+from wtforms import SelectChoice
 
 from models.core.labels import LOCATION_LABELS, RESULT_LABELS
 from models.doses.dosimeter_ops import describe_dosimeter, missing_results, wear_period
@@ -44,17 +45,17 @@ def person_or_403(person_id: int) -> Person:
     return db.session.get(Person, person_id) or abort(404)
 
 
-def people_choices() -> list[tuple[int, str]]:
+def people_choices() -> list[SelectChoice]:
     """Active people to choose from, by name."""
     people = db.session.scalars(sa.select(Person).where(Person.active.is_(True)).order_by(Person.name))
-    return [(p.id, f"{p.name} ({p.login})") for p in people]
+    return [SelectChoice(p.id, f"{p.name} ({p.login})") for p in people]
 
 
-def _dosimeter_choices() -> list[tuple[str, str]]:
+def _dosimeter_choices() -> list[SelectChoice]:
     """Dosimeters to choose from, with their wearer."""
     dosimeters = db.session.scalars(sa.select(Dosimeter).options(joinedload(Dosimeter.wearer))
                                     .order_by(Dosimeter.serial))
-    return [("", "None")] + [(str(d.id), f"{d.serial} ({d.wearer.name}, {describe_dosimeter(d)})")
+    return [SelectChoice("", "None")] + [SelectChoice(str(d.id), f"{d.serial} ({d.wearer.name}, {describe_dosimeter(d)})")
                              for d in dosimeters]
 
 

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
-from wtforms import FloatField, IntegerField, SelectField, StringField, SubmitField, TextAreaField
+from wtforms import FloatField, IntegerField, SelectChoice, SelectField, StringField, SubmitField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
 from models.core.codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
@@ -62,11 +62,11 @@ class RuleForm(FlaskForm):
     period = SelectField("Period", choices=choices(PeriodKind, labels.PERIOD))
     limit_msv = FloatField("Limit (mSv)", validators=[Optional()], description="Empty: no limit, "
                            "investigation levels only.")
-    level1_kind = SelectField("Level I given as", choices=[("", "not set")]
+    level1_kind = SelectField("Level I given as", choices=[SelectChoice("", "not set")]
                               + choices(LevelKind, labels.LEVEL_KIND))
     level1_value = FloatField("Level I", validators=[Optional()],
                               description="A fraction (0.25 = 25 % of the limit) or mSv.")
-    level2_kind = SelectField("Level II given as", choices=[("", "not set")]
+    level2_kind = SelectField("Level II given as", choices=[SelectChoice("", "not set")]
                               + choices(LevelKind, labels.LEVEL_KIND))
     level2_value = FloatField("Level II", validators=[Optional()])
     clause = StringField("Source (clause)", validators=[Length(max=300)],

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
+from wtforms import SelectChoice
 
 from models.audit import audit_ops
 from models.exposure import presets
@@ -45,7 +46,7 @@ def _index(choose: ChooseSetForm | None = None, policies: PoliciesForm | None = 
     lab = settings()
     sets = _installed()
     choose = choose or ChooseSetForm(limit_set_id=lab.limit_set_id)
-    choose.limit_set_id.choices = [(s.id, s.name) for s in sets]
+    choose.limit_set_id.choices = [SelectChoice(s.id, s.name) for s in sets]
     policies = policies or PoliciesForm(obj=lab)
     installed_keys = {s.preset_key for s in sets}
     return render_template(
@@ -66,7 +67,7 @@ def limits():
 def limits_choose():
     """Put another installed set in force."""
     form = ChooseSetForm()
-    form.limit_set_id.choices = [(s.id, s.name) for s in _installed()]
+    form.limit_set_id.choices = [SelectChoice(s.id, s.name) for s in _installed()]
 
     def choose(f):
         """The set must exist and evaluate."""

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
-from wtforms import DateField, DateTimeLocalField, FloatField, SelectField, TextAreaField
+from wtforms import DateField, DateTimeLocalField, FloatField, SelectChoice, SelectField, TextAreaField
 from wtforms.validators import InputRequired, Length
 
 from models.core.codes import Location, Quantity
@@ -14,7 +14,7 @@ from webapp.forms import CheckboxesField, choices
 class ReportForm(FlaskForm):
     """What happened, where, to whom, and what was done at once."""
 
-    type = SelectField("What kind of incident", choices=[("", "—")] + choices(IncidentType, TYPE_LABELS),
+    type = SelectField("What kind of incident", choices=[SelectChoice("", "—")] + choices(IncidentType, TYPE_LABELS),
                        validate_choice=False)
     instrument = SelectField("Instrument", choices=[], validate_choice=False)
     occurred_at = DateTimeLocalField("When it happened", format="%Y-%m-%dT%H:%M",
@@ -42,13 +42,13 @@ class DoseForm(FlaskForm):
     """The safety officer's dose estimate for one person."""
 
     person_id = SelectField("Person", choices=[], validate_choice=False)
-    quantity = SelectField("Quantity", choices=[(q.value, q.value) for q in Quantity])
+    quantity = SelectField("Quantity", choices=[SelectChoice(q.value, q.value) for q in Quantity])
     location = SelectField("Where", choices=choices(Location))
     wear_start = DateField("Period from", validators=[InputRequired("Enter the first day.")])
     wear_end = DateField("Period to", validators=[InputRequired("Enter the last day.")],
                          description="Usually the day of the incident for both.")
     value = FloatField("Estimated dose", validators=[InputRequired("Enter a number.")])
-    unit = SelectField("Unit", choices=[("mSv", "mSv"), ("mrem", "mrem")])
+    unit = SelectField("Unit", choices=[SelectChoice("mSv", "mSv"), SelectChoice("mrem", "mrem")])
     basis = TextAreaField("Basis of the estimate", validators=[Length(max=10000)],
                           description="How it was worked out: dose rate, distance, time, "
                                       "reconstruction, dosimeter read-out.")

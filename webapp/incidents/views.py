@@ -6,6 +6,7 @@ import smtplib
 import sqlalchemy as sa
 from flask import abort, current_app, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
+from wtforms import SelectChoice
 
 from models.audit import audit_ops
 from models.core.codes import Location, Quantity
@@ -104,8 +105,8 @@ def _mail_body(incident: Incident) -> str:
 def new():
     """Report an incident; the safety officer is e-mailed at once."""
     form = ReportForm()
-    form.instrument.choices = [("", "—")] + [(str(i.id), i.name) for i in active_instruments(db.session)]
-    form.people.choices = [(str(p.id), p.name) for p in _people()]
+    form.instrument.choices = [SelectChoice("", "—")] + [SelectChoice(str(i.id), i.name) for i in active_instruments(db.session)]
+    form.people.choices = [SelectChoice(str(p.id), p.name) for p in _people()]
     if validate_with(form, lambda f: validate_report(**_report_values(f))):
         incident = report_incident(db.session, reported_by=current_user, **_report_values(form))
         db.session.commit()
@@ -146,8 +147,8 @@ def _show(incident: Incident, **forms):
     """The incident page with its follow-up forms (any of them carrying errors)."""
     dose_form = forms.get("dose_form") or DoseForm()
     involved = {p.id for p in incident.people}
-    dose_form.person_id.choices = [("", "—")] + [
-        (str(p.id), p.name) for p in sorted(_people(), key=lambda p: (p.id not in involved, p.name))]
+    dose_form.person_id.choices = [SelectChoice("", "—")] + [
+        SelectChoice(str(p.id), p.name) for p in sorted(_people(), key=lambda p: (p.id not in involved, p.name))]
     doses = [d for d in estimated_doses(db.session, incident) if can_see_dose_of(d.person_id)]
     return render_template(
         "incidents/show.html", incident=incident, labels=TYPE_LABELS, doses=doses,

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
-from wtforms import FloatField, IntegerField, SelectField, StringField, TextAreaField
+from wtforms import FloatField, IntegerField, SelectChoice, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length
 
 from models.instruments.tables import (
@@ -31,8 +31,8 @@ class InstrumentForm(FlaskForm):
     max_kv = FloatField("Maximum tube voltage (kV)", validators=[InputRequired(NUMBER)])
     max_ma = FloatField("Maximum tube current (mA)", validators=[InputRequired(NUMBER)])
     max_power_w = FloatField("Maximum power (W)", validators=[InputRequired(NUMBER)])
-    enclosure = SelectField("Enclosure", choices=[(Enclosure.ENCLOSED.value, "Enclosed beam"),
-                                                  (Enclosure.OPEN_BEAM.value, "Open beam")])
+    enclosure = SelectField("Enclosure", choices=[SelectChoice(Enclosure.ENCLOSED.value, "Enclosed beam"),
+                                                  SelectChoice(Enclosure.OPEN_BEAM.value, "Open beam")])
     check_interval_days = IntegerField(
         "Safety-device check interval (days)", default=30, validators=[InputRequired(NUMBER)],
         description="30 days is a common local rule; published outer bounds are 6 months "

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from flask_wtf import FlaskForm
-from wtforms import EmailField, PasswordField, SelectField, StringField, TextAreaField
+from wtforms import EmailField, PasswordField, SelectChoice, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, Email, EqualTo, Length, Optional
 
 from models.people.tables import CATEGORY_LABELS, PERSON_CATEGORIES, ROLE_LABELS, Role
@@ -18,7 +18,7 @@ class PersonForm(FlaskForm):
                                              Length(max=254)])
     roles = CheckboxesField("Roles", choices=choices(Role, ROLE_LABELS),
                             validators=[DataRequired("Give the person at least one role.")])
-    category = SelectField("Worker category", choices=[(c.value, CATEGORY_LABELS[c]) for c in PERSON_CATEGORIES],
+    category = SelectField("Worker category", choices=[SelectChoice(c.value, CATEGORY_LABELS[c]) for c in PERSON_CATEGORIES],
                            description="Decides which dose limits apply.")
 
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
+from wtforms import SelectChoice
 
 from models.audit import audit_ops
 from models.instruments.authorisation_ops import (
@@ -39,7 +40,7 @@ def authorisations(instrument_id: int):
     form = AuthoriseForm()
     people = db.session.scalars(sa.select(Person).where(Person.active.is_(True))
                                 .order_by(Person.name)).all()
-    form.person_id.choices = [("", "—")] + [(str(p.id), f"{p.name} ({p.login})") for p in people]
+    form.person_id.choices = [SelectChoice("", "—")] + [SelectChoice(str(p.id), f"{p.name} ({p.login})") for p in people]
     if validate_with(form, lambda f: validate_authorisation(db.session, instrument=instrument,
                                                          **_form_values(f))):
         granted = grant_authorisation(db.session, instrument=instrument, granted_by=current_user,

@@ -7,6 +7,7 @@ from wtforms import (
     DateField,
     DateTimeLocalField,
     FloatField,
+    SelectChoice,
     SelectField,
     StringField,
     TextAreaField,
@@ -34,7 +35,7 @@ class StartForm(FlaskForm):
     pre_use_checks_confirmed = BooleanField(
         "I saw the warning light and the shutter indicators working before starting")
     dosimeter_worn = BooleanField("I am wearing my dosimeter")
-    dosimeter_id = SelectField("Which dosimeter", choices=[("", "—")], validate_choice=False)
+    dosimeter_id = SelectField("Which dosimeter", choices=[SelectChoice("", "—")], validate_choice=False)
     alignment = BooleanField("This is alignment work")
     configuration_changed = BooleanField("I changed the configuration")
     configuration_change = TextAreaField("What changed", validators=[Length(max=5000)],
@@ -88,8 +89,8 @@ class AuthoriseForm(FlaskForm):
     """The safety officer authorises a person on an instrument."""
 
     person_id = SelectField("Person", choices=[], validate_choice=False)
-    level = SelectField("Level", choices=[(AuthorisationLevel.SUPERVISED.value, "Supervised"),
-                                          (AuthorisationLevel.INDEPENDENT.value, "Independent")])
+    level = SelectField("Level", choices=[SelectChoice(AuthorisationLevel.SUPERVISED.value, "Supervised"),
+                                          SelectChoice(AuthorisationLevel.INDEPENDENT.value, "Independent")])
     trained_on = DateField("Trained on", validators=[InputRequired("Enter the training date.")])
     refresher_due = DateField("Refresher due", validators=[Optional()],
                               description="Leave empty for 12 months after training "

@@ -6,6 +6,7 @@ from datetime import datetime, time, timedelta
 import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
+from wtforms import SelectChoice
 
 from models.core.base import utcnow
 from models.doses.tables import Dosimeter, DosimeterKind
@@ -41,8 +42,8 @@ def _offer_dosimeters(form, person: Person) -> None:
     """Offer the person's dosimeters still issued; on a new form, choose their whole-body one."""
     rows = db.session.scalars(sa.select(Dosimeter).where(
         Dosimeter.wearer_id == person.id, Dosimeter.returned_on.is_(None)).order_by(Dosimeter.serial)).all()
-    form.dosimeter_id.choices = [("", "—")] + [
-        (str(d.id), f"{d.serial} ({d.kind.value.replace('_', ' ')})") for d in rows]
+    form.dosimeter_id.choices = [SelectChoice("", "—")] + [
+        SelectChoice(str(d.id), f"{d.serial} ({d.kind.value.replace('_', ' ')})") for d in rows]
     if not form.is_submitted():
         form.dosimeter_id.data = next(
             (str(d.id) for d in rows if d.kind == DosimeterKind.WHOLE_BODY), "")
@@ -104,7 +105,7 @@ def log():
     """Write up a session after it ended."""
     form = LogForm()
     _offer_dosimeters(form, current_user)
-    form.instrument.choices = [("", "—")] + [(str(i.id), i.name) for i in active_instruments(db.session)]
+    form.instrument.choices = [SelectChoice("", "—")] + [SelectChoice(str(i.id), i.name) for i in active_instruments(db.session)]
     instrument = db.session.get(Instrument, optional_id(form.instrument.data) or 0)
     now = utcnow()
     logged = validate_with(form, lambda f: log_finished_session(db.session, instrument, current_user,

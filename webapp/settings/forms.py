@@ -4,7 +4,7 @@ from __future__ import annotations
 from zoneinfo import available_timezones
 
 from flask_wtf import FlaskForm
-from wtforms import EmailField, IntegerField, SelectField, StringField
+from wtforms import EmailField, IntegerField, SelectChoice, SelectField, StringField
 from wtforms.validators import DataRequired, Email, InputRequired, Length, NumberRange, Optional
 
 from models.core.settings import IDLE_TIMEOUT_RANGE, SESSION_LIFETIME_RANGE
@@ -17,7 +17,7 @@ class LabForm(FlaskForm):
                                                    Length(max=200)])
     timezone = SelectField("Lab time zone", choices=sorted(available_timezones()),
                            description="Dose periods and due dates are counted in this zone.")
-    display_unit = SelectField("Dose display unit", choices=[("mSv", "mSv"), ("mrem", "mrem")],
+    display_unit = SelectField("Dose display unit", choices=[SelectChoice("mSv", "mSv"), SelectChoice("mrem", "mrem")],
                                description="Doses are stored in mSv; 1 mSv = 100 mrem "
                                            "(10 CFR 20.1004).")
     due_soon_days = IntegerField("'Due soon' window (days)", validators=[

@@ -13,6 +13,7 @@ from wtforms import (
     Form,
     FormField,
     IntegerField,
+    SelectChoice,
     SelectField,
     StringField,
     TextAreaField,
@@ -102,8 +103,8 @@ class PointForm(Form):
     """One survey point; a row with neither place nor reading is ignored."""
 
     location = StringField("Where", validators=[Optional(), Length(max=200)])
-    level = SelectField("Held to", choices=[(PointLevel.SURFACE.value, "Outer surface"),
-                                            (PointLevel.HOUSING.value, "Tube housing, shutters closed")],
+    level = SelectField("Held to", choices=[SelectChoice(PointLevel.SURFACE.value, "Outer surface"),
+                                            SelectChoice(PointLevel.HOUSING.value, "Tube housing, shutters closed")],
                         default=PointLevel.SURFACE.value)
     distance_cm = FloatField("Distance (cm)", default=REFERENCE_DISTANCE_CM,
                              validators=[Optional()])
@@ -132,7 +133,7 @@ class SurveyForm(FlaskForm):
     ma = FloatField("Tube current during the survey (mA)", validators=[InputRequired(NUMBER)])
     meter_id = SelectField("Survey meter", coerce=int, validate_choice=False,
                            description="Must be within its calibration on the survey date.")
-    unit = SelectField("Unit of the readings", choices=[(u.code, u.label) for u in RATE_UNITS.values()],
+    unit = SelectField("Unit of the readings", choices=[SelectChoice(u.code, u.label) for u in RATE_UNITS.values()],
                        description="Readings and backgrounds are converted to µSv/h:")
     points = FieldList(FormField(PointForm), min_entries=POINT_ROWS, max_entries=50)
     notes = TextAreaField("Notes", validators=[Length(max=2000)])

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
+from wtforms import SelectChoice
 
 from models.core.base import utcnow
 from models.core.errors import Invalid, errors_of
@@ -60,7 +61,7 @@ def new_permit():
     """Ask the safety officer for a bypass of safety devices for a stated window."""
     form = PermitForm()
     today = lab_today()
-    form.instrument_id.choices = [(i.id, i.name) for i in instruments_for(db.session, current_user, today)]
+    form.instrument_id.choices = [SelectChoice(i.id, i.name) for i in instruments_for(db.session, current_user, today)]
     if not form.is_submitted():
         form.instrument_id.data = request.args.get("instrument_id", type=int)
     if validate_with(form, lambda f: _validate(f, today)):

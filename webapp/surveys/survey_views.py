@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
+from wtforms import SelectChoice
 
 from models.core.base import utcnow
 from models.core.errors import Invalid, errors_of
@@ -62,9 +63,9 @@ def new_survey():
     """Record a survey; a fail puts the instrument out of service and alerts the safety officer."""
     form = SurveyForm()
     today = lab_today()
-    form.instrument_id.choices = [(i.id, i.name) for i in instruments_for(db.session, current_user, today)]
-    form.meter_id.choices = [(0, "Choose a meter")] + [
-        (m.id, _meter_label(m, calibration_on(m, today, settings().due_soon_days)))
+    form.instrument_id.choices = [SelectChoice(i.id, i.name) for i in instruments_for(db.session, current_user, today)]
+    form.meter_id.choices = [SelectChoice(0, "Choose a meter")] + [
+        SelectChoice(m.id, _meter_label(m, calibration_on(m, today, settings().due_soon_days)))
         for m in active_meters(db.session)]
     if not form.is_submitted():
         form.instrument_id.data = request.args.get("instrument_id", type=int)

@@ -1,0 +1,1 @@
+"""Alembic's migrations, shipped with the app so an installed copy can build its database."""
