@@ -35,12 +35,21 @@ class LabSettings(IdMixin, Base):
     due_soon_days: Mapped[int] = mapped_column(default=7)
     reminders_enabled: Mapped[bool] = mapped_column(default=True)
     safety_officer_email: Mapped[str | None] = mapped_column(sa.String(254))
+    # How the logbook treats people and states at the instrument; each a choice the lab makes.
+    public_authorisation: Mapped[str] = mapped_column(sa.String(16), default="supervised")
+    late_check_policy: Mapped[str] = mapped_column(sa.String(16), default="warn")
+    investigation_policy: Mapped[str] = mapped_column(sa.String(16), default="tell")
 
     limit_set: Mapped[LimitSet | None] = relationship("LimitSet")
 
     __table_args__ = (
         sa.CheckConstraint("display_unit IN ('mSv', 'mrem')", name="display_unit_known"),
         sa.CheckConstraint("due_soon_days >= 0", name="due_soon_not_negative"),
+        sa.CheckConstraint("public_authorisation IN ('supervised', 'none')",
+                           name="public_authorisation_known"),
+        sa.CheckConstraint("late_check_policy IN ('warn', 'refuse')", name="late_check_policy_known"),
+        sa.CheckConstraint("investigation_policy IN ('tell', 'clearance')",
+                           name="investigation_policy_known"),
     )
 
 

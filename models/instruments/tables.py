@@ -145,6 +145,9 @@ class Authorisation(IdMixin, Base):
     granted_by_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))
     granted_at: Mapped[datetime] = mapped_column(default=utcnow)
     revoked_at: Mapped[datetime | None]
+    # Set, with revoked_at, when a later authorisation of the same person on the same instrument
+    # renewed or changed this one: the row stays as history, the newer one is the current one.
+    replaced_by_id: Mapped[int | None] = mapped_column(sa.ForeignKey("authorisation.id"))
 
     person: Mapped[Person] = relationship(foreign_keys=[person_id])
     instrument: Mapped[Instrument] = relationship()
@@ -152,6 +155,10 @@ class Authorisation(IdMixin, Base):
 
     __table_args__ = (
         sa.CheckConstraint("refresher_due >= trained_on", name="refresher_after_training"),
+        # One current authorisation per person and instrument, even with two officers at once.
+        sa.Index("uq_authorisation_current", "person_id", "instrument_id", unique=True,
+                 sqlite_where=sa.text("revoked_at IS NULL"),
+                 postgresql_where=sa.text("revoked_at IS NULL")),
     )
 
 

@@ -17,8 +17,12 @@ from models.core.errors import Invalid
 from models.core.settings import LabSettings, lab_date
 from models.doses.tables import Dosimeter
 from models.instruments import tube
-from models.instruments.authorisation_ops import why_not_authorised
-from models.instruments.tables import Instrument
+from models.instruments.authorisation_ops import (
+    authorisation_on,
+    why_not_authorised,
+    why_not_supervisor,
+)
+from models.instruments.tables import AuthorisationLevel, Instrument
 from models.people.person_ops import whom_to_ask
 from models.people.tables import Person
 from models.sessions.tables import EntrySource, InstrumentSession
@@ -164,6 +168,25 @@ def _validate_dosimeter(session: Session, operator: Person, values: dict, errors
         errors["dosimeter_id"] = f"Dosimeter {dosimeter.serial} was not issued to you on {on}."
 
 
+def needs_supervisor(session: Session, instrument: Instrument, operator: Person, start: datetime) -> bool:
+    """True when the operator holds only a supervised authorisation on the instrument then."""
+    held = authorisation_on(session, operator, instrument, lab_date(session, start))
+    return held is not None and held.level == AuthorisationLevel.SUPERVISED
+
+
+def _validate_supervisor(session: Session, instrument: Instrument, operator: Person, values: dict,
+                         errors: dict) -> None:
+    """A supervised operator's session names an independently authorised supervisor."""
+    start = values["started_at"]
+    if not needs_supervisor(session, instrument, operator, start):
+        return
+    supervisor_id = values.get("supervisor_id")
+    supervisor = session.get(Person, supervisor_id) if supervisor_id is not None else None
+    refusal = why_not_supervisor(session, supervisor, operator, instrument, lab_date(session, start))
+    if refusal:
+        errors["supervisor_id"] = refusal
+
+
 def needs_caution(session: Session, instrument: Instrument, values: dict) -> BypassPermit | bool:
     """The active bypass permit, or True for alignment work, when a strong caution applies."""
     start = values.get("started_at")
@@ -190,6 +213,8 @@ def validate_session(
         refusal = why_not_authorised(session, operator, instrument, lab_date(session, start))
         if refusal:
             errors["instrument"] = refusal
+        else:
+            _validate_supervisor(session, instrument, operator, values, errors)
     if start is not None and "started_at" not in errors and "ended_at" not in errors:
         clash = _overlapping(session, instrument, start, end, exclude_id)
         if clash is not None:
@@ -229,6 +254,8 @@ def _new_row(
     row.dosimeter_worn = bool(values.get("dosimeter_worn"))
     if not row.dosimeter_worn:
         row.dosimeter_id = None
+    row.supervisor_id = (values.get("supervisor_id")
+                         if needs_supervisor(session, instrument, operator, row.started_at) else None)
     permit = active_bypass_permit(session, instrument, values["started_at"])
     row.bypass_permit_id = permit.id if permit else None
     session.add(row)

@@ -40,12 +40,15 @@ class InstrumentSession(IdMixin, Base):
     dosimeter_worn: Mapped[bool] = mapped_column(default=False)
     dosimeter_id: Mapped[int | None] = mapped_column(sa.ForeignKey("dosimeter.id"))
     bypass_permit_id: Mapped[int | None] = mapped_column(sa.ForeignKey("bypass_permit.id"))
+    # Who supervised the session, when the operator holds only a supervised authorisation.
+    supervisor_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))
     notes: Mapped[str | None] = mapped_column(sa.Text)
     source: Mapped[EntrySource] = mapped_column(enum_column(EntrySource), default=EntrySource.FORM)
     created_at: Mapped[datetime] = mapped_column(default=utcnow)
 
     instrument: Mapped[Instrument] = relationship()
-    operator: Mapped[Person] = relationship()
+    operator: Mapped[Person] = relationship(foreign_keys=[operator_id])
+    supervisor: Mapped[Person | None] = relationship(foreign_keys=[supervisor_id])
 
     __table_args__ = (
         sa.CheckConstraint("kv > 0", name="kv_positive"),

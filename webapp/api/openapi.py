@@ -9,6 +9,7 @@ _ENTRY = {
     "required": ["operator", "kv", "ma", "pre_use_checks_confirmed"],
     "properties": {
         "operator": {"type": "string", "description": "Login of the person at the instrument."},
+        "supervisor": {"type": "string", "description": "Login of the supervising person; required when the operator is authorised on the instrument only as supervised, and that person must be independently authorised on it."},
         "kv": {"type": "number", "exclusiveMinimum": 0, "description": "Tube voltage, kV; at most the rating."},
         "ma": {"type": "number", "exclusiveMinimum": 0, "description": "Tube current, mA; at most the rating; kV x mA at most the rated power."},
         "purpose": {"type": "string", "maxLength": 300},
@@ -37,6 +38,7 @@ _CLOSE = {"type": "object", "properties": {
 
 _SESSION = {"type": "object", "properties": {
     "id": {"type": "integer"}, "instrument": {"type": "string"}, "operator": {"type": "string"},
+    "supervisor": {"type": "string", "nullable": True},
     "started_at": _TIME, "ended_at": {**_TIME, "nullable": True},
     "kv": {"type": "number"}, "ma": {"type": "number"}, "beam_on_minutes": {"type": "number", "nullable": True},
     "purpose": {"type": "string"}, "pre_use_checks_confirmed": {"type": "boolean"},

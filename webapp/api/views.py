@@ -131,6 +131,14 @@ def _values(body: dict, operator: Person | None) -> tuple[dict, dict]:
             errors["dosimeter"] = f"No dosimeter with serial '{serial}'."
         else:
             values["dosimeter_id"] = dosimeter.id
+    values["supervisor_id"] = None
+    supervisor = body.get("supervisor")
+    if supervisor is not None:
+        person = find_person(db.session, supervisor.strip()) if isinstance(supervisor, str) else None
+        if person is None:
+            errors["supervisor"] = "'supervisor' must be the login of a person in the logbook."
+        else:
+            values["supervisor_id"] = person.id
     return values, errors
 
 
@@ -140,6 +148,12 @@ def _operator(body: dict) -> Person | None:
     return find_person(db.session, login.strip()) if isinstance(login, str) else None
 
 
+def _api_names(errors: dict) -> dict:
+    """The form calls these fields by id; the API names dosimeters by serial, people by login."""
+    names = {"dosimeter_id": "dosimeter", "supervisor_id": "supervisor"}
+    return {names.get(key, key): message for key, message in errors.items()}
+
+
 def _checked(body: dict, check) -> tuple[Person, dict]:
     """Read the body and run the session rules on it; every problem is reported together."""
     operator = _operator(body)
@@ -147,11 +161,8 @@ def _checked(body: dict, check) -> tuple[Person, dict]:
     try:
         check(operator, values)
     except Invalid as error:
-        errors = {**error.errors, **errors}
+        errors = {**_api_names(error.errors), **errors}
     if errors:
-        # The form calls this field dosimeter_id; the API names dosimeters by serial.
-        if "dosimeter_id" in errors:
-            errors["dosimeter"] = errors.pop("dosimeter_id")
         raise Invalid(errors)
     set_actor(db.session, operator.id)
     return operator, values
@@ -163,6 +174,7 @@ def as_json(entry: InstrumentSession) -> dict:
     dosimeter = db.session.get(Dosimeter, entry.dosimeter_id) if entry.dosimeter_id else None
     return {
         "id": entry.id, "instrument": entry.instrument.name, "operator": entry.operator.login,
+        "supervisor": entry.supervisor.login if entry.supervisor else None,
         "started_at": entry.started_at.isoformat(),
         "ended_at": entry.ended_at.isoformat() if entry.ended_at else None,
         "kv": entry.kv, "ma": entry.ma, "beam_on_minutes": entry.beam_on_minutes,

@@ -21,8 +21,9 @@ WHEN = "Enter a date and time."
 
 
 def optional_id(value: str | None) -> int | None:
-    """A select's value as an id, or None for the empty choice."""
-    return int(value) if value not in (None, "", "None") else None
+    """A select's value as an id, or None for the empty choice (or anything not an id)."""
+    text = str(value or "")
+    return int(text) if text.isascii() and text.isdigit() and len(text) < 12 else None
 
 
 class StartForm(FlaskForm):
@@ -35,6 +36,8 @@ class StartForm(FlaskForm):
         "I saw the warning light and the shutter indicators working before starting")
     dosimeter_worn = BooleanField("I am wearing my dosimeter")
     dosimeter_id = SelectField("Which dosimeter", choices=[("", "—")], validate_choice=False)
+    supervisor_id = SelectField("Supervised by", choices=[("", "—")], validate_choice=False,
+                                description="Someone independently authorised on this instrument.")
     alignment = BooleanField("This is alignment work")
     configuration_changed = BooleanField("I changed the configuration")
     configuration_change = TextAreaField("What changed", validators=[Length(max=5000)],
@@ -49,6 +52,7 @@ class StartForm(FlaskForm):
             "pre_use_checks_confirmed": self.pre_use_checks_confirmed.data,
             "dosimeter_worn": self.dosimeter_worn.data,
             "dosimeter_id": optional_id(self.dosimeter_id.data),
+            "supervisor_id": optional_id(self.supervisor_id.data),
             "alignment": self.alignment.data,
             "configuration_changed": self.configuration_changed.data,
             "configuration_change": self.configuration_change.data, "notes": self.notes.data,

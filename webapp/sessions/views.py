@@ -10,8 +10,9 @@ from flask_login import current_user, login_required
 from models.core.base import utcnow
 from models.core.errors import Invalid
 from models.doses.tables import Dosimeter, DosimeterKind
+from models.instruments.authorisation_ops import supervisors_on
 from models.instruments.instrument_ops import active_instruments, current_authorisations
-from models.instruments.tables import Instrument
+from models.instruments.tables import Authorisation, AuthorisationLevel, Instrument
 from models.people.tables import Person, Role
 from models.sessions.session_ops import (
     active_bypass_permit,
@@ -20,6 +21,7 @@ from models.sessions.session_ops import (
     find_sessions,
     instrument_usage,
     log_finished_session,
+    needs_supervisor,
     open_session,
     open_sessions_of,
     usage,
@@ -49,6 +51,29 @@ def _offer_dosimeters(form, person: Person) -> None:
     if not form.is_submitted():
         form.dosimeter_id.data = next(
             (str(d.id) for d in rows if d.kind == DosimeterKind.WHOLE_BODY), "")
+        # "Worn" follows the preselection, so a blank form never records a dosimeter not worn.
+        form.dosimeter_worn.data = bool(form.dosimeter_id.data)
+
+
+def _offer_supervisors(form, people: list[Person], person: Person) -> None:
+    """Offer the given people, less the operator, as the session's supervisor."""
+    form.supervisor_id.choices = [("", "—")] + [
+        (str(p.id), p.name) for p in people if p.id != person.id]
+
+
+def _independent_users(person: Person) -> list[Person]:
+    """Everyone holding a current independent authorisation on some instrument, by name."""
+    return list(db.session.scalars(
+        sa.select(Person).join(Authorisation, Authorisation.person_id == Person.id)
+        .where(Authorisation.revoked_at.is_(None), Authorisation.refresher_due >= lab_today(),
+               Authorisation.level == AuthorisationLevel.INDEPENDENT, Person.active.is_(True))
+        .distinct().order_by(Person.name)))
+
+
+def _holds_supervised(person: Person) -> bool:
+    """True when any of the person's current authorisations is supervised only."""
+    return any(a.level == AuthorisationLevel.SUPERVISED
+               for a in current_authorisations(db.session, person, lab_today()))
 
 
 @home_panels.add("sessions/_home.html", roles=OPERATING, order=10)
@@ -68,9 +93,9 @@ def start(instrument_id: int):
     instrument = db.session.get(Instrument, instrument_id) or abort(404)
     form = StartForm()
     _offer_dosimeters(form, current_user)
-    if not form.is_submitted():
-        form.dosimeter_worn.data = True
     now = utcnow()
+    supervised = needs_supervisor(db.session, instrument, current_user, now)
+    _offer_supervisors(form, supervisors_on(db.session, instrument, lab_today()), current_user)
     if validate_with(form, lambda f: validate_opening(db.session, instrument, current_user,
                                                    f.values(), now=now)):
         open_session(db.session, instrument, current_user, form.values(), now=now)
@@ -78,7 +103,8 @@ def start(instrument_id: int):
         flash(f"Session started on {instrument.name}.", "info")
         return redirect(url_for("home.index"))
     return render_template("sessions/start.html", form=form, instrument=instrument,
-                           permit=active_bypass_permit(db.session, instrument, now))
+                           permit=active_bypass_permit(db.session, instrument, now),
+                           supervised=supervised)
 
 
 def _own_session(session_id: int) -> InstrumentSession:
@@ -114,6 +140,7 @@ def log():
     """Write up a session after it ended."""
     form = LogForm()
     _offer_dosimeters(form, current_user)
+    _offer_supervisors(form, _independent_users(current_user), current_user)
     form.instrument.choices = [("", "—")] + [(str(i.id), i.name) for i in active_instruments(db.session)]
     instrument = db.session.get(Instrument, optional_id(form.instrument.data) or 0)
     now = utcnow()
@@ -123,7 +150,8 @@ def log():
         db.session.commit()
         flash(f"Session on {instrument.name} logged.", "info")
         return redirect(url_for("sessions.show", session_id=entry.id))
-    return render_template("sessions/log.html", form=form)
+    return render_template("sessions/log.html", form=form,
+                           supervised=_holds_supervised(current_user))
 
 
 @bp.route("/sessions/<int:session_id>")

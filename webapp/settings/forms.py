@@ -24,3 +24,13 @@ class LabForm(FlaskForm):
     safety_officer_email = EmailField("Safety officer's e-mail", validators=[
         Optional(), Email("Enter a valid e-mail address.")],
         description="Alerts also go to every person holding the safety officer role.")
+    public_authorisation = SelectField(
+        "Members of the public", choices=[("supervised", "may be authorised as supervised only"),
+                                          ("none", "may not be authorised on any instrument")])
+    late_check_policy = SelectField(
+        "Safety-device check overdue", choices=[("warn", "warn at Start"),
+                                                ("refuse", "refuse sessions until a check passes")])
+    investigation_policy = SelectField(
+        "Open investigation at or above a level",
+        choices=[("tell", "tell the person at Start to see the safety officer"),
+                 ("clearance", "refuse sessions until the safety officer signs it off")])

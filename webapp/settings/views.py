@@ -12,7 +12,8 @@ from webapp.settings import bp
 from webapp.settings.forms import LabForm
 from webapp.slots import settings_sections
 
-FIELDS = ("lab_name", "timezone", "display_unit", "due_soon_days", "safety_officer_email")
+FIELDS = ("lab_name", "timezone", "display_unit", "due_soon_days", "safety_officer_email",
+          "public_authorisation", "late_check_policy", "investigation_policy")
 
 
 @bp.route("/settings/", methods=["GET", "POST"])
