@@ -131,9 +131,15 @@ def failed_items(check: SafetyCheck) -> list[CheckItemResult]:
 
 
 def failure_reason(session: Session, check: SafetyCheck) -> str:
-    """The out-of-service reason naming the failed items."""
-    items = "; ".join(r.item_text for r in failed_items(check))
-    return f"Safety-device check of {lab_date(session, check.performed_at)} failed: {items}."
+    """The out-of-service reason naming the failed items as failed, each with its comment."""
+    # An item is written as the working state ("the light lights..."), so it is quoted and
+    # marked as not holding, never run into the sentence as if it were true.
+    failed = failed_items(check)
+    items = "; ".join(f"“{r.item_text.strip().rstrip('.')}” did not hold"
+                      + (f" ({r.comment.strip().rstrip('.')})" if r.comment else "") for r in failed)
+    count = f"{len(failed)} item{'s' if len(failed) != 1 else ''}"
+    return (f"Safety-device check of {lab_date(session, check.performed_at)} failed on "
+            f"{count}: {items}")
 
 
 def _hold(session: Session, instrument: Instrument, reason: str) -> None:

@@ -8,6 +8,7 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from models.core.base import Base, IdMixin, enum_column, utcnow
+from models.doses.tables import Dosimeter
 from models.instruments.tables import Instrument
 from models.people.tables import Person
 
@@ -38,7 +39,6 @@ class InstrumentSession(IdMixin, Base):
     alignment: Mapped[bool] = mapped_column(default=False)
     pre_use_checks_confirmed: Mapped[bool] = mapped_column(default=False)
     dosimeter_worn: Mapped[bool] = mapped_column(default=False)
-    dosimeter_id: Mapped[int | None] = mapped_column(sa.ForeignKey("dosimeter.id"))
     bypass_permit_id: Mapped[int | None] = mapped_column(sa.ForeignKey("bypass_permit.id"))
     # Who supervised the session, when the operator holds only a supervised authorisation.
     supervisor_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))
@@ -49,6 +49,9 @@ class InstrumentSession(IdMixin, Base):
     instrument: Mapped[Instrument] = relationship()
     operator: Mapped[Person] = relationship(foreign_keys=[operator_id])
     supervisor: Mapped[Person | None] = relationship(foreign_keys=[supervisor_id])
+    # Whole body and rings: a session under a permit or with alignment work may need several.
+    dosimeters: Mapped[list[Dosimeter]] = relationship(
+        secondary="session_dosimeter", order_by=Dosimeter.serial)
 
     __table_args__ = (
         sa.CheckConstraint("kv > 0", name="kv_positive"),
@@ -63,3 +66,13 @@ class InstrumentSession(IdMixin, Base):
     def is_open(self) -> bool:
         """An open session has not been ended yet."""
         return self.ended_at is None
+
+
+class SessionDosimeter(Base):
+    """One dosimeter worn during one session."""
+
+    __tablename__ = "session_dosimeter"
+
+    session_id: Mapped[int] = mapped_column(sa.ForeignKey("instrument_session.id"), primary_key=True)
+    dosimeter_id: Mapped[int] = mapped_column(sa.ForeignKey("dosimeter.id"), primary_key=True,
+                                              index=True)

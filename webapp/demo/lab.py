@@ -554,6 +554,9 @@ def _day_of_sessions(lab: _Lab, d: DemoInstrument, instrument: Instrument,
             int(lab.rng.integers(0, len(d.alignment_settings if alignment else d.settings)))]
         badge = lab.badges.get((person.login, DosimeterKind.WHOLE_BODY.value))
         worn = badge is not None and lab.rng.random() < 0.95
+        # Rings go on for alignment work, where the hands come near the beam.
+        rings = [lab.badges[(person.login, hand.value)] for hand in (Hand.LEFT, Hand.RIGHT)
+                 if alignment and (person.login, hand.value) in lab.badges]
         start = lab.at(day, minute // 60, minute % 60)
         end = start + timedelta(minutes=length)
         changed = alignment and lab.rng.random() < 0.5
@@ -567,7 +570,7 @@ def _day_of_sessions(lab: _Lab, d: DemoInstrument, instrument: Instrument,
             configuration_change="Collimator changed from 0.5 mm to 0.3 mm pinhole"
             if changed else None,
             alignment=alignment, pre_use_checks_confirmed=True, dosimeter_worn=worn,
-            dosimeter_id=badge.id if worn else None, created_at=end))
+            dosimeters=[badge, *rings] if worn else [], created_at=end))
         lab.summary.sessions += 1
         minute += length + int(lab.rng.integers(15, 60))
 

@@ -10,6 +10,7 @@ from flask_login import current_user, login_required
 from models.core.base import utcnow
 from models.core.errors import Invalid
 from models.doses.tables import Dosimeter, DosimeterKind
+from models.due.start_ops import start_notices, start_session, validate_starting
 from models.instruments.authorisation_ops import supervisors_on
 from models.instruments.instrument_ops import active_instruments, current_authorisations
 from models.instruments.tables import Authorisation, AuthorisationLevel, Instrument
@@ -22,11 +23,10 @@ from models.sessions.session_ops import (
     instrument_usage,
     log_finished_session,
     needs_supervisor,
-    open_session,
     open_sessions_of,
+    unavailable_reason,
     usage,
     validate_finished,
-    validate_opening,
 )
 from models.sessions.tables import InstrumentSession
 from webapp.access import roles_required
@@ -42,17 +42,23 @@ OPERATING = {Role.OPERATOR, Role.SAFETY_OFFICER}
 navigation.add("Sessions", "sessions.index", order=20)
 
 
+@bp.app_template_filter("dosimeter")
+def dosimeter_label(dosimeter: Dosimeter) -> str:
+    """A dosimeter as a person picks it: serial, kind and, for a ring, the hand."""
+    kind = dosimeter.kind.value.replace("_", " ")
+    hand = f", {dosimeter.hand.value.replace('_', ' ')} hand" if dosimeter.hand else ""
+    return f"{dosimeter.serial} ({kind}{hand})"
+
+
 def _offer_dosimeters(form, person: Person) -> None:
-    """Offer the person's dosimeters still issued; on a new form, choose their whole-body one."""
+    """Offer the person's dosimeters still issued; on a new form, tick their whole-body one."""
     rows = db.session.scalars(sa.select(Dosimeter).where(
         Dosimeter.wearer_id == person.id, Dosimeter.returned_on.is_(None)).order_by(Dosimeter.serial)).all()
-    form.dosimeter_id.choices = [("", "—")] + [
-        (str(d.id), f"{d.serial} ({d.kind.value.replace('_', ' ')})") for d in rows]
+    form.dosimeter_ids.choices = [(str(d.id), dosimeter_label(d)) for d in rows]
     if not form.is_submitted():
-        form.dosimeter_id.data = next(
-            (str(d.id) for d in rows if d.kind == DosimeterKind.WHOLE_BODY), "")
+        form.dosimeter_ids.data = [str(d.id) for d in rows if d.kind == DosimeterKind.WHOLE_BODY]
         # "Worn" follows the preselection, so a blank form never records a dosimeter not worn.
-        form.dosimeter_worn.data = bool(form.dosimeter_id.data)
+        form.dosimeter_worn.data = bool(form.dosimeter_ids.data)
 
 
 def _offer_supervisors(form, people: list[Person], person: Person) -> None:
@@ -83,28 +89,35 @@ def _home(person: Person) -> dict:
     busy = {s.instrument_id for s in find_sessions(db.session, start=utcnow()) if s.is_open}
     return {"open": [(s, figures(s)) for s in open_rows],
             "authorisations": current_authorisations(db.session, person, lab_today()),
-            "busy": busy, "end_form": EndForm()}
+            "busy": busy, "end_form": EndForm(),
+            "unavailable": {i.id: unavailable_reason(db.session, i)
+                            for i in active_instruments(db.session)}}
 
 
 @bp.route("/sessions/start/<int:instrument_id>", methods=["GET", "POST"])
 @roles_required(*OPERATING)
 def start(instrument_id: int):
-    """Start a session now on one instrument: settings, checks, dosimeter."""
+    """Start a session now on one instrument: settings, checks, dosimeters."""
     instrument = db.session.get(Instrument, instrument_id) or abort(404)
+    unavailable = unavailable_reason(db.session, instrument)
+    if unavailable:
+        # No form for an instrument that takes no session: the reason and whom to ask instead.
+        return render_template("sessions/start_unavailable.html", instrument=instrument,
+                               reason=unavailable)
     form = StartForm()
     _offer_dosimeters(form, current_user)
     now = utcnow()
-    supervised = needs_supervisor(db.session, instrument, current_user, now)
     _offer_supervisors(form, supervisors_on(db.session, instrument, lab_today()), current_user)
-    if validate_with(form, lambda f: validate_opening(db.session, instrument, current_user,
-                                                   f.values(), now=now)):
-        open_session(db.session, instrument, current_user, form.values(), now=now)
+    if validate_with(form, lambda f: validate_starting(db.session, instrument, current_user,
+                                                    f.values(), now)):
+        start_session(db.session, instrument, current_user, form.values(), now=now)
         db.session.commit()
         flash(f"Session started on {instrument.name}.", "info")
         return redirect(url_for("home.index"))
     return render_template("sessions/start.html", form=form, instrument=instrument,
                            permit=active_bypass_permit(db.session, instrument, now),
-                           supervised=supervised)
+                           notices=start_notices(db.session, instrument, current_user, now),
+                           supervised=needs_supervisor(db.session, instrument, current_user, now))
 
 
 def _own_session(session_id: int) -> InstrumentSession:
@@ -150,7 +163,7 @@ def log():
         db.session.commit()
         flash(f"Session on {instrument.name} logged.", "info")
         return redirect(url_for("sessions.show", session_id=entry.id))
-    return render_template("sessions/log.html", form=form,
+    return render_template("sessions/log.html", form=form, notices=[], permit=None,
                            supervised=_holds_supervised(current_user))
 
 
@@ -159,9 +172,7 @@ def log():
 def show(session_id: int):
     """One session with its derived figures."""
     entry = db.session.get(InstrumentSession, session_id) or abort(404)
-    dosimeter = db.session.get(Dosimeter, entry.dosimeter_id) if entry.dosimeter_id else None
-    return render_template("sessions/show.html", entry=entry, figures=figures(entry),
-                           dosimeter=dosimeter)
+    return render_template("sessions/show.html", entry=entry, figures=figures(entry))
 
 
 def _day_start(text: str | None) -> datetime | None:
