@@ -24,7 +24,13 @@ from models.checks.checklist_ops import active_items, checklist_for
 from models.checks.tables import CheckItemResult, ItemResult, SafetyCheck, TemporaryControl
 from models.core.errors import Invalid
 from models.core.settings import lab_date
-from models.instruments.instrument_ops import current_authorisations, return_to_service, set_out_of_service
+from models.instruments.instrument_ops import (
+    CHECK_STEP,
+    current_authorisations,
+    note_commissioning_pass,
+    return_to_service,
+    set_out_of_service,
+)
 from models.instruments.tables import Instrument
 from models.people.tables import Person, Role
 from models.surveys.meter_ops import validate_meter_usable
@@ -109,6 +115,8 @@ def record_check(
                         notes=(notes or "").strip() or None)
     session.add(check)
     session.flush()
+    if check.passed:
+        note_commissioning_pass(session, instrument, CHECK_STEP, performed_at)
     latest = latest_check(session, instrument)
     if latest.passed:
         # The devices work again: any controls written for the old failure have done their job.

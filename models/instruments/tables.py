@@ -105,6 +105,11 @@ class Instrument(IdMixin, Base):
     # it itself, so that only the matching event (a passing check) may bring it back.
     out_of_service_cause: Mapped[str | None] = mapped_column(sa.String(32))
     retired_at: Mapped[datetime | None]
+    # A new instrument is not yet commissioned: it enters service once a checklist exists and a
+    # safety-device check and a survey have passed; the dates stay as its history.
+    commissioned_at: Mapped[datetime | None]
+    commissioning_check_at: Mapped[datetime | None]
+    commissioning_survey_at: Mapped[datetime | None]
     checklist_template_id: Mapped[int | None] = mapped_column(
         sa.ForeignKey("checklist_template.id")
     )
@@ -122,6 +127,11 @@ class Instrument(IdMixin, Base):
         sa.CheckConstraint("housing_action_level_usv_h > 0", name="housing_level_positive"),
         sa.CheckConstraint("length(trim(name)) > 0", name="name_not_blank"),
     )
+
+    @property
+    def commissioned(self) -> bool:
+        """Commissioned instruments may be in service; new ones wait for a check and a survey."""
+        return self.commissioned_at is not None
 
     @property
     def retired(self) -> bool:

@@ -22,7 +22,7 @@ from models.doses.tables import DoseRecord, DoseSource, Dosimeter, DosimeterKind
 from models.exposure.limit_set_ops import install_preset
 from models.exposure.tables import PregnancyDeclaration
 from models.incidents.tables import Incident, IncidentNote, IncidentType
-from models.instruments.instrument_ops import save_instrument, set_out_of_service
+from models.instruments.instrument_ops import mark_commissioned, save_instrument, set_out_of_service
 from models.instruments.tables import (
     Authorisation,
     AuthorisationLevel,
@@ -346,6 +346,8 @@ def _instruments(lab: _Lab) -> None:
         lab.session.flush()
         instrument = save_instrument(lab.session, d.values)
         instrument.checklist_template_id = template.id
+        # In use long before the demo's two years of records begin.
+        mark_commissioned(lab.session, instrument, lab.at(lab.today - timedelta(days=3 * 365), 9))
         lab.instruments[d.key] = instrument
     lab.session.flush()
     lab.summary.instruments = len(INSTRUMENTS)
