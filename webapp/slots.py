@@ -119,6 +119,20 @@ class NavLink:
     order: int
 
 
+@dataclass(frozen=True)
+class NavGroup:
+    """Several links behind one menu entry, so the navigation fits one row."""
+
+    label: str
+    links: list[NavLink]
+    order: int
+
+
+# Records the safety officer consults now and then, kept behind one entry (by endpoint).
+NAV_GROUPS = {"Records": ("surveys.surveys", "surveys.permits", "doses.index",
+                          "exposure.investigations", "audit.index")}
+
+
 @dataclass
 class Navigation:
     """The top navigation, assembled from what each area registers."""
@@ -133,6 +147,19 @@ class Navigation:
         """The links a person sees, in order."""
         return sorted((l for l in self.links if not l.roles or person.has_role(*l.roles)),
                       key=lambda l: l.order)
+
+    def menu_for(self, person: Person) -> list[NavLink | NavGroup]:
+        """The person's links, those of a group gathered behind it where it holds two or more."""
+        links = self.for_person(person)
+        entries: list[NavLink | NavGroup] = []
+        grouped: set[str] = set()
+        for label, endpoints in NAV_GROUPS.items():
+            members = [l for l in links if l.endpoint in endpoints]
+            if len(members) >= 2:
+                entries.append(NavGroup(label, members, min(l.order for l in members)))
+                grouped.update(l.endpoint for l in members)
+        entries += [l for l in links if l.endpoint not in grouped]
+        return sorted(entries, key=lambda e: e.order)
 
 
 navigation = Navigation()
