@@ -559,6 +559,10 @@ def _day_of_sessions(lab: _Lab, d: DemoInstrument, instrument: Instrument,
         # Rings go on for alignment work, where the hands come near the beam.
         rings = [lab.badges[(person.login, hand.value)] for hand in (Hand.LEFT, Hand.RIGHT)
                  if alignment and (person.login, hand.value) in lab.badges]
+        # A supervised operator's session names a colleague authorised on their own.
+        supervisor = next((lab.people[p.login] for p in here
+                           if p is not person and p.authorisations[d.key] == I), None
+                          ) if person.authorisations[d.key] == S else None
         start = lab.at(day, minute // 60, minute % 60)
         end = start + timedelta(minutes=length)
         changed = alignment and lab.rng.random() < 0.5
@@ -572,7 +576,8 @@ def _day_of_sessions(lab: _Lab, d: DemoInstrument, instrument: Instrument,
             configuration_change="Collimator changed from 0.5 mm to 0.3 mm pinhole"
             if changed else None,
             alignment=alignment, pre_use_checks_confirmed=True, dosimeter_worn=worn,
-            dosimeters=[badge, *rings] if worn else [], created_at=end))
+            dosimeters=[badge, *rings] if worn else [],
+            supervisor_id=supervisor.id if supervisor else None, created_at=end))
         lab.summary.sessions += 1
         minute += length + int(lab.rng.integers(15, 60))
 
