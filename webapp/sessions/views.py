@@ -67,7 +67,7 @@ def _offer_supervisors(form, people: list[Person], person: Person) -> None:
         (str(p.id), p.name) for p in people if p.id != person.id]
 
 
-def _independent_users(person: Person) -> list[Person]:
+def _independent_users() -> list[Person]:
     """Everyone holding a current independent authorisation on some instrument, by name."""
     return list(db.session.scalars(
         sa.select(Person).join(Authorisation, Authorisation.person_id == Person.id)
@@ -153,7 +153,7 @@ def log():
     """Write up a session after it ended."""
     form = LogForm()
     _offer_dosimeters(form, current_user)
-    _offer_supervisors(form, _independent_users(current_user), current_user)
+    _offer_supervisors(form, _independent_users(), current_user)
     form.instrument.choices = [("", "—")] + [(str(i.id), i.name) for i in active_instruments(db.session)]
     instrument = db.session.get(Instrument, optional_id(form.instrument.data) or 0)
     now = utcnow()
