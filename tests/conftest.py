@@ -23,7 +23,7 @@ from models.core import base
 from models.core.codes import WorkerCategory
 from models.core.settings import LabSettings
 from models.exposure.cache import UntilChanged
-from models.instruments.instrument_ops import save_instrument
+from models.instruments.instrument_ops import mark_commissioned, save_instrument
 from models.instruments.tables import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind
 from models.people.person_ops import add_person
 from models.people.tables import Role
@@ -180,7 +180,10 @@ def make_person(app):
 
 @pytest.fixture
 def make_instrument(app):
-    """Factory: a committed instrument (a Cu powder diffractometer unless told otherwise)."""
+    """Factory: a committed instrument in service (a Cu powder diffractometer unless told otherwise).
+
+    `commissioned=False` leaves it as the admin's form does: not yet commissioned.
+    """
     counter = iter(range(1, 10_000))
 
     def make(**values):
@@ -190,7 +193,11 @@ def make_instrument(app):
                     "max_ma": 60.0, "max_power_w": 2200.0, "enclosure": Enclosure.ENCLOSED,
                     "check_interval_days": 30, "survey_interval_days": 365,
                     "surface_action_level_usv_h": 2.5, "housing_action_level_usv_h": 25.0}
+        commissioned = values.pop("commissioned", True)
         instrument = save_instrument(db.session, {**defaults, **values})
+        if commissioned:
+            # Most tests need an instrument in use; commissioning has tests of its own.
+            mark_commissioned(db.session, instrument, instrument.created_at)
         db.session.commit()
         return instrument
 

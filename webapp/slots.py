@@ -215,6 +215,19 @@ class NavLink:
     endpoint: str
 
 
+@dataclass(frozen=True)
+class NavGroup:
+    """Several links behind one menu entry, so the navigation fits one row."""
+
+    label: str
+    links: list[NavLink]
+
+
+# Records the safety officer consults now and then, kept behind one entry (by endpoint).
+NAV_GROUPS = {"Records": ("surveys.surveys", "surveys.permits", "doses.index",
+                          "exposure.investigations", "audit.index")}
+
+
 class Navigation(Registry):
     """The top navigation, assembled from what each area registers."""
 
@@ -225,6 +238,20 @@ class Navigation(Registry):
     def for_person(self, person: Person) -> list[NavLink]:
         """The links a person sees, in order."""
         return [entry.value for entry in self.for_viewer(person)]
+
+    def menu_for(self, person: Person) -> list[NavLink | NavGroup]:
+        """The person's links, those of a group gathered behind it where it holds two or more;
+        a group stands where its first link would."""
+        placed = [(entry.order, entry.value) for entry in self.for_viewer(person)]
+        entries: list[tuple[int, NavLink | NavGroup]] = []
+        grouped: set[str] = set()
+        for label, endpoints in NAV_GROUPS.items():
+            members = [(order, link) for order, link in placed if link.endpoint in endpoints]
+            if len(members) >= 2:
+                entries.append((members[0][0], NavGroup(label, [link for _, link in members])))
+                grouped.update(link.endpoint for _, link in members)
+        entries += [(order, link) for order, link in placed if link.endpoint not in grouped]
+        return [item for _, item in sorted(entries, key=lambda e: e[0])]
 
 
 # Top navigation.

@@ -24,7 +24,13 @@ from models.checks.checklist_ops import active_items, checklist_for
 from models.checks.tables import CheckItemResult, ItemResult, SafetyCheck, TemporaryControl
 from models.core.errors import Invalid
 from models.core.settings import lab_date
-from models.instruments.instrument_ops import current_authorisations, return_to_service, set_out_of_service
+from models.instruments.instrument_ops import (
+    CHECK_STEP,
+    current_authorisations,
+    note_commissioning_pass,
+    return_to_service,
+    set_out_of_service,
+)
 from models.instruments.tables import Instrument
 from models.people.tables import Person, Role
 from models.surveys.meter_ops import validate_meter_usable
@@ -109,6 +115,8 @@ def record_check(
                         notes=(notes or "").strip() or None)
     session.add(check)
     session.flush()
+    if check.passed:
+        note_commissioning_pass(session, instrument, CHECK_STEP, performed_at)
     latest = latest_check(session, instrument)
     if latest.passed:
         # The devices work again: any controls written for the old failure have done their job.
@@ -131,9 +139,15 @@ def failed_items(check: SafetyCheck) -> list[CheckItemResult]:
 
 
 def failure_reason(session: Session, check: SafetyCheck) -> str:
-    """The out-of-service reason naming the failed items."""
-    items = "; ".join(r.item_text for r in failed_items(check))
-    return f"Safety-device check of {lab_date(session, check.performed_at)} failed: {items}."
+    """The out-of-service reason naming the failed items as failed, each with its comment."""
+    # An item is written as the working state ("the light lights..."), so it is quoted and
+    # marked as not holding, never run into the sentence as if it were true.
+    failed = failed_items(check)
+    items = "; ".join(f"“{r.item_text.strip().rstrip('.')}” did not hold"
+                      + (f" ({r.comment.strip().rstrip('.')})" if r.comment else "") for r in failed)
+    count = f"{len(failed)} item{'s' if len(failed) != 1 else ''}"
+    return (f"Safety-device check of {lab_date(session, check.performed_at)} failed on "
+            f"{count}: {items}")
 
 
 def _hold(session: Session, instrument: Instrument, reason: str) -> None:

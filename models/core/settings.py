@@ -44,6 +44,10 @@ class LabSettings(IdMixin, Base):
     # A login ends after this long without a request, and this long after it began, whatever happens.
     idle_timeout_minutes: Mapped[int] = mapped_column(default=IDLE_TIMEOUT_DEFAULT)
     session_lifetime_hours: Mapped[int] = mapped_column(default=SESSION_LIFETIME_DEFAULT)
+    # How the logbook treats people and states at the instrument; each a choice the lab makes.
+    public_authorisation: Mapped[str] = mapped_column(sa.String(16), default="supervised")
+    late_check_policy: Mapped[str] = mapped_column(sa.String(16), default="warn")
+    investigation_policy: Mapped[str] = mapped_column(sa.String(16), default="tell")
 
     limit_set: Mapped[LimitSet | None] = relationship("LimitSet")
 
@@ -54,6 +58,11 @@ class LabSettings(IdMixin, Base):
                            name="idle_timeout_in_range"),
         sa.CheckConstraint(f"session_lifetime_hours BETWEEN {SESSION_LIFETIME_RANGE[0]} "
                            f"AND {SESSION_LIFETIME_RANGE[1]}", name="session_lifetime_in_range"),
+        sa.CheckConstraint("public_authorisation IN ('supervised', 'none')",
+                           name="public_authorisation_known"),
+        sa.CheckConstraint("late_check_policy IN ('warn', 'refuse')", name="late_check_policy_known"),
+        sa.CheckConstraint("investigation_policy IN ('tell', 'clearance')",
+                           name="investigation_policy_known"),
     )
 
 

@@ -1,7 +1,7 @@
 """Instruments, their checklist templates, authorisations and API tokens."""
 from __future__ import annotations
 
-from datetime import date
+from datetime import date, datetime
 
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
@@ -22,6 +22,13 @@ INSTRUMENT_FIELDS = (
     "enclosure", "check_interval_days", "survey_interval_days", "surface_action_level_usv_h",
     "housing_action_level_usv_h",
 )
+
+
+# The hold a new instrument starts under, lifted only by commissioning.
+NOT_COMMISSIONED = "commissioning"
+NOT_COMMISSIONED_REASON = ("Not yet commissioned: it enters service after a passing safety-device "
+                           "check and a passing radiation survey, with its checklist in place")
+CHECK_STEP, SURVEY_STEP = "check", "survey"
 
 
 def validate_instrument(session: Session, values: dict, current: Instrument | None = None) -> None:
@@ -52,11 +59,45 @@ def validate_instrument(session: Session, values: dict, current: Instrument | No
 def save_instrument(session: Session, values: dict, instrument: Instrument | None = None) -> Instrument:
     """Create an instrument or change its description; bad values are refused by field."""
     validate_instrument(session, values, instrument)
+    new = instrument is None
     instrument = instrument or Instrument()
     copy_fields(instrument, values, INSTRUMENT_FIELDS)
     session.add(instrument)
     session.flush()
+    if new:
+        set_out_of_service(session, instrument, NOT_COMMISSIONED_REASON, cause=NOT_COMMISSIONED)
     return instrument
+
+
+def mark_commissioned(session: Session, instrument: Instrument, when: datetime) -> Instrument:
+    """Record an instrument that was already in use before the logbook as commissioned then."""
+    instrument.commissioned_at = when
+    if not instrument.in_service and instrument.out_of_service_cause == NOT_COMMISSIONED:
+        _clear_hold(instrument)
+    session.flush()
+    return instrument
+
+
+def note_commissioning_pass(session: Session, instrument: Instrument, step: str,
+                            when: datetime) -> bool:
+    """Note a new instrument's passing check or survey; True when this puts it into service."""
+    if instrument.commissioned or instrument.retired:
+        return False
+    if step == CHECK_STEP:
+        instrument.commissioning_check_at = instrument.commissioning_check_at or when
+    elif step == SURVEY_STEP:
+        instrument.commissioning_survey_at = instrument.commissioning_survey_at or when
+    else:
+        raise ValueError(f"unknown commissioning step {step!r}")
+    ready = (instrument.commissioning_check_at is not None
+             and instrument.commissioning_survey_at is not None
+             and instrument.checklist_template_id is not None)
+    if not ready:
+        session.flush()
+        return False
+    mark_commissioned(session, instrument, max(instrument.commissioning_check_at,
+                                               instrument.commissioning_survey_at))
+    return instrument.in_service
 
 
 def retire_instrument(session: Session, instrument: Instrument) -> Instrument:
@@ -84,12 +125,21 @@ def return_to_service(session: Session, instrument: Instrument) -> Instrument:
     """Allow use again after the cause was dealt with."""
     if instrument.retired:
         raise Invalid.one("instrument", "A retired instrument cannot return to service.")
+    if not instrument.commissioned:
+        raise Invalid.one("instrument", f"{instrument.name} is not yet commissioned: it enters "
+                          "service by itself after a passing safety-device check and a passing "
+                          "radiation survey.")
+    _clear_hold(instrument)
+    session.flush()
+    return instrument
+
+
+def _clear_hold(instrument: Instrument) -> None:
+    """Put the instrument in service and forget why it was out."""
     instrument.in_service = True
     instrument.out_of_service_reason = None
     instrument.out_of_service_since = None
     instrument.out_of_service_cause = None
-    session.flush()
-    return instrument
 
 
 def active_instruments(session: Session) -> list[Instrument]:

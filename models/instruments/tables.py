@@ -106,6 +106,11 @@ class Instrument(IdMixin, Base):
     # it itself, so that only the matching event (a passing check) may bring it back.
     out_of_service_cause: Mapped[str | None] = mapped_column(sa.String(32))
     retired_at: Mapped[datetime | None]
+    # A new instrument is not yet commissioned: it enters service once a checklist exists and a
+    # safety-device check and a survey have passed; the dates stay as its history.
+    commissioned_at: Mapped[datetime | None]
+    commissioning_check_at: Mapped[datetime | None]
+    commissioning_survey_at: Mapped[datetime | None]
     checklist_template_id: Mapped[int | None] = mapped_column(
         sa.ForeignKey("checklist_template.id")
     )
@@ -123,6 +128,11 @@ class Instrument(IdMixin, Base):
         sa.CheckConstraint("housing_action_level_usv_h > 0", name="housing_level_positive"),
         sa.CheckConstraint("length(trim(name)) > 0", name="name_not_blank"),
     )
+
+    @property
+    def commissioned(self) -> bool:
+        """Commissioned instruments may be in service; new ones wait for a check and a survey."""
+        return self.commissioned_at is not None
 
     @property
     def retired(self) -> bool:
@@ -146,6 +156,9 @@ class Authorisation(IdMixin, Base):
     granted_by_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))
     granted_at: Mapped[datetime] = mapped_column(default=utcnow)
     revoked_at: Mapped[datetime | None]
+    # Set, with revoked_at, when a later authorisation of the same person on the same instrument
+    # renewed or changed this one: the row stays as history, the newer one is the current one.
+    replaced_by_id: Mapped[int | None] = mapped_column(sa.ForeignKey("authorisation.id"))
 
     person: Mapped[Person] = relationship(foreign_keys=[person_id])
     instrument: Mapped[Instrument] = relationship()
@@ -153,6 +166,10 @@ class Authorisation(IdMixin, Base):
 
     __table_args__ = (
         sa.CheckConstraint("refresher_due >= trained_on", name="refresher_after_training"),
+        # One current authorisation per person and instrument, even with two officers at once.
+        sa.Index("uq_authorisation_current", "person_id", "instrument_id", unique=True,
+                 sqlite_where=sa.text("revoked_at IS NULL"),
+                 postgresql_where=sa.text("revoked_at IS NULL")),
     )
 
 

@@ -18,8 +18,12 @@ from models.core.errors import Invalid
 from models.core.settings import LabSettings, lab_date
 from models.doses.tables import Dosimeter
 from models.instruments import tube
-from models.instruments.authorisation_ops import why_not_authorised
-from models.instruments.tables import Instrument
+from models.instruments.authorisation_ops import (
+    authorisation_on,
+    why_not_authorised,
+    why_not_supervisor,
+)
+from models.instruments.tables import AuthorisationLevel, Instrument
 from models.people.person_ops import whom_to_ask
 from models.people.tables import Person
 from models.sessions.tables import EntrySource, InstrumentSession
@@ -39,7 +43,10 @@ _TEXT_FIELDS = {"purpose": 300, "configuration_change": 5000, "notes": 5000}
 # Fields copied from the checked values onto the session row.
 _ROW_FIELDS = ("kv", "ma", "started_at", "ended_at", "beam_on_minutes", "purpose",
                "configuration_changed", "configuration_change", "alignment",
-               "pre_use_checks_confirmed", "dosimeter_worn", "dosimeter_id", "notes")
+               "pre_use_checks_confirmed", "dosimeter_worn", "notes")
+
+# More dosimeters than anyone wears at once (whole body, collar, two rings, eye) is an input error.
+MAX_DOSIMETERS = 6
 
 
 def minutes_between(start: datetime, end: datetime) -> float:
@@ -141,39 +148,74 @@ def _validate_times(session: Session, values: dict, now: datetime, errors: dict)
                                              f"session ({length:.0f} min).")
 
 
-def _validate_instrument(session: Session, instrument: Instrument, values: dict, errors: dict) -> None:
-    """The instrument takes new sessions: not retired and in service."""
+def unavailable_reason(session: Session, instrument: Instrument,
+                       end: datetime | None = None) -> str | None:
+    """Why the instrument takes no session (ending at `end`, if written up), or None if it does."""
     ask = whom_to_ask(session)
     if instrument.retired:
-        errors["instrument"] = (f"{instrument.name} is retired and takes no new sessions. "
-                                f"Ask {ask} which instrument to use instead.")
-        return
+        return (f"{instrument.name} is retired and takes no new sessions. "
+                f"Ask {ask} which instrument to use instead.")
     if instrument.in_service:
-        return
-    end = values.get("ended_at")
+        return None
     since = instrument.out_of_service_since
     # A session written up afterwards that ended before the instrument was stopped is a record
     # of what happened, not new use.
     if end is not None and since is not None and end <= since:
-        return
-    reason = instrument.out_of_service_reason or "no reason recorded"
-    errors["instrument"] = (f"{instrument.name} is out of service: {reason}. "
-                            f"Ask {ask} before any use.")
+        return None
+    reason = (instrument.out_of_service_reason or "no reason recorded").rstrip(" .")
+    return f"{instrument.name} is out of service: {reason}. Ask {ask} before any use."
 
 
-def _validate_dosimeter(session: Session, operator: Person, values: dict, errors: dict) -> None:
-    """A chosen dosimeter must be the operator's own and issued at the session's date."""
-    dosimeter_id = values.get("dosimeter_id")
-    if not values.get("dosimeter_worn") or dosimeter_id is None:
+def _validate_instrument(session: Session, instrument: Instrument, values: dict, errors: dict) -> None:
+    """The instrument takes new sessions: not retired and in service."""
+    refusal = unavailable_reason(session, instrument, values.get("ended_at"))
+    if refusal:
+        errors["instrument"] = refusal
+
+
+def dosimeter_ids(values: dict) -> list[int]:
+    """The chosen dosimeters' ids, each once, in the order given."""
+    return list(dict.fromkeys(values.get("dosimeter_ids") or []))
+
+
+def _validate_dosimeters(session: Session, operator: Person, values: dict, errors: dict) -> None:
+    """Each chosen dosimeter must be the operator's own and issued on the session's date."""
+    chosen = dosimeter_ids(values)
+    if not values.get("dosimeter_worn") or not chosen:
         return
-    dosimeter = session.get(Dosimeter, dosimeter_id)
+    if len(chosen) > MAX_DOSIMETERS:
+        errors["dosimeter_ids"] = f"Choose at most {MAX_DOSIMETERS} dosimeters."
+        return
     start = values.get("started_at")
     on = lab_date(session, start) if start else None
-    if dosimeter is None or dosimeter.wearer_id != operator.id:
-        errors["dosimeter_id"] = "Choose one of your own dosimeters."
-    elif on is not None and not (dosimeter.issued_on <= on and
-                                 (dosimeter.returned_on is None or dosimeter.returned_on >= on)):
-        errors["dosimeter_id"] = f"Dosimeter {dosimeter.serial} was not issued to you on {on}."
+    for dosimeter_id in chosen:
+        dosimeter = session.get(Dosimeter, dosimeter_id)
+        if dosimeter is None or dosimeter.wearer_id != operator.id:
+            errors["dosimeter_ids"] = "Choose only your own dosimeters."
+            return
+        if on is not None and not (dosimeter.issued_on <= on and
+                                   (dosimeter.returned_on is None or dosimeter.returned_on >= on)):
+            errors["dosimeter_ids"] = f"Dosimeter {dosimeter.serial} was not issued to you on {on}."
+            return
+
+
+def needs_supervisor(session: Session, instrument: Instrument, operator: Person, start: datetime) -> bool:
+    """True when the operator holds only a supervised authorisation on the instrument then."""
+    held = authorisation_on(session, operator, instrument, lab_date(session, start))
+    return held is not None and held.level == AuthorisationLevel.SUPERVISED
+
+
+def _validate_supervisor(session: Session, instrument: Instrument, operator: Person, values: dict,
+                         errors: dict) -> None:
+    """A supervised operator's session names an independently authorised supervisor."""
+    start = values["started_at"]
+    if not needs_supervisor(session, instrument, operator, start):
+        return
+    supervisor_id = values.get("supervisor_id")
+    supervisor = session.get(Person, supervisor_id) if supervisor_id is not None else None
+    refusal = why_not_supervisor(session, supervisor, operator, instrument, lab_date(session, start))
+    if refusal:
+        errors["supervisor_id"] = refusal
 
 
 def needs_caution(session: Session, instrument: Instrument, values: dict) -> BypassPermit | bool:
@@ -202,6 +244,8 @@ def validate_session(
         refusal = why_not_authorised(session, operator, instrument, lab_date(session, start))
         if refusal:
             errors["instrument"] = refusal
+        else:
+            _validate_supervisor(session, instrument, operator, values, errors)
     if start is not None and "started_at" not in errors and "ended_at" not in errors:
         clash = _overlapping(session, instrument, start, end, exclude_id)
         if clash is not None:
@@ -211,7 +255,7 @@ def validate_session(
             "Confirm that you saw the warning light and the shutter indicators working.")
     if values.get("configuration_changed") and not (values.get("configuration_change") or "").strip():
         errors["configuration_change"] = "Describe the configuration change."
-    _validate_dosimeter(session, operator, values, errors)
+    _validate_dosimeters(session, operator, values, errors)
     if needs_caution(session, instrument, values) and not values.get("caution_acknowledged"):
         errors["caution_acknowledged"] = (
             "Confirm that you have read the caution about the primary beam and ring dosimetry.")
@@ -235,8 +279,10 @@ def _new_row(
     row.alignment = bool(values.get("alignment"))
     row.pre_use_checks_confirmed = bool(values.get("pre_use_checks_confirmed"))
     row.dosimeter_worn = bool(values.get("dosimeter_worn"))
-    if not row.dosimeter_worn:
-        row.dosimeter_id = None
+    if row.dosimeter_worn:
+        row.dosimeters = [session.get(Dosimeter, i) for i in dosimeter_ids(values)]
+    row.supervisor_id = (values.get("supervisor_id")
+                         if needs_supervisor(session, instrument, operator, row.started_at) else None)
     permit = active_bypass_permit(session, instrument, values["started_at"])
     row.bypass_permit_id = permit.id if permit else None
     _insert_unless_overlapping(session, instrument, row)

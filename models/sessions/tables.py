@@ -8,6 +8,7 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from models.core.base import Base, IdMixin, enum_column, utcnow
+from models.doses.tables import Dosimeter
 from models.instruments.tables import Instrument
 from models.people.tables import Person
 
@@ -38,14 +39,19 @@ class InstrumentSession(IdMixin, Base):
     alignment: Mapped[bool] = mapped_column(default=False)
     pre_use_checks_confirmed: Mapped[bool] = mapped_column(default=False)
     dosimeter_worn: Mapped[bool] = mapped_column(default=False)
-    dosimeter_id: Mapped[int | None] = mapped_column(sa.ForeignKey("dosimeter.id"))
     bypass_permit_id: Mapped[int | None] = mapped_column(sa.ForeignKey("bypass_permit.id"))
+    # Who supervised the session, when the operator holds only a supervised authorisation.
+    supervisor_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))
     notes: Mapped[str | None] = mapped_column(sa.Text)
     source: Mapped[EntrySource] = mapped_column(enum_column(EntrySource), default=EntrySource.FORM)
     created_at: Mapped[datetime] = mapped_column(default=utcnow)
 
     instrument: Mapped[Instrument] = relationship()
-    operator: Mapped[Person] = relationship()
+    operator: Mapped[Person] = relationship(foreign_keys=[operator_id])
+    supervisor: Mapped[Person | None] = relationship(foreign_keys=[supervisor_id])
+    # Whole body and rings: a session under a permit or with alignment work may need several.
+    dosimeters: Mapped[list[Dosimeter]] = relationship(
+        secondary="session_dosimeter", order_by=Dosimeter.serial)
 
     # Sessions of one instrument never overlap: on PostgreSQL an exclusion constraint
     # (ex_instrument_session_no_overlap, migration 0015; Alembic's comparison does not see it) and
@@ -66,3 +72,13 @@ class InstrumentSession(IdMixin, Base):
     def is_open(self) -> bool:
         """An open session has not been ended yet."""
         return self.ended_at is None
+
+
+class SessionDosimeter(Base):
+    """One dosimeter worn during one session."""
+
+    __tablename__ = "session_dosimeter"
+
+    session_id: Mapped[int] = mapped_column(sa.ForeignKey("instrument_session.id"), primary_key=True)
+    dosimeter_id: Mapped[int] = mapped_column(sa.ForeignKey("dosimeter.id"), primary_key=True,
+                                              index=True)

@@ -87,9 +87,9 @@ def active_meters(session: Session) -> list[SurveyMeter]:
 
 @dataclass(frozen=True)
 class Calibration:
-    """A meter's calibration as of a day: when it runs out and whether it may be used."""
+    """A meter's calibration as of a day: its last valid day and whether it may be used."""
 
-    due: date
+    last_valid: date
     state: str
     valid: bool
 
@@ -99,7 +99,7 @@ def calibration_on(meter: SurveyMeter, on_date: date, soon_days: int) -> Calibra
     due = calibration_due(meter.calibrated_on, meter.calibration_interval_months)
     # Usable through the day before the anniversary, so that day is the one to count down to.
     last_day = due - timedelta(days=1)
-    return Calibration(due=due, state=due_state(last_day, on_date, soon_days),
+    return Calibration(last_valid=last_day, state=due_state(last_day, on_date, soon_days),
                        valid=calibration_valid_on(meter.calibrated_on,
                                                   meter.calibration_interval_months, on_date))
 
@@ -115,7 +115,9 @@ def validate_meter_usable(meter: SurveyMeter | None, on_date: date) -> None:
             f"Meter {meter.serial}'s calibration on record is dated {meter.calibrated_on}, after "
             f"the readings' date {on_date}; its earlier calibration cannot be checked here."))
     if not calibration_valid_on(meter.calibrated_on, meter.calibration_interval_months, on_date):
-        due = calibration_due(meter.calibrated_on, meter.calibration_interval_months)
+        last_valid = (calibration_due(meter.calibrated_on, meter.calibration_interval_months)
+                      - timedelta(days=1))
         raise Invalid.one("meter_id", (
-            f"Meter {meter.serial} was out of calibration on {on_date}: its calibration ran out "
-            f"on {due}. Use a calibrated meter, or record the meter's new calibration first."))
+            f"Meter {meter.serial} was out of calibration on {on_date}: its calibration was valid "
+            f"until {last_valid} (last valid day). Use a calibrated meter, or record the meter's "
+            "new calibration first."))

@@ -10,7 +10,11 @@ from sqlalchemy.orm import Session
 from models.core.base import utcnow
 from models.core.errors import Invalid
 from models.core.units import RATE_UNITS, unit_source, usv_h_per_unit
-from models.instruments.instrument_ops import set_out_of_service
+from models.instruments.instrument_ops import (
+    SURVEY_STEP,
+    note_commissioning_pass,
+    set_out_of_service,
+)
 from models.instruments.tables import Instrument
 from models.people.tables import Person
 from models.surveys.meter_ops import validate_meter_usable
@@ -163,6 +167,7 @@ def record_survey(session: Session, values: SurveyInput, now: datetime | None = 
     if survey.passed:
         for task in open_survey_tasks(session, instrument):
             task.survey_id, task.done_at = survey.id, now
+        note_commissioning_pass(session, instrument, SURVEY_STEP, values.performed_at)
     else:
         set_out_of_service(session, instrument, failure_text(survey, values.survey_date))
         if not open_survey_tasks(session, instrument):

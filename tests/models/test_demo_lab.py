@@ -159,3 +159,26 @@ def test_the_dose_engine_puts_only_the_high_person_at_a_level(session):
     quarter = ([p.login for p in people].index(HIGH_DOSE_PERSON), code(Series.EFFECTIVE),
                code(PeriodKind.QUARTER))
     assert evaluation.level[quarter] == code(Level.LEVEL_1)
+
+
+def test_supervised_sessions_name_a_supervisor_and_dosimeters_are_only_recorded_worn(session):
+    from models.instruments.authorisation_ops import authorisation_on
+    from models.instruments.tables import AuthorisationLevel
+
+    load(session)
+    supervised = found = 0
+    for entry in session.scalars(sa.select(InstrumentSession)):
+        day = entry.started_at.date()
+        held = authorisation_on(session, entry.operator, entry.instrument, day)
+        if held is not None and held.level == AuthorisationLevel.SUPERVISED:
+            supervised += 1
+            if entry.supervisor_id is not None:
+                found += 1
+                boss = authorisation_on(session, entry.supervisor, entry.instrument, day)
+                assert boss is not None and boss.level == AuthorisationLevel.INDEPENDENT
+        else:
+            assert entry.supervisor_id is None
+        kinds = sorted(d.kind.value for d in entry.dosimeters)
+        assert kinds.count("whole_body") <= 1 and (not kinds or entry.dosimeter_worn)
+    # The demo has a supervised trainee and a supervised visitor at work.
+    assert supervised > 0 and found == supervised

@@ -18,20 +18,23 @@ def test_default_calibration_interval_has_its_source():
 
 
 @pytest.mark.parametrize(
-    ("calibrated_on", "on", "due", "state", "valid"),
+    ("calibrated_on", "on", "last_valid", "state", "valid"),
     [
-        ("2025-03-10", "2025-06-01", "2026-03-10", OK, True),
-        ("2025-03-10", "2026-03-02", "2026-03-10", DUE_SOON, True),  # last usable day within 7
-        ("2025-03-10", "2026-03-09", "2026-03-10", DUE_SOON, True),  # the last usable day
-        ("2025-03-10", "2026-03-10", "2026-03-10", OVERDUE, False),  # the anniversary: ran out
-        ("2024-02-29", "2025-02-27", "2025-02-28", DUE_SOON, True),  # leap day clamps to Feb 28
-        ("2024-02-29", "2025-02-28", "2025-02-28", OVERDUE, False),
+        # 12 months from 2025-03-10 end at the anniversary 2026-03-10; the day before is the last
+        # valid day (common practice: "valid for 12 months").
+        ("2025-03-10", "2025-06-01", "2026-03-09", OK, True),
+        ("2025-03-10", "2026-03-02", "2026-03-09", DUE_SOON, True),  # last usable day within 7
+        ("2025-03-10", "2026-03-09", "2026-03-09", DUE_SOON, True),  # the last usable day
+        ("2025-03-10", "2026-03-10", "2026-03-09", OVERDUE, False),  # the anniversary: ran out
+        ("2024-02-29", "2025-02-27", "2025-02-27", DUE_SOON, True),  # leap day clamps to Feb 28
+        ("2024-02-29", "2025-02-28", "2025-02-27", OVERDUE, False),
     ],
 )
-def test_calibration_on(calibrated_on, on, due, state, valid):
+def test_calibration_on(calibrated_on, on, last_valid, state, valid):
     meter = SurveyMeter(serial="X", calibrated_on=D(calibrated_on), calibration_interval_months=12)
     calibration = calibration_on(meter, D(on), soon_days=7)
-    assert (calibration.due, calibration.state, calibration.valid) == (D(due), state, valid)
+    assert (calibration.last_valid, calibration.state, calibration.valid) == (
+        D(last_valid), state, valid)
 
 
 def test_meter_calibrated_after_the_survey_date_is_refused():

@@ -1,10 +1,9 @@
 """Surveys: net readings, action levels with their sources, pass and fail, survey tasks."""
-from datetime import timedelta
+from datetime import date, timedelta
 
 import pytest
 import sqlalchemy as sa
 
-from models.core.due_dates import calibration_due
 from models.core.errors import Invalid
 from models.instruments.tables import (
     ENCLOSED_SURFACE_ACTION_LEVEL_USV_H,
@@ -23,7 +22,7 @@ from models.surveys.survey_ops import (
     unit_conversions,
 )
 from models.surveys.tables import PointLevel, Survey, SurveyPoint, SurveyTask, SurveyTrigger
-from tests.conftest import LAB_NOW, LAB_TODAY
+from tests.conftest import LAB_NOW
 
 NOW = LAB_NOW
 
@@ -124,12 +123,14 @@ def test_mr_per_hour_readings_are_converted_before_comparing(
 def test_a_meter_out_of_calibration_is_refused_and_nothing_is_written(
         session, make_instrument, make_person, make_meter):
     instrument, rso = make_instrument(), make_person(roles=(Role.SAFETY_OFFICER,))
-    meter = make_meter(calibrated_on=LAB_TODAY - timedelta(days=400))
+    meter = make_meter(calibrated_on=date(2024, 3, 10))
     with pytest.raises(Invalid) as caught:
         record_survey(session, _survey(instrument, rso, meter, [PointInput("Door", 0.5)]))
     message = caught.value.errors["meter_id"]
     assert "out of calibration" in message
-    assert str(calibration_due(meter.calibrated_on, 12)) in message  # names the due date
+    # Calibrated 2024-03-10 for 12 months: the anniversary 2025-03-10 is the first day out, so
+    # 2025-03-09 is the last valid day (common practice: "valid for 12 months").
+    assert "valid until 2025-03-09 (last valid day)" in message
     assert session.scalar(sa.select(sa.func.count()).select_from(Survey)) == 0
 
 

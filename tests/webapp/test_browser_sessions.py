@@ -6,7 +6,7 @@ from datetime import timedelta
 
 import pytest
 
-from models.instruments.instrument_ops import save_instrument
+from models.instruments.instrument_ops import mark_commissioned, save_instrument
 from models.instruments.tables import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind
 from models.people.person_ops import add_person
 from models.people.tables import Role
@@ -33,6 +33,7 @@ def served(live_server):
             "max_power_w": 2200.0, "enclosure": Enclosure.ENCLOSED, "check_interval_days": 30,
             "survey_interval_days": 365, "surface_action_level_usv_h": 2.5,
             "housing_action_level_usv_h": 25.0})
+        mark_commissioned(db.session, instrument, instrument.created_at)
         db.session.add(Authorisation(person_id=operator.id, instrument_id=instrument.id,
                                      level=AuthorisationLevel.INDEPENDENT,
                                      trained_on=LAB_TODAY - timedelta(days=30),

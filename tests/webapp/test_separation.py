@@ -85,10 +85,12 @@ def test_a_session_page_shows_the_dosimeter_serial_only_to_its_wearer_and_the_of
         session, make_person, make_instrument, make_session_entry, make_dosimeter, login):
     operator, colleague = make_person("op"), make_person("colleague")
     officer = make_person("rso", roles=(Role.SAFETY_OFFICER,))
+    dosimeter = make_dosimeter(operator, serial="SER-777")
     entry = make_session_entry(make_instrument(), operator,
                                started_at=datetime(2026, 3, 2, 9, tzinfo=UTC),
                                ended_at=datetime(2026, 3, 2, 10, tzinfo=UTC))
-    entry.dosimeter_worn, entry.dosimeter_id = True, make_dosimeter(operator, serial="SER-777").id
+    entry.dosimeter_worn = True
+    entry.dosimeters.append(dosimeter)
     session.commit()
     assert "SER-777" not in login(colleague).get(f"/sessions/{entry.id}").text
     assert "SER-777" in login(operator).get(f"/sessions/{entry.id}").text

@@ -143,4 +143,7 @@ def test_the_start_form_chooses_my_whole_body_dosimeter(make_person, make_instru
     make_dosimeter(operator, serial="R-1", kind=DosimeterKind.RING, hand=Hand.LEFT)
     body = make_dosimeter(operator, serial="W-1")
     page = _text(login(operator).get(f"/sessions/start/{instrument.id}"))
-    assert f'<option selected value="{body.id}">W-1 (whole body)</option>' in page
+    assert f'<input checked id="dosimeter_ids-1" name="dosimeter_ids" type="checkbox" value="{body.id}">' in page
+    assert "W-1 (whole body)" in page and "R-1 (ring, left hand)" in page
+    # "I am wearing" follows the preselected dosimeter.
+    assert '<input checked id="dosimeter_worn" name="dosimeter_worn" type="checkbox" value="y">' in page

@@ -55,7 +55,8 @@ def test_a_static_file_runs_no_database_query(app, make_person, login):
 
     sa.event.listen(db.engine, "before_cursor_execute", count)
     try:
-        assert client.get("/static/logbook.css").status_code == 200
+        with client.get("/static/logbook.css") as response:  # closes the file it streams
+            assert response.status_code == 200
         assert statements == []
         # The same listener sees the hooks' queries on a page, so the empty list above means something.
         client.get("/safety")

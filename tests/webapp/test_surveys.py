@@ -85,7 +85,9 @@ def test_survey_with_a_meter_out_of_calibration_is_refused(
     response = client.post("/surveys/new", data=_survey_form(instrument, meter, [("Door", "0.5", "surface")]))
     assert response.status_code == 200
     [message] = _errors(response)
-    assert "out of calibration" in message and "2021-01-15" in message  # names the due date
+    # Calibrated 2020-01-15 for 12 months: out from the anniversary 2021-01-15, so the message
+    # names 2021-01-14 as the last valid day.
+    assert "out of calibration" in message and "valid until 2021-01-14 (last valid day)" in message
     assert _count(session, Survey) == 0 and _count(session, AuditEvent) == events
 
 

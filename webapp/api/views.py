@@ -9,20 +9,21 @@ from flask import Response, abort, g, json, jsonify, request
 from werkzeug.exceptions import HTTPException
 
 from models.audit.audit_ops import set_actor
+from models.core.base import utcnow
 from models.core.errors import Invalid, errors_of
 from models.doses.tables import Dosimeter
+from models.due.start_ops import start_session, validate_starting
 from models.instruments import idempotency_ops
 from models.instruments.token_ops import instrument_for_token, token_hash
 from models.people.person_ops import find_person
 from models.people.tables import Person
 from models.sessions.session_ops import (
+    MAX_DOSIMETERS,
     close_session,
     figures,
     find_sessions,
     log_finished_session,
-    open_session,
     validate_finished,
-    validate_opening,
 )
 from models.sessions.tables import EntrySource, InstrumentSession
 from webapp.api import v1
@@ -125,15 +126,40 @@ def _values(body: dict, operator: Person | None) -> tuple[dict, dict]:
         except ValueError:
             errors[key] = f"'{key}' must be an ISO 8601 time with its offset, e.g. 2026-03-01T09:30:00Z."
             values[key] = None
-    serial = body.get("dosimeter")
-    values["dosimeter_id"] = None
-    if serial is not None and operator is not None:
-        dosimeter = db.session.scalar(sa.select(Dosimeter).where(Dosimeter.serial == str(serial)))
-        if dosimeter is None:
-            errors["dosimeter"] = f"No dosimeter with serial '{serial}'."
+    values["dosimeter_ids"] = []
+    serials, errors_key = _serials(body)
+    if serials is None:
+        errors[errors_key] = f"'{errors_key}' must be a serial, or a list of up to 6 serials."
+    elif operator is not None:
+        for serial in serials:
+            dosimeter = db.session.scalar(sa.select(Dosimeter).where(Dosimeter.serial == serial))
+            if dosimeter is None:
+                errors[errors_key] = f"No dosimeter with serial '{serial}'."
+                break
+            values["dosimeter_ids"].append(dosimeter.id)
+    values["supervisor_id"] = None
+    supervisor = body.get("supervisor")
+    if supervisor is not None:
+        person = find_person(db.session, supervisor.strip()) if isinstance(supervisor, str) else None
+        if person is None:
+            errors["supervisor"] = "'supervisor' must be the login of a person in the logbook."
         else:
-            values["dosimeter_id"] = dosimeter.id
+            values["supervisor_id"] = person.id
     return values, errors
+
+
+def _serials(body: dict) -> tuple[list[str] | None, str]:
+    """The dosimeter serials given as 'dosimeters' (a list) or 'dosimeter' (one), and the key used."""
+    if "dosimeters" in body:
+        given = body["dosimeters"]
+        ok = (isinstance(given, list) and len(given) <= MAX_DOSIMETERS
+              and all(isinstance(s, str) and 0 < len(s) <= 64 for s in given))
+        return (given if ok else None), "dosimeters"
+    given = body.get("dosimeter")
+    if given is None:
+        return [], "dosimeter"
+    ok = isinstance(given, str) and 0 < len(given) <= 64
+    return ([given] if ok else None), "dosimeter"
 
 
 def _operator(body: dict) -> Person | None:
@@ -142,15 +168,18 @@ def _operator(body: dict) -> Person | None:
     return find_person(db.session, login.strip()) if isinstance(login, str) else None
 
 
+def _api_names(errors: dict, dosimeter_key: str) -> dict:
+    """The form calls these fields by id; the API names dosimeters by serial, people by login."""
+    names = {"dosimeter_ids": dosimeter_key, "supervisor_id": "supervisor"}
+    return {names.get(key, key): message for key, message in errors.items()}
+
+
 def _validated(body: dict, validate) -> tuple[Person, dict]:
     """Read the body and run the session rules on it; every problem is reported together."""
     operator = _operator(body)
     values, errors = _values(body, operator)
-    errors = {**errors_of(lambda: validate(operator, values)), **errors}
+    errors = {**_api_names(errors_of(lambda: validate(operator, values)), _serials(body)[1]), **errors}
     if errors:
-        # The form calls this field dosimeter_id; the API names dosimeters by serial.
-        if "dosimeter_id" in errors:
-            errors["dosimeter"] = errors.pop("dosimeter_id")
         raise Invalid(errors)
     set_actor(db.session, operator.id)
     return operator, values
@@ -159,14 +188,18 @@ def _validated(body: dict, validate) -> tuple[Person, dict]:
 def as_json(entry: InstrumentSession) -> dict:
     """A session and its derived figures as the API shows them."""
     f = figures(entry)
-    dosimeter = db.session.get(Dosimeter, entry.dosimeter_id) if entry.dosimeter_id else None
+    # By serial, as the relationship loads them, also before the new row is read back.
+    serials = sorted(d.serial for d in entry.dosimeters)
     return {
         "id": entry.id, "instrument": entry.instrument.name, "operator": entry.operator.login,
+        "supervisor": entry.supervisor.login if entry.supervisor else None,
         "started_at": entry.started_at.isoformat(),
         "ended_at": entry.ended_at.isoformat() if entry.ended_at else None,
         "kv": entry.kv, "ma": entry.ma, "beam_on_minutes": entry.beam_on_minutes,
         "purpose": entry.purpose, "pre_use_checks_confirmed": entry.pre_use_checks_confirmed,
-        "dosimeter_worn": entry.dosimeter_worn, "dosimeter": dosimeter.serial if dosimeter else None,
+        "dosimeter_worn": entry.dosimeter_worn, "dosimeters": serials,
+        # The first serial alone, for instrument PCs written when a session had one dosimeter.
+        "dosimeter": serials[0] if serials else None,
         "alignment": entry.alignment, "configuration_changed": entry.configuration_changed,
         "configuration_change": entry.configuration_change, "notes": entry.notes,
         "bypass_permit_id": entry.bypass_permit_id, "source": entry.source.value,
@@ -212,8 +245,9 @@ def _answer(payload: dict, status: int):
 def open_():
     """Open a session on the token's instrument."""
     instrument, body = g.instrument, _body()
-    operator, values = _validated(body, lambda op, v: validate_opening(db.session, instrument, op, v))
-    entry = open_session(db.session, instrument, operator, values, source=EntrySource.API)
+    now = utcnow()
+    operator, values = _validated(body, lambda op, v: validate_starting(db.session, instrument, op, v, now))
+    entry = start_session(db.session, instrument, operator, values, source=EntrySource.API, now=now)
     return _answer(as_json(entry), 201)
 
 

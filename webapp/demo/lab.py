@@ -22,7 +22,7 @@ from models.doses.tables import DoseRecord, DoseSource, Dosimeter, DosimeterKind
 from models.exposure.limit_set_ops import install_preset
 from models.exposure.tables import PregnancyDeclaration
 from models.incidents.tables import Incident, IncidentNote, IncidentType
-from models.instruments.instrument_ops import save_instrument, set_out_of_service
+from models.instruments.instrument_ops import mark_commissioned, save_instrument, set_out_of_service
 from models.instruments.tables import (
     Authorisation,
     AuthorisationLevel,
@@ -346,6 +346,8 @@ def _instruments(lab: _Lab) -> None:
         lab.session.flush()
         instrument = save_instrument(lab.session, d.values)
         instrument.checklist_template_id = template.id
+        # In use long before the demo's two years of records begin.
+        mark_commissioned(lab.session, instrument, lab.at(lab.today - timedelta(days=3 * 365), 9))
         lab.instruments[d.key] = instrument
     lab.session.flush()
     lab.summary.instruments = len(INSTRUMENTS)
@@ -554,6 +556,13 @@ def _day_of_sessions(lab: _Lab, d: DemoInstrument, instrument: Instrument,
             int(lab.rng.integers(0, len(d.alignment_settings if alignment else d.settings)))]
         badge = lab.badges.get((person.login, DosimeterKind.WHOLE_BODY.value))
         worn = badge is not None and lab.rng.random() < 0.95
+        # Rings go on for alignment work, where the hands come near the beam.
+        rings = [lab.badges[(person.login, hand.value)] for hand in (Hand.LEFT, Hand.RIGHT)
+                 if alignment and (person.login, hand.value) in lab.badges]
+        # A supervised operator's session names a colleague authorised on their own.
+        supervisor = next((lab.people[p.login] for p in here
+                           if p is not person and p.authorisations[d.key] == I), None
+                          ) if person.authorisations[d.key] == S else None
         start = lab.at(day, minute // 60, minute % 60)
         end = start + timedelta(minutes=length)
         changed = alignment and lab.rng.random() < 0.5
@@ -567,7 +576,8 @@ def _day_of_sessions(lab: _Lab, d: DemoInstrument, instrument: Instrument,
             configuration_change="Collimator changed from 0.5 mm to 0.3 mm pinhole"
             if changed else None,
             alignment=alignment, pre_use_checks_confirmed=True, dosimeter_worn=worn,
-            dosimeter_id=badge.id if worn else None, created_at=end))
+            dosimeters=[badge, *rings] if worn else [],
+            supervisor_id=supervisor.id if supervisor else None, created_at=end))
         lab.summary.sessions += 1
         minute += length + int(lab.rng.integers(15, 60))
 

@@ -11,6 +11,7 @@ from models.checks.check_ops import lapse_expired_controls
 from models.core.base import utcnow
 from models.core.due_dates import OVERDUE
 from models.core.settings import lab_date, lab_settings
+from models.due.due_list_ops import CALIBRATION
 from models.due.reminder_ops import Reminder, anchor_key, anchor_sent, plan_reminders, record_anchor_sent, record_sent
 from webapp.due import bp
 from webapp.due.views import target_url
@@ -28,7 +29,9 @@ def compose(reminder: Reminder, lab_name: str, today) -> tuple[list[str], str, s
         state = (f"LATE by {item.days_late} day{'s' if item.days_late != 1 else ''}"
                  if item.state == OVERDUE else item.state_label)
         mark = " (new)" if item.key in new_keys else ""
-        lines.append(f"- {item.what}: {item.subject}, due {item.due} [{state}]{mark}\n"
+        # A meter's date is its last valid day, not a day by which to act.
+        when = "valid until" if item.kind == CALIBRATION else "due"
+        lines.append(f"- {item.what}: {item.subject}, {when} {item.due} [{state}]{mark}\n"
                      f"  {target_url(item, external=True)}")
     listing = "\n".join(lines)
     counts = f"{late} late, {soon} due soon or never done"

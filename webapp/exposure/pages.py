@@ -23,7 +23,7 @@ from webapp.access import can_see_dose_of, roles_required
 from webapp.exposure import bp, labels
 from webapp.exposure.chart import monthly_chart_svg
 from webapp.extensions import db
-from webapp.formatting import lab_today, settings
+from webapp.formatting import capfirst, lab_today, settings
 from webapp.slots import home_panels, navigation
 
 GAUGE_SERIES = (Series.EFFECTIVE, Series.SKIN, Series.LENS, Series.LEFT_HAND, Series.RIGHT_HAND)
@@ -78,6 +78,26 @@ def person_table(lab, person_id: int) -> list[dict]:
     return rows
 
 
+def compact_table(rows: list[dict]) -> dict:
+    """Series by period for the periods that have a rule in the set, in the engine's order."""
+    periods = list(dict.fromkeys(r["period"] for r in rows if r["clause"]))
+    series = list(dict.fromkeys(r["series"] for r in rows))
+    cells = {(r["series"], r["period"]): r for r in rows}
+    return {"periods": periods, "series": series, "cells": cells,
+            "hidden": len({r["period"] for r in rows}) - len(periods)}
+
+
+def chart_series(rows: list[dict]) -> list[Series]:
+    """The series the chart can show: each one the person's table has, the fetus aside."""
+    return [s for s in dict.fromkeys(Series(r["series"]) for r in rows) if s != Series.FETUS]
+
+
+def _chosen_series(rows: list[dict]) -> Series:
+    """The series asked for by `?series=`, whole body when absent or not one of the person's."""
+    wanted = request.args.get("series", "")
+    return next((s for s in chart_series(rows) if s.value == wanted), Series.EFFECTIVE)
+
+
 @bp.route("/exposure/me")
 @login_required
 def me():
@@ -105,6 +125,8 @@ def person(person_id: int):
     return render_template(
         "exposure/page_person.html", subject=subject, on=on, date_problem=date_problem,
         rows=rows, chains=chains, fetal=fetal, fetal_row=fetal_row, labels=labels,
+        compact=compact_table(rows), chart_choices=chart_series(rows),
+        chart_series=_chosen_series(rows),
         at_level=[r for r in rows if r["level"] != Level.BELOW_1],
         projected=[r for r in rows if r["clause"] and r["projected_level"] != r["level"]],
         lab=lab_settings, limit_set_name=lab.evaluation.limit_set.name,
@@ -114,17 +136,20 @@ def person(person_id: int):
 @bp.route("/exposure/person/<int:person_id>/chart.svg")
 @login_required
 def chart(person_id: int):
-    """Monthly Hp(10) whole-body dose over two years, the year's total and the annual limit."""
+    """One series' monthly dose over two years (whole body unless `?series=` names another),
+    the year's total and the annual limit."""
     _subject(person_id)
     on, _ = _evaluation_date()
     lab = cached_lab_evaluation(db.session, on)
-    annual = next((r for r in person_rows(lab.evaluation, lab.row_of(person_id))
-                   if r["series"] == Series.EFFECTIVE and r["period"] == PeriodKind.YEAR), None)
+    rows = person_rows(lab.evaluation, lab.row_of(person_id))
+    series = _chosen_series(rows)
+    annual = next((r for r in rows if r["series"] == series and r["period"] == PeriodKind.YEAR),
+                  None)
     records = engine_records([c[0] for c in record_versions(db.session, person_id)])
-    data = monthly_dose(records, on, policies_of(settings()))
+    data = monthly_dose(records, on, policies_of(settings()), series)
     unit, per_msv = _display()
     svg = monthly_chart_svg(data, annual and annual["limit_msv"], unit, per_msv,
-                            f"{labels.SERIES[Series.EFFECTIVE]}, month by month to {on}")
+                            f"{capfirst(labels.SERIES[series])}, month by month to {on}")
     response = Response(svg, mimetype="image/svg+xml")
     response.headers["Cache-Control"] = "private, no-store"
     return response

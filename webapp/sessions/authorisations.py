@@ -11,6 +11,7 @@ from models.instruments.authorisation_ops import (
     authorised_users,
     grant_authorisation,
     revoke_authorisation,
+    standing_authorisation,
     validate_authorisation,
 )
 from models.instruments.tables import Authorisation, AuthorisationLevel, Instrument
@@ -43,10 +44,13 @@ def authorisations(instrument_id: int):
     form.person_id.choices = [SelectChoice("", "—")] + [SelectChoice(str(p.id), f"{p.name} ({p.login})") for p in people]
     if validate_with(form, lambda f: validate_authorisation(db.session, instrument=instrument,
                                                          **_form_values(f))):
+        values = _form_values(form)
+        renewed = standing_authorisation(db.session, values["person"], instrument) is not None
         granted = grant_authorisation(db.session, instrument=instrument, granted_by=current_user,
-                                      **_form_values(form))
+                                      **values)
         db.session.commit()
-        flash(f"{granted.person.name} is authorised on {instrument.name} until "
+        verb = "'s authorisation is renewed" if renewed else " is authorised"
+        flash(f"{granted.person.name}{verb} on {instrument.name} ({granted.level.value}) until "
               f"{granted.refresher_due.isoformat()}.", "info")
         return redirect(url_for("sessions.authorisations", instrument_id=instrument.id))
     history = db.session.scalars(sa.select(Authorisation).where(

@@ -16,14 +16,17 @@ from wtforms.validators import InputRequired, Length, Optional
 
 from models.instruments.tables import AuthorisationLevel
 from webapp.formatting import from_local
+from webapp.forms import CheckboxesField
 
 NUMBER = "Enter a number."
 WHEN = "Enter a date and time."
 
 
 def optional_id(value: str | None) -> int | None:
-    """A select's value as an id, or None for the empty choice."""
-    return int(value) if value not in (None, "", "None") else None
+    """A select's value as an id, or None for the empty choice (or anything not an id)."""
+    text = str(value or "")
+    # Nine digits fit every database's integer column; anything else is no id at all.
+    return int(text) if text.isascii() and text.isdigit() and len(text) <= 9 else None
 
 
 class StartForm(FlaskForm):
@@ -34,8 +37,12 @@ class StartForm(FlaskForm):
     purpose = StringField("Purpose or sample", validators=[Length(max=300)])
     pre_use_checks_confirmed = BooleanField(
         "I saw the warning light and the shutter indicators working before starting")
-    dosimeter_worn = BooleanField("I am wearing my dosimeter")
-    dosimeter_id = SelectField("Which dosimeter", choices=[SelectChoice("", "—")], validate_choice=False)
+    dosimeter_worn = BooleanField("I am wearing the dosimeters ticked below")
+    dosimeter_ids = CheckboxesField("Which dosimeters", choices=[], validate_choice=False,
+                                    description="Whole body, and a ring on each hand near the "
+                                                "beam where the local rules ask for rings.")
+    supervisor_id = SelectField("Supervised by", choices=[SelectChoice("", "—")], validate_choice=False,
+                                description="Someone independently authorised on this instrument.")
     alignment = BooleanField("This is alignment work")
     configuration_changed = BooleanField("I changed the configuration")
     configuration_change = TextAreaField("What changed", validators=[Length(max=5000)],
@@ -49,7 +56,9 @@ class StartForm(FlaskForm):
             "kv": self.kv.data, "ma": self.ma.data, "purpose": self.purpose.data,
             "pre_use_checks_confirmed": self.pre_use_checks_confirmed.data,
             "dosimeter_worn": self.dosimeter_worn.data,
-            "dosimeter_id": optional_id(self.dosimeter_id.data),
+            "dosimeter_ids": [i for i in map(optional_id, (self.dosimeter_ids.data or [])[:50])
+                              if i is not None],
+            "supervisor_id": optional_id(self.supervisor_id.data),
             "alignment": self.alignment.data,
             "configuration_changed": self.configuration_changed.data,
             "configuration_change": self.configuration_change.data, "notes": self.notes.data,
@@ -69,7 +78,7 @@ class LogForm(StartForm):
                                  description="Leave empty if the beam was on the whole session.")
     pre_use_checks_confirmed = BooleanField(
         "I saw the warning light and the shutter indicators working before the session")
-    dosimeter_worn = BooleanField("I wore my dosimeter")
+    dosimeter_worn = BooleanField("I wore the dosimeters ticked below")
 
     def values(self) -> dict:
         """Adds the times, converted from the lab's time to UTC."""

@@ -10,8 +10,10 @@ from wtforms import SelectChoice
 
 from models.core.base import utcnow
 from models.doses.tables import Dosimeter, DosimeterKind
+from models.due.start_ops import start_notices, start_session
+from models.instruments.authorisation_ops import supervisors_on
 from models.instruments.instrument_ops import active_instruments, current_authorisations
-from models.instruments.tables import Instrument
+from models.instruments.tables import Authorisation, AuthorisationLevel, Instrument
 from models.people.tables import Person, Role
 from models.sessions.list_ops import SessionFilter, filtered_usage, session_page
 from models.sessions.session_ops import (
@@ -21,8 +23,9 @@ from models.sessions.session_ops import (
     find_sessions,
     instrument_usage,
     log_finished_session,
-    open_session,
+    needs_supervisor,
     open_sessions_of,
+    unavailable_reason,
 )
 from models.sessions.tables import InstrumentSession
 from webapp.access import can_see_dose_of, roles_required
@@ -38,15 +41,44 @@ OPERATING = {Role.OPERATOR, Role.SAFETY_OFFICER}
 navigation.add("Sessions", "sessions.index", order=20)
 
 
+@bp.app_template_filter("dosimeter")
+def dosimeter_label(dosimeter: Dosimeter) -> str:
+    """A dosimeter as a person picks it: serial, kind and, for a ring, the hand."""
+    kind = dosimeter.kind.value.replace("_", " ")
+    hand = f", {dosimeter.hand.value.replace('_', ' ')} hand" if dosimeter.hand else ""
+    return f"{dosimeter.serial} ({kind}{hand})"
+
+
 def _offer_dosimeters(form, person: Person) -> None:
-    """Offer the person's dosimeters still issued; on a new form, choose their whole-body one."""
+    """Offer the person's dosimeters still issued; on a new form, tick their whole-body one."""
     rows = db.session.scalars(sa.select(Dosimeter).where(
         Dosimeter.wearer_id == person.id, Dosimeter.returned_on.is_(None)).order_by(Dosimeter.serial)).all()
-    form.dosimeter_id.choices = [SelectChoice("", "—")] + [
-        SelectChoice(str(d.id), f"{d.serial} ({d.kind.value.replace('_', ' ')})") for d in rows]
+    form.dosimeter_ids.choices = [SelectChoice(str(d.id), dosimeter_label(d)) for d in rows]
     if not form.is_submitted():
-        form.dosimeter_id.data = next(
-            (str(d.id) for d in rows if d.kind == DosimeterKind.WHOLE_BODY), "")
+        form.dosimeter_ids.data = [str(d.id) for d in rows if d.kind == DosimeterKind.WHOLE_BODY]
+        # "Worn" follows the preselection, so a blank form never records a dosimeter not worn.
+        form.dosimeter_worn.data = bool(form.dosimeter_ids.data)
+
+
+def _offer_supervisors(form, people: list[Person], person: Person) -> None:
+    """Offer the given people, less the operator, as the session's supervisor."""
+    form.supervisor_id.choices = [("", "—")] + [
+        (str(p.id), p.name) for p in people if p.id != person.id]
+
+
+def _independent_users() -> list[Person]:
+    """Everyone holding a current independent authorisation on some instrument, by name."""
+    return list(db.session.scalars(
+        sa.select(Person).join(Authorisation, Authorisation.person_id == Person.id)
+        .where(Authorisation.revoked_at.is_(None), Authorisation.refresher_due >= lab_today(),
+               Authorisation.level == AuthorisationLevel.INDEPENDENT, Person.active.is_(True))
+        .distinct().order_by(Person.name)))
+
+
+def _holds_supervised(person: Person) -> bool:
+    """True when any of the person's current authorisations is supervised only."""
+    return any(a.level == AuthorisationLevel.SUPERVISED
+               for a in current_authorisations(db.session, person, lab_today()))
 
 
 @home_panels.add("sessions/_home.html", roles=OPERATING, order=10)
@@ -56,26 +88,35 @@ def _home(person: Person) -> dict:
     busy = {s.instrument_id for s in find_sessions(db.session, start=utcnow()) if s.is_open}
     return {"open": [(s, figures(s)) for s in open_rows],
             "authorisations": current_authorisations(db.session, person, lab_today()),
-            "busy": busy, "end_form": EndForm()}
+            "busy": busy, "end_form": EndForm(),
+            "unavailable": {i.id: unavailable_reason(db.session, i)
+                            for i in active_instruments(db.session)}}
 
 
 @bp.route("/sessions/start/<int:instrument_id>", methods=["GET", "POST"])
 @roles_required(*OPERATING)
 def start(instrument_id: int):
-    """Start a session now on one instrument: settings, checks, dosimeter."""
+    """Start a session now on one instrument: settings, checks, dosimeters."""
     instrument = db.session.get(Instrument, instrument_id) or abort(404)
+    unavailable = unavailable_reason(db.session, instrument)
+    if unavailable:
+        # No form for an instrument that takes no session: the reason and whom to ask instead.
+        return render_template("sessions/start_unavailable.html", instrument=instrument,
+                               reason=unavailable)
     form = StartForm()
     _offer_dosimeters(form, current_user)
-    if not form.is_submitted():
-        form.dosimeter_worn.data = True
     now = utcnow()
-    # The rules run under the write lock, so another PC cannot take the slot between check and write.
-    if validate_with(form, lambda f: open_session(db.session, instrument, current_user, f.values(), now=now)):
+    _offer_supervisors(form, supervisors_on(db.session, instrument, lab_today()), current_user)
+    # Every Start rule runs, then the session rules again under the write lock, so another PC
+    # cannot take the slot between check and write.
+    if validate_with(form, lambda f: start_session(db.session, instrument, current_user, f.values(), now=now)):
         db.session.commit()
         flash(f"Session started on {instrument.name}.", "info")
         return redirect(url_for("home.index"))
     return render_template("sessions/start.html", form=form, instrument=instrument,
-                           permit=active_bypass_permit(db.session, instrument, now))
+                           permit=active_bypass_permit(db.session, instrument, now),
+                           notices=start_notices(db.session, instrument, current_user, now),
+                           supervised=needs_supervisor(db.session, instrument, current_user, now))
 
 
 def _own_session(session_id: int) -> InstrumentSession:
@@ -105,7 +146,9 @@ def log():
     """Write up a session after it ended."""
     form = LogForm()
     _offer_dosimeters(form, current_user)
-    form.instrument.choices = [SelectChoice("", "—")] + [SelectChoice(str(i.id), i.name) for i in active_instruments(db.session)]
+    _offer_supervisors(form, _independent_users(), current_user)
+    form.instrument.choices = [SelectChoice("", "—")] + [SelectChoice(str(i.id), i.name)
+                                                         for i in active_instruments(db.session)]
     instrument = db.session.get(Instrument, optional_id(form.instrument.data) or 0)
     now = utcnow()
     logged = validate_with(form, lambda f: log_finished_session(db.session, instrument, current_user,
@@ -114,7 +157,8 @@ def log():
         db.session.commit()
         flash(f"Session on {instrument.name} logged.", "info")
         return redirect(url_for("sessions.show", session_id=logged.value.id))
-    return render_template("sessions/log.html", form=form)
+    return render_template("sessions/log.html", form=form, notices=[], permit=None,
+                           supervised=_holds_supervised(current_user))
 
 
 @bp.route("/sessions/<int:session_id>")
@@ -122,11 +166,9 @@ def log():
 def show(session_id: int):
     """One session with its derived figures."""
     entry = db.session.get(InstrumentSession, session_id) or abort(404)
-    # A dosimeter serial is dose data of its wearer: shown to them and the safety officer only.
-    shown = entry.dosimeter_id and can_see_dose_of(entry.operator_id)
-    dosimeter = db.session.get(Dosimeter, entry.dosimeter_id) if shown else None
+    # Dosimeter serials are dose data of their wearer: shown to them and the safety officer only.
     return render_template("sessions/show.html", entry=entry, figures=figures(entry),
-                           dosimeter=dosimeter)
+                           show_serials=can_see_dose_of(entry.operator_id))
 
 
 def _page_key(text: str | None) -> tuple[datetime, int] | None:

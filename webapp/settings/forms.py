@@ -38,3 +38,13 @@ class LabForm(FlaskForm):
         NumberRange(*SESSION_LIFETIME_RANGE, message="Between %(min)s and %(max)s hours.")],
         description=f"Between {SESSION_LIFETIME_RANGE[0]} and {SESSION_LIFETIME_RANGE[1]} hours; "
                     "default 168, a week.")
+    public_authorisation = SelectField(
+        "Members of the public", choices=[SelectChoice("supervised", "may be authorised as supervised only"),
+                                          SelectChoice("none", "may not be authorised on any instrument")])
+    late_check_policy = SelectField(
+        "Safety-device check overdue", choices=[SelectChoice("warn", "warn at Start"),
+                                                SelectChoice("refuse", "refuse sessions until a check passes")])
+    investigation_policy = SelectField(
+        "Open investigation at or above a level",
+        choices=[SelectChoice("tell", "tell the person at Start to see the safety officer"),
+                 SelectChoice("clearance", "refuse sessions until the safety officer signs it off")])

@@ -16,7 +16,7 @@ from webapp.settings.forms import LabForm
 from webapp.slots import settings_sections
 
 FIELDS = ("lab_name", "timezone", "display_unit", "due_soon_days", "safety_officer_email",
-          "idle_timeout_minutes", "session_lifetime_hours")
+          "idle_timeout_minutes", "session_lifetime_hours", "public_authorisation", "late_check_policy", "investigation_policy")
 
 
 @bp.route("/settings/", methods=["GET", "POST"])

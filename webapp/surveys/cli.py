@@ -18,7 +18,7 @@ from webapp.surveys import bp
 def status(as_json):
     """Meters out of calibration or due soon, active and unclosed bypass permits, surveys asked for."""
     today, soon = lab_today(), settings().due_soon_days
-    meters = [{"serial": m.serial, "calibration_due": c.due.isoformat(), "state": c.state,
+    meters = [{"serial": m.serial, "calibration_valid_until": c.last_valid.isoformat(), "state": c.state,
                "usable": c.valid}
               for m in active_meters(db.session) if (c := calibration_on(m, today, soon)).state != "ok"]
     permits = [{"id": p.id, "instrument": p.instrument.name, "devices": p.devices,
@@ -33,7 +33,7 @@ def status(as_json):
         return
     for m in meters:
         click.echo(f"meter {m['serial']}: calibration {m['state'].replace('_', ' ')} "
-                   f"(runs out {m['calibration_due']})")
+                   f"(valid until {m['calibration_valid_until']}, last valid day)")
     for p in permits:
         click.echo(f"bypass permit #{p['id']} {p['state'].replace('_', ' ')}: {p['instrument']} "
                    f"({p['devices']}), window ends {p['window_end']}")

@@ -67,9 +67,10 @@ def _meter_lines() -> list[Attention]:
     for meter in active_meters(db.session):
         calibration = calibration_on(meter, today, soon)
         if calibration.state in (OVERDUE, DUE_SOON):
-            word = "ran out" if not calibration.valid else "runs out"
+            word = "was" if not calibration.valid else "is"
             lines.append(Attention(Severity.METER_CALIBRATION,
-                                   f"Survey meter {meter.serial}: calibration {word} on {calibration.due}.",
+                                   f"Survey meter {meter.serial}: calibration {word} valid until "
+                                   f"{calibration.last_valid} (last valid day).",
                                    url_for("surveys.meter", meter_id=meter.id),
                                    "meter out of calibration" if not calibration.valid
                                    else "meter calibration soon"))
@@ -78,20 +79,22 @@ def _meter_lines() -> list[Attention]:
 
 @attention.add(order=31)
 def _permit_lines() -> list[Attention]:
-    """Permits past their window and not closed, permits in force, requests to decide."""
+    """Requests waiting for approval first, then permits not closed, then permits in force."""
     lines = [Attention(Severity.BYPASS,
+                       f"Waiting for your approval: {p.requested_by.name} asks to bypass "
+                       f"{p.devices} on {p.instrument.name} from {local(p.window_start)} to "
+                       f"{local(p.window_end)}.",
+                       url_for("surveys.permit", permit_id=p.id), "bypass waiting for approval")
+             for p in requested_permits(db.session)]
+    lines += [Attention(Severity.BYPASS,
                        f"Bypass on {p.instrument.name} ({p.devices}) ended {local(p.window_end)} "
                        "but the permit was not closed.",
                        url_for("surveys.permit", permit_id=p.id), "bypass not closed")
-             for p in expired_unclosed_permits(db.session)]
+              for p in expired_unclosed_permits(db.session)]
     lines += [Attention(Severity.BYPASS,
                         f"Bypass active on {p.instrument.name} ({p.devices}) until {local(p.window_end)}.",
                         url_for("surveys.permit", permit_id=p.id), "bypass active")
               for p in active_permits(db.session)]
-    lines += [Attention(Severity.BYPASS,
-                        f"{p.requested_by.name} asks to bypass {p.devices} on {p.instrument.name}.",
-                        url_for("surveys.permit", permit_id=p.id), "bypass to decide")
-              for p in requested_permits(db.session)]
     return lines
 
 

@@ -94,8 +94,9 @@ def _mr_factors() -> list[tuple[float, float]]:
 def _meter_label(meter: SurveyMeter, calibration) -> str:
     """A meter in the choice list, saying whether it may be used today."""
     if not calibration.valid:
-        return f"{meter.serial} {meter.model} (out of calibration since {calibration.due})"
-    return f"{meter.serial} {meter.model} (calibrated until the day before {calibration.due})"
+        return (f"{meter.serial} {meter.model} (out of calibration: last valid day "
+                f"{calibration.last_valid})")
+    return f"{meter.serial} {meter.model} (calibration valid until {calibration.last_valid})"
 
 
 def _values(form: SurveyForm) -> SurveyInput:
