@@ -3,9 +3,11 @@ from __future__ import annotations
 
 import os
 
-from flask import Flask, g, render_template
+from flask import Flask, g, has_request_context, render_template
 from flask_login import current_user
 from flask_wtf.csrf import CSRFError
+from sqlalchemy import event
+from sqlalchemy.orm import Session
 
 from models.audit.audit_ops import set_actor
 from models.people.tables import Person
@@ -28,6 +30,7 @@ BLUEPRINTS = (
     "webapp.doses",
     "webapp.exposure",
     "webapp.demo",
+    "webapp.mail",
 )
 
 
@@ -64,14 +67,21 @@ def _load_person(person_id: str) -> Person | None:
     return person if person is not None and person.active else None
 
 
+@event.listens_for(Session, "after_commit")
+def _note_commit(session: Session) -> None:
+    """Remember that this request saved something, so an error page never says it did not."""
+    if has_request_context() and session is db.session():
+        g.committed = True
+
+
 def _install_request_hooks(app: Flask) -> None:
     """Attribute every change in a request to the person making it."""
 
     @app.before_request
     def _actor() -> None:
+        g.committed = False
         set_actor(db.session, current_user.id if current_user.is_authenticated else None)
         g.actor = current_user
-
 
 def _install_error_pages(app: Flask) -> None:
     """Plain error pages that keep the caution and the navigation."""
@@ -100,5 +110,9 @@ def _install_error_pages(app: Flask) -> None:
     @app.errorhandler(500)
     def _server_error(_error):
         db.session.rollback()
-        return render_template("error.html", code=500, title="Something went wrong",
-                               message="Nothing was saved. The error has been logged."), 500
+        if g.get("committed"):
+            message = ("The error came after a change was saved. Look at the record before trying "
+                       "again, so it is not entered twice. The error has been logged.")
+        else:
+            message = "Nothing was saved. The error has been logged."
+        return render_template("error.html", code=500, title="Something went wrong", message=message), 500

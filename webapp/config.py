@@ -30,6 +30,7 @@ def from_environment(instance_path: str) -> dict:
         "MAIL_PASSWORD": os.environ.get("MAIL_PASSWORD", ""),
         "MAIL_USE_TLS": _flag("MAIL_USE_TLS"),
         "MAIL_FROM": os.environ.get("MAIL_FROM", "logbook@localhost"),
+        "MAIL_TIMEOUT": float(os.environ.get("MAIL_TIMEOUT", "10")),
         "BASE_URL": os.environ.get("BASE_URL", "http://127.0.0.1:5000"),
         "RATELIMIT_ENABLED": _flag("RATELIMIT_ENABLED", True),
         "RATELIMIT_STORAGE_URI": os.environ.get("RATELIMIT_STORAGE_URI", "memory://"),

@@ -1,10 +1,68 @@
 """Form pieces shared by several areas."""
 from __future__ import annotations
 
+import re
+from collections.abc import Iterable, Iterator
+from contextlib import contextmanager
+
 from flask_wtf import FlaskForm
-from wtforms import SelectMultipleField, widgets
+from wtforms import Field, FieldList, FormField, SelectMultipleField, TextAreaField, widgets
 
 from models.core.errors import Invalid
+
+# One-line text: no control character at all (line breaks would forge e-mail headers; the database
+# refuses NUL). Multi-line text keeps tabs and line breaks only.
+SINGLE_LINE_FORBIDDEN = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029]")
+MULTI_LINE_FORBIDDEN = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
+CONTROL_MESSAGE = "Remove the control characters (such as line breaks or tabs) from this field."
+MULTI_LINE_MESSAGE = "Remove the control characters (other than line breaks and tabs) from this text."
+
+
+def _leaf_fields(fields: Iterable[Field]) -> Iterator[Field]:
+    """Every field that holds a value, nested forms and lists included."""
+    for field in fields:
+        if isinstance(field, FieldList):
+            yield from _leaf_fields(field.entries)
+        elif isinstance(field, FormField):
+            yield from _leaf_fields(field.form)
+        else:
+            yield field
+
+
+@contextmanager
+def _refused_values_hidden(form: FlaskForm) -> Iterator[None]:
+    """Inside the block, every field the form refused reads as empty; its value comes back after."""
+    refused = [(field, field.data) for field in _leaf_fields(form) if field.errors]
+    for field, _ in refused:
+        field.data = None
+    try:
+        yield
+    finally:
+        for field, data in refused:
+            field.data = data
+
+
+def control_character_error(field: Field) -> str | None:
+    """Why a text field's value is refused for its control characters, or None."""
+    multi_line = isinstance(field, TextAreaField)
+    pattern = MULTI_LINE_FORBIDDEN if multi_line else SINGLE_LINE_FORBIDDEN
+    if pattern.search(field.data or ""):
+        return MULTI_LINE_MESSAGE if multi_line else CONTROL_MESSAGE
+    return None
+
+
+class LogbookForm(FlaskForm):
+    """Base of every form: refuses control characters in every text field, beside the field."""
+
+    def validate(self, extra_validators=None) -> bool:
+        """The fields' own checks, then the control-character rule on every text field."""
+        valid = super().validate(extra_validators)
+        for field in _leaf_fields(self):
+            message = isinstance(field.data, str) and control_character_error(field)
+            if message:
+                field.errors = [*field.errors, message]
+                valid = False
+        return valid
 
 
 class CheckboxesField(SelectMultipleField):
@@ -27,13 +85,16 @@ def attach_errors(form: FlaskForm, error: Invalid) -> None:
 def validate_with(form: FlaskForm, check) -> bool:
     """Run the form's own checks and the domain's `check(form)` together; True when both pass.
 
-    Both run on every submit, so a person sees every problem at once, not one round at a time.
+    Both run on every submit, so a person sees every problem at once, not one round at a time. The
+    domain sees a field the form refused as empty, so a refused id, date or text never reaches a
+    rule or a query that would choke on it.
     """
     if not form.is_submitted():
         return False
     valid = form.validate()
     try:
-        check(form)
+        with _refused_values_hidden(form):
+            check(form)
     except Invalid as error:
         attach_errors(form, error)
         return False

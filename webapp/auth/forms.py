@@ -1,10 +1,11 @@
 """The login form."""
-from flask_wtf import FlaskForm
 from wtforms import PasswordField, StringField
 from wtforms.validators import DataRequired, Length
 
+from webapp.forms import LogbookForm
 
-class LoginForm(FlaskForm):
+
+class LoginForm(LogbookForm):
     """Login name and password."""
 
     login = StringField("Login", validators=[DataRequired(), Length(max=64)])

@@ -24,7 +24,7 @@ from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 from webapp.formatting import lab_today
 from webapp.forms import attach_errors
-from webapp.mail import tell_safety_officer
+from webapp.mail import link, tell_safety_officer
 
 # Who may do what: the person declares and withdraws; the safety officer declares for them and
 # records the end of the pregnancy.
@@ -102,13 +102,13 @@ def pregnancy_change(person_id: int, action: str):
         db.session.rollback()
         attach_errors(form, error)
         return _page(person_id, declare_form, end_form, 400)
-    db.session.commit()
-    review_dose_levels()
     if action == "declare" and current_user.id == person_id:
         tell_safety_officer("A declaration needs your review",
                             f"{subject.name} recorded a pregnancy declaration dated "
                             f"{declare_form.declared_on.data}. Please talk with them about work "
-                            f"arrangements: {url_for('doses.pregnancy', person_id=person_id, _external=True)}")
+                            f"arrangements: {link('doses.pregnancy', person_id=person_id)}")
+    db.session.commit()
+    review_dose_levels()
     flash({"declare": "Declaration recorded.", WITHDRAWN: "Declaration withdrawn.",
            ENDED: "Declaration ended."}[action], "info")
     return redirect(url_for("doses.pregnancy", person_id=person_id))

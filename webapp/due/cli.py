@@ -1,10 +1,8 @@
 """`flask reminders send [--dry-run]`: e-mail what is due, for cron or a systemd timer."""
 from __future__ import annotations
 
-import smtplib
-
 import click
-from flask import current_app, url_for
+from flask import current_app
 
 from models.checks.check_ops import lapse_expired_controls
 from models.core.base import utcnow
@@ -14,7 +12,7 @@ from models.due.reminder_ops import Reminder, plan_reminders, record_sent
 from webapp.due import bp
 from webapp.due.views import target_url
 from webapp.extensions import db
-from webapp.mail import safety_officer_addresses, send_mail, tell_safety_officer
+from webapp.mail import deliver_queued, link, safety_officer_addresses, send_mail, tell_safety_officer
 
 
 def compose(reminder: Reminder, lab_name: str, today) -> tuple[list[str], str, str]:
@@ -41,7 +39,7 @@ def compose(reminder: Reminder, lab_name: str, today) -> tuple[list[str], str, s
         subject = f"{lab_name}: {counts} for you"
         body = (f"Hello {reminder.person.name},\n\nThese safety tasks are due soon or late for you "
                 f"on {today}:\n\n{listing}")
-    body += f"\n\nThe full list: {url_for('due.index', _external=True)}"
+    body += f"\n\nThe full list: {link('due.index')}"
     return to, subject, body
 
 
@@ -59,11 +57,10 @@ def send(dry_run: bool):
     for instrument in held:
         click.echo(f"{instrument.name}: temporary controls expired; now out of service.")
     if not dry_run:
-        session.commit()
         for instrument in held:
             tell_safety_officer(f"{instrument.name} is out of service: temporary controls expired",
                                 instrument.out_of_service_reason)
-    failures = 0
+        session.commit()
     with current_app.test_request_context(base_url=current_app.config["BASE_URL"]):
         reminders = plan_reminders(session, now)
         for reminder in reminders:
@@ -71,21 +68,19 @@ def send(dry_run: bool):
             if dry_run:
                 click.echo(f"Would send to {', '.join(a for a in to if a)}: {subject}\n{body}\n")
                 continue
-            try:
-                sent = send_mail(to, subject, body)
-            except (smtplib.SMTPException, OSError) as error:
-                failures += 1
-                click.echo(f"Not sent to {', '.join(to)}: {error}", err=True)
-                continue
-            if sent:
+            # Queued and recorded together: a reminder is never lost nor queued twice.
+            if send_mail(to, subject, body):
                 record_sent(session, reminder, now)
                 session.commit()
-                click.echo(f"Sent to {', '.join(a for a in to if a)}: {subject}")
+                click.echo(f"Queued for {', '.join(a for a in to if a)}: {subject}")
             else:
-                click.echo(f"Not sent (no mail server or no address): {subject}", err=True)
+                click.echo(f"Not queued (no address): {subject}", err=True)
     if dry_run:
         session.rollback()
     if not reminders:
         click.echo("Nothing new to remind.")
-    if failures:
+    delivery = deliver_queued()
+    if delivery:
+        click.echo(f"Sent {delivery.sent}; not sent {delivery.failed} (retried by `flask mail send-pending`).")
+    if delivery.failed:
         raise SystemExit(1)

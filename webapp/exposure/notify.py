@@ -1,10 +1,7 @@
 """After dose records change: raise investigations for new crossings, ask for surveys, send e-mail."""
 from __future__ import annotations
 
-import smtplib
 from datetime import date
-
-from flask import current_app
 
 from models.core.codes import Level
 from models.core.labels import LEVEL_LABELS
@@ -13,11 +10,11 @@ from models.exposure.lab_ops import cached_lab_evaluation
 from models.exposure.tables import Investigation
 from webapp.extensions import db
 from webapp.formatting import dose, lab_today, lab_zone
-from webapp.mail import link, send_mail, tell_safety_officer
+from webapp.mail import deliver_queued, link, send_mail, tell_safety_officer
 
 
 def review_dose_levels(on: date | None = None) -> list[Investigation]:
-    """Evaluate the lab on `on` (default today), commit new investigations, then e-mail each one.
+    """Evaluate the lab on `on` (default today), commit new investigations with their e-mail, send it.
 
     Dose entry and import call this after committing their records; `flask exposure review`
     runs it from cron so crossings that only a date change reveals are raised too.
@@ -26,18 +23,15 @@ def review_dose_levels(on: date | None = None) -> list[Investigation]:
     lab = cached_lab_evaluation(db.session, on)
     new = raise_investigations(db.session, lab)
     raise_survey_tasks(db.session, new, on, lab_zone())
-    db.session.commit()
     for investigation in new:
-        try:
-            _tell(investigation)
-        except (smtplib.SMTPException, OSError):
-            # The investigation is saved and heads the attention list; a lost e-mail is logged.
-            current_app.logger.exception("Could not e-mail about investigation %s", investigation.id)
+        _tell(investigation)
+    db.session.commit()
+    deliver_queued()
     return new
 
 
 def _tell(investigation: Investigation) -> None:
-    """One message to the person, one to the safety officer."""
+    """Queue one message to the person, one to the safety officer."""
     what = investigation_label(investigation)
     figure = dose(investigation.dose_msv)
     person = investigation.person

@@ -1,7 +1,6 @@
 """Forms for describing instruments."""
 from __future__ import annotations
 
-from flask_wtf import FlaskForm
 from wtforms import FloatField, IntegerField, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length
 
@@ -12,12 +11,12 @@ from models.instruments.tables import (
     Enclosure,
     InstrumentKind,
 )
-from webapp.forms import choices
+from webapp.forms import LogbookForm, choices
 
 NUMBER = "Enter a number."
 
 
-class InstrumentForm(FlaskForm):
+class InstrumentForm(LogbookForm):
     """What the instrument is, its tube ratings and its safety schedule."""
 
     name = StringField("Name", validators=[DataRequired("Enter the instrument's name."),
@@ -62,7 +61,7 @@ class InstrumentForm(FlaskForm):
         return data
 
 
-class ServiceForm(FlaskForm):
+class ServiceForm(LogbookForm):
     """Why an instrument is taken out of service."""
 
     reason = TextAreaField("Reason", validators=[DataRequired("Say why."), Length(max=1000)])

@@ -1,7 +1,6 @@
 """Forms for sessions and authorisations."""
 from __future__ import annotations
 
-from flask_wtf import FlaskForm
 from wtforms import (
     BooleanField,
     DateField,
@@ -15,6 +14,7 @@ from wtforms.validators import InputRequired, Length, Optional
 
 from models.instruments.tables import AuthorisationLevel
 from webapp.formatting import from_local
+from webapp.forms import LogbookForm
 
 NUMBER = "Enter a number."
 WHEN = "Enter a date and time."
@@ -25,7 +25,7 @@ def optional_id(value: str | None) -> int | None:
     return int(value) if value not in (None, "", "None") else None
 
 
-class StartForm(FlaskForm):
+class StartForm(LogbookForm):
     """Settings and confirmations for a session that starts now."""
 
     kv = FloatField("Tube voltage (kV)", validators=[InputRequired(NUMBER)])
@@ -77,14 +77,14 @@ class LogForm(StartForm):
                 "beam_on_minutes": self.beam_on_minutes.data}
 
 
-class EndForm(FlaskForm):
+class EndForm(LogbookForm):
     """Beam-on time, asked when a session ends."""
 
     beam_on_minutes = FloatField("Beam-on time (min)", validators=[Optional()],
                                  description="Leave empty if the beam was on the whole session.")
 
 
-class AuthoriseForm(FlaskForm):
+class AuthoriseForm(LogbookForm):
     """The safety officer authorises a person on an instrument."""
 
     person_id = SelectField("Person", choices=[], validate_choice=False)
@@ -96,7 +96,7 @@ class AuthoriseForm(FlaskForm):
                                           "(common practice).")
 
 
-class RevokeForm(FlaskForm):
+class RevokeForm(LogbookForm):
     """Why an authorisation is withdrawn."""
 
     reason = TextAreaField("Reason", validators=[InputRequired("Say why."), Length(max=1000)])

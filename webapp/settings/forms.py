@@ -3,12 +3,13 @@ from __future__ import annotations
 
 from zoneinfo import available_timezones
 
-from flask_wtf import FlaskForm
 from wtforms import EmailField, IntegerField, SelectField, StringField
 from wtforms.validators import DataRequired, Email, InputRequired, Length, NumberRange, Optional
 
+from webapp.forms import LogbookForm
 
-class LabForm(FlaskForm):
+
+class LabForm(LogbookForm):
     """Name, time zone, display unit, due-soon window, safety officer's address."""
 
     lab_name = StringField("Lab name", validators=[DataRequired("Enter the lab's name."),

@@ -3,7 +3,6 @@ from __future__ import annotations
 
 from datetime import UTC
 
-from flask_wtf import FlaskForm
 from wtforms import (
     BooleanField,
     DateField,
@@ -25,7 +24,7 @@ from models.surveys.permit_ops import RING_RULE
 from models.surveys.survey_ops import REFERENCE_DISTANCE_CM, TRIGGER_LABELS, PointInput
 from models.surveys.tables import PointLevel, SurveyTrigger
 from webapp.formatting import lab_zone
-from webapp.forms import choices
+from webapp.forms import LogbookForm, choices
 
 NUMBER = "Enter a number."
 # Empty rows are ignored, so a fixed set of rows serves surveys of any size.
@@ -54,7 +53,7 @@ def utc(field: DateTimeLocalField):
     return field.data.astimezone(UTC) if field.data else None
 
 
-class MeterForm(FlaskForm):
+class MeterForm(LogbookForm):
     """What the meter is and its calibration."""
 
     serial = StringField("Serial number", validators=[DataRequired("Enter the meter's serial number."),
@@ -81,7 +80,7 @@ class MeterForm(FlaskForm):
             "correction_factor", "energy_response_notes")}
 
 
-class CalibrationForm(FlaskForm):
+class CalibrationForm(LogbookForm):
     """A new calibration of a meter."""
 
     calibrated_on = DateField("New calibration date", validators=[InputRequired("Enter a date.")])
@@ -92,7 +91,7 @@ class CalibrationForm(FlaskForm):
                        description="Kept in the audit log with the change.")
 
 
-class ReasonForm(FlaskForm):
+class ReasonForm(LogbookForm):
     """Why a record is switched off."""
 
     reason = TextAreaField("Reason", validators=[DataRequired("Say why."), Length(max=1000)])
@@ -122,7 +121,7 @@ class PointForm(Form):
                           distance_cm=self.distance_cm.data, level=PointLevel(self.level.data))
 
 
-class SurveyForm(FlaskForm):
+class SurveyForm(LogbookForm):
     """A survey of one instrument with its points."""
 
     instrument_id = SelectField("Instrument", coerce=int, validate_choice=False)
@@ -146,7 +145,7 @@ class SurveyForm(FlaskForm):
         return [row.form for row in self.points if not row.form.is_blank()]
 
 
-class PermitForm(FlaskForm):
+class PermitForm(LogbookForm):
     """A request to bypass safety devices for a window."""
 
     instrument_id = SelectField("Instrument", coerce=int, validate_choice=False)
@@ -158,7 +157,7 @@ class PermitForm(FlaskForm):
     ring_dosimetry_confirmed = BooleanField("Ring dosimeters will be worn", description=RING_RULE)
 
 
-class DecisionForm(FlaskForm):
+class DecisionForm(LogbookForm):
     """The safety officer's note on approving or refusing."""
 
     note = TextAreaField("Note", validators=[Length(max=2000)],

@@ -26,7 +26,7 @@ from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, local
 from webapp.forms import attach_errors, validate_with
-from webapp.mail import send_mail, tell_safety_officer
+from webapp.mail import link, send_mail, tell_safety_officer
 from webapp.surveys import bp
 from webapp.surveys.forms import DecisionForm, PermitForm, utc
 
@@ -65,12 +65,12 @@ def new_permit():
         form.instrument_id.data = request.args.get("instrument_id", type=int)
     if validate_with(form, lambda f: _check(f, today)):
         permit = request_permit(db.session, _values(form))
-        db.session.commit()
         tell_safety_officer(
             f"Bypass permit asked for: {permit.instrument.name}",
             f"{current_user.name} asks to bypass {permit.devices} on {permit.instrument.name} "
             f"from {local(permit.window_start)} to {local(permit.window_end)} (lab time).\n"
-            f"Reason: {permit.reason}\nDecide: {url_for('surveys.permit', permit_id=permit.id, _external=True)}")
+            f"Reason: {permit.reason}\nDecide: {link('surveys.permit', permit_id=permit.id)}")
+        db.session.commit()
         flash("Permit asked for. The radiation safety officer decides; do not bypass anything "
               "before it is approved.", "info")
         return redirect(url_for("surveys.permit", permit_id=permit.id))
@@ -127,12 +127,12 @@ def _decide(permit_id: int, approve: bool):
         db.session.rollback()
         attach_errors(form, error)
         return _show(permit, form)
-    db.session.commit()
     word = "approved" if approve else "refused"
     send_mail([permit.requested_by.email or ""], f"Bypass permit {word}: {permit.instrument.name}",
               f"Your bypass permit for {permit.devices} on {permit.instrument.name} was {word} by "
               f"{current_user.name}.\n{permit.decision_note or ''}\n"
               + (f"{SIGN_RULE}\n{RING_RULE}\n" if approve else ""))
+    db.session.commit()
     flash(f"Permit {word}.", "info")
     return redirect(url_for("surveys.permit", permit_id=permit.id))
 
