@@ -11,7 +11,7 @@ from sqlalchemy.orm import Session
 
 from models.audit.audit_ops import set_actor
 from models.people.tables import Person
-from webapp import config, formatting
+from webapp import config, formatting, headers
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
 
 BLUEPRINTS = (
@@ -55,6 +55,7 @@ def create_app(overrides: dict | None = None) -> Flask:
         app.register_blueprint(module.bp)
 
     formatting.install(app)
+    headers.install(app)
     _install_request_hooks(app)
     _install_error_pages(app)
     return app
