@@ -1,14 +1,18 @@
 """Form pieces shared by several areas."""
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
+from datetime import date, datetime
 
 from flask_wtf import FlaskForm
-from wtforms import Field, FieldList, FormField, SelectMultipleField, TextAreaField, widgets
+from wtforms import DateTimeLocalField, Field, FieldList, FormField, SelectMultipleField, TextAreaField, widgets
 
+from models.core.bounds import DATE_MESSAGE, MAX_ID, date_in_range, local_time_problem
 from models.core.errors import Invalid
+from webapp.formatting import lab_zone
 
 # One-line text: no control character at all (line breaks would forge e-mail headers; the database
 # refuses NUL). Multi-line text keeps tabs and line breaks only.
@@ -42,6 +46,27 @@ def _refused_values_hidden(form: FlaskForm) -> Iterator[None]:
             field.data = data
 
 
+def bounds_error(field: Field) -> str | None:
+    """Why a field's parsed value is out of every plausible range, or None."""
+    data = field.data
+    if isinstance(data, str):
+        return control_character_error(field)
+    if isinstance(data, (date, datetime)) and not date_in_range(data):
+        return DATE_MESSAGE
+    if isinstance(data, float) and not math.isfinite(data):
+        return "Enter a finite number."
+    if isinstance(data, int) and not isinstance(data, bool) and abs(data) > MAX_ID:
+        return "Enter a smaller number."
+    return None
+
+
+def _wall_clock_error(field: Field) -> str | None:
+    """Why a lab-time field's value does not name one moment (a clock change), or None."""
+    if isinstance(field, DateTimeLocalField) and isinstance(field.data, datetime):
+        return local_time_problem(field.data, lab_zone())
+    return None
+
+
 def control_character_error(field: Field) -> str | None:
     """Why a text field's value is refused for its control characters, or None."""
     multi_line = isinstance(field, TextAreaField)
@@ -52,13 +77,14 @@ def control_character_error(field: Field) -> str | None:
 
 
 class LogbookForm(FlaskForm):
-    """Base of every form: refuses control characters in every text field, beside the field."""
+    """Base of every form: control characters, dates outside 1950-2100, infinite or huge numbers
+    are refused in every field, beside the field."""
 
     def validate(self, extra_validators=None) -> bool:
-        """The fields' own checks, then the control-character rule on every text field."""
+        """The fields' own checks, then the shared bounds on every field."""
         valid = super().validate(extra_validators)
         for field in _leaf_fields(self):
-            message = isinstance(field.data, str) and control_character_error(field)
+            message = bounds_error(field) or _wall_clock_error(field)
             if message:
                 field.errors = [*field.errors, message]
                 valid = False

@@ -13,6 +13,7 @@ from wtforms import (
 from wtforms.validators import InputRequired, Length, Optional
 
 from models.instruments.tables import AuthorisationLevel
+from models.sessions.session_ops import TEXT_LIMITS
 from webapp.formatting import from_local
 from webapp.forms import LogbookForm
 
@@ -30,7 +31,9 @@ class StartForm(LogbookForm):
 
     kv = FloatField("Tube voltage (kV)", validators=[InputRequired(NUMBER)])
     ma = FloatField("Tube current (mA)", validators=[InputRequired(NUMBER)])
-    purpose = StringField("Purpose or sample", validators=[Length(max=300)])
+    purpose = StringField("Purpose or sample", validators=[Length(max=TEXT_LIMITS["purpose"])],
+                          description=f"At most {TEXT_LIMITS['purpose']} characters.",
+                          render_kw={"maxlength": TEXT_LIMITS["purpose"]})
     pre_use_checks_confirmed = BooleanField(
         "I saw the warning light and the shutter indicators working before starting")
     dosimeter_worn = BooleanField("I am wearing my dosimeter")

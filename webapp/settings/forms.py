@@ -21,7 +21,8 @@ class LabForm(LogbookForm):
                                            "(10 CFR 20.1004).")
     due_soon_days = IntegerField("'Due soon' window (days)", validators=[
         InputRequired("Enter a number of days."),
-        NumberRange(min=0, max=90, message="Between 0 and 90 days.")])
+        NumberRange(min=0, max=90, message="Between 0 and 90 days.")],
+        render_kw={"min": 0, "max": 90}, description="Accepted: 0 to 90 days.")
     safety_officer_email = EmailField("Safety officer's e-mail", validators=[
         Optional(), Email("Enter a valid e-mail address.")],
         description="Alerts also go to every person holding the safety officer role.")

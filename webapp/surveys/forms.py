@@ -18,8 +18,10 @@ from wtforms import (
 )
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
+from models.core.bounds import range_text
 from models.core.due_dates import METER_CALIBRATION_MONTHS
 from models.core.units import RATE_UNITS
+from models.surveys.meter_ops import CALIBRATION_MONTHS_RANGE
 from models.surveys.permit_ops import RING_RULE
 from models.surveys.survey_ops import REFERENCE_DISTANCE_CM, TRIGGER_LABELS, PointInput
 from models.surveys.tables import PointLevel, SurveyTrigger
@@ -64,9 +66,10 @@ class MeterForm(LogbookForm):
     calibrated_on = DateField("Calibrated on", validators=[InputRequired("Enter a date.")])
     calibration_interval_months = IntegerField(
         "Calibration interval (months)", default=METER_CALIBRATION_MONTHS,
-        validators=[InputRequired(NUMBER)],
+        validators=[InputRequired(NUMBER)], render_kw={"min": 1, "max": CALIBRATION_MONTHS_RANGE[1]},
         description="12 months, and after any repair: a common state rule "
-                    "(e.g. N.D. Admin. Code 33.1-10-15-08).")
+                    "(e.g. N.D. Admin. Code 33.1-10-15-08). "
+                    f"Accepted: {range_text(*CALIBRATION_MONTHS_RANGE, 'months')}.")
     correction_factor = FloatField(
         "Low-energy correction factor", default=1.0, validators=[InputRequired(NUMBER)],
         description="Multiplies (reading - background) to give the net dose rate; from the "
@@ -86,7 +89,8 @@ class CalibrationForm(LogbookForm):
     calibrated_on = DateField("New calibration date", validators=[InputRequired("Enter a date.")])
     calibration_interval_months = IntegerField(
         "Calibration interval (months)", default=METER_CALIBRATION_MONTHS,
-        validators=[InputRequired(NUMBER)])
+        validators=[InputRequired(NUMBER)], render_kw={"min": 1, "max": CALIBRATION_MONTHS_RANGE[1]},
+        description=f"Accepted: {range_text(*CALIBRATION_MONTHS_RANGE, 'months')}.")
     note = StringField("Certificate or note", validators=[Length(max=300)],
                        description="Kept in the audit log with the change.")
 
