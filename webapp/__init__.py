@@ -96,7 +96,7 @@ def _install_request_hooks(app: Flask) -> None:
         set_actor(db.session, current_user.id if current_user.is_authenticated else None)
         g.actor = current_user
 
-def _error(code: int, title: str, message: str):
+def _answer(code: int, title: str, message: str):
     """An error answer: a problem document for the API, a page that keeps the caution otherwise."""
     if request.path.startswith(API_PREFIX):
         return problem(code, title, message)
@@ -119,12 +119,12 @@ def _install_error_pages(app: Flask) -> None:
 
     @app.errorhandler(CSRFError)
     def _csrf(error):
-        return _error(400, "Form expired or forged", "The form was refused because its security token "
+        return _answer(400, "Form expired or forged", "The form was refused because its security token "
                                                      "was missing or out of date. Reload the page and try again.")
 
     def plain(error: HTTPException):
         title, message = PLAIN_ERRORS[error.code]
-        return _error(error.code, title, message.format(limit=config.upload_limit_text(app.config)))
+        return _answer(error.code, title, message.format(limit=config.upload_limit_text(app.config)))
 
     for code in PLAIN_ERRORS:
         app.register_error_handler(code, plain)
@@ -137,4 +137,4 @@ def _install_error_pages(app: Flask) -> None:
                        "again, so it is not entered twice. The error has been logged.")
         else:
             message = "Nothing was saved. The error has been logged."
-        return _error(500, "Something went wrong", message)
+        return _answer(500, "Something went wrong", message)

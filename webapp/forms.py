@@ -124,6 +124,10 @@ def validate_with(form: FlaskForm, check) -> bool:
     except Invalid as error:
         attach_errors(form, error)
         return False
+    except (ValueError, TypeError, LookupError):
+        if valid:
+            raise
+        return False  # the domain tripped over a value the form refused; the form's messages stand
     return valid
 
 

@@ -12,6 +12,7 @@ from flask_login import current_user
 from models.core.errors import Invalid
 from models.doses.import_ops import (
     FIELDS,
+    MAX_ROWS,
     PRODUCT_LAYOUT,
     Layout,
     commit_report,
@@ -24,6 +25,7 @@ from models.doses.import_ops import (
 from models.doses.tables import DoseRecord, ImportBatch, ImportMapping
 from models.people.tables import Role
 from webapp.access import roles_required
+from webapp.config import upload_limit_text
 from webapp.doses import bp
 from webapp.doses.forms import MappingForm, UploadForm
 from webapp.exposure.notify import review_dose_levels
@@ -31,6 +33,8 @@ from webapp.extensions import db
 from webapp.forms import attach_errors
 
 NEW_MAPPING = "new"
+# The preview shows counts and this many rows and problems, not a page per row of a large file.
+PREVIEW_ROWS = 50
 _SHA = re.compile(r"[0-9a-f]{64}")
 
 
@@ -77,6 +81,8 @@ def import_upload():
     form = UploadForm()
     form.layout.choices = ([("", "The logbook's own layout")] + [(str(m.id), m.name) for m in mappings]
                            + [(NEW_MAPPING, "A new mapping: choose the columns")])
+    form.file.description = (f"At most {upload_limit_text(current_app.config)} and "
+                             f"{MAX_ROWS:,} rows; split a larger report.")
     if form.validate_on_submit():
         sha = _store(form.file.data.read())
         filename = (form.file.data.filename or "report.csv")[:255]
@@ -128,7 +134,7 @@ def import_preview(sha: str):
     filename = request.args.get("filename", "report.csv")
     preview = validate_report(db.session, _stored(sha), _layout(layout_key), filename)
     return render_template("doses/preview.html", preview=preview, layout_key=layout_key,
-                           date_words=date_format_words)
+                           date_words=date_format_words, shown=PREVIEW_ROWS)
 
 
 @bp.route("/doses/import/<sha>/commit", methods=["POST"])
