@@ -4,6 +4,7 @@ from datetime import date
 
 import pytest
 import sqlalchemy as sa
+from flask_wtf import FlaskForm
 from openapi_spec_validator import validate
 
 from models.core.errors import Invalid
@@ -14,6 +15,7 @@ from models.people.tables import Person, Role
 from models.sessions.session_ops import open_session
 from models.sessions.tables import InstrumentSession
 from webapp.api.openapi import document
+from webapp.forms import LogbookForm
 
 HUGE_ID = "9" * 40
 BODY = {"operator": "op", "kv": 40, "ma": 30, "purpose": "silicon", "pre_use_checks_confirmed": True}
@@ -177,3 +179,14 @@ def test_lab_times_a_clock_change_skips_or_repeats_are_refused_by_field(
     assert response.status_code == 200
     assert problem in response.text
     assert _count(session, InstrumentSession) == 0
+
+
+def test_every_form_of_the_app_derives_from_the_bounded_base(app):
+    def subclasses(cls):
+        for sub in cls.__subclasses__():
+            yield sub
+            yield from subclasses(sub)
+
+    ours = [c for c in subclasses(FlaskForm) if c.__module__.startswith("webapp.")]
+    assert len(ours) > 30
+    assert [c.__qualname__ for c in ours if not issubclass(c, LogbookForm) and c is not LogbookForm] == []
