@@ -124,7 +124,7 @@ def validate_with(form: FlaskForm, check) -> bool:
     except Invalid as error:
         attach_errors(form, error)
         return False
-    except (ValueError, TypeError, LookupError):
+    except (ValueError, TypeError, LookupError, AttributeError):
         if valid:
             raise
         return False  # the domain tripped over a value the form refused; the form's messages stand
