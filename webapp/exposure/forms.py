@@ -2,9 +2,8 @@
 from __future__ import annotations
 
 from wtforms import FloatField, IntegerField, SelectField, StringField, SubmitField, TextAreaField
-from wtforms.validators import DataRequired, InputRequired, Length, NumberRange, Optional
+from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
-from models.core.bounds import DATE_MESSAGE
 from models.core.codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
 from models.exposure.limit_set_ops import RULE_COLUMNS
 from webapp.exposure import labels
@@ -42,7 +41,7 @@ class PoliciesForm(LogbookForm):
                               choices=choices(LensSource, labels.LENS))
     five_year_first_year = IntegerField(
         "First year of the five-year blocks",
-        validators=[InputRequired("Enter a year."), NumberRange(min=1950, max=2100, message=DATE_MESSAGE)],
+        validators=[InputRequired("Enter a year.")],
         description="Blocks run five calendar years from this year (ICRP 'defined periods').")
     reason = _reason()
 
