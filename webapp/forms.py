@@ -7,6 +7,7 @@ from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from datetime import date, datetime
 
+from flask import request
 from flask_wtf import FlaskForm
 from wtforms import DateTimeLocalField, Field, FieldList, FormField, SelectMultipleField, TextAreaField, widgets
 
@@ -129,6 +130,12 @@ def validate_with(form: FlaskForm, check) -> bool:
             raise
         return False  # the domain tripped over a value the form refused; the form's messages stand
     return valid
+
+
+def query_int(name: str, default: int | None = None, low: int = 1, high: int = MAX_ID) -> int | None:
+    """A whole number from the query string within [low, high], else `default` (ids by default)."""
+    value = request.args.get(name, type=int)
+    return value if value is not None and low <= value <= high else default
 
 
 def choices(enum_cls, labels: dict | None = None) -> list[tuple[str, str]]:

@@ -31,7 +31,7 @@ from webapp.api import v1
 from webapp.api.openapi import document
 from webapp.api.problems import problem
 from webapp.extensions import db, limiter
-from webapp.forms import MULTI_LINE_FORBIDDEN, SINGLE_LINE_FORBIDDEN
+from webapp.forms import MULTI_LINE_FORBIDDEN, SINGLE_LINE_FORBIDDEN, query_int
 
 NUMBERS = ("kv", "ma", "beam_on_minutes")
 FLAGS = ("pre_use_checks_confirmed", "dosimeter_worn", "alignment", "configuration_changed",
@@ -307,9 +307,11 @@ def list_():
                 bounds[key] = _time(request.args[key])
             except ValueError:
                 raise Invalid({key: f"'{key}' must be an ISO 8601 time with its offset."}) from None
+    limit = query_int("limit", None, high=1000) if request.args.get("limit") else 100
+    if limit is None:
+        raise Invalid({"limit": "'limit' must be a whole number from 1 to 1000."})
     rows = find_sessions(db.session, instrument=g.instrument, start=bounds.get("from"),
-                         end=bounds.get("to"),
-                         limit=min(max(request.args.get("limit", 100, type=int), 1), 1000))
+                         end=bounds.get("to"), limit=limit)
     return jsonify({"instrument": g.instrument.name, "sessions": [as_json(s) for s in rows]})
 
 

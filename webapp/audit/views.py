@@ -10,6 +10,7 @@ from models.people.tables import Person, Role
 from webapp.access import roles_required
 from webapp.audit import bp
 from webapp.extensions import db
+from webapp.forms import query_int
 
 PAGE_SIZE = 100
 # Dose and pregnancy details stay with the safety officer, even in the trail; dosimeters too,
@@ -23,7 +24,7 @@ DOSE_ENTITIES = frozenset({"dose_record", "pregnancy_declaration", "investigatio
 def index():
     """A page of audit events; an admin without the safety officer role sees no dose content."""
     entity = request.args.get("entity", "")
-    page = max(request.args.get("page", 1, type=int), 1)
+    page = query_int("page", 1, high=1_000_000)
     query = sa.select(AuditEvent).order_by(AuditEvent.id.desc())
     if entity:
         query = query.where(AuditEvent.entity == entity)

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import sqlalchemy as sa
-from flask import abort, flash, redirect, render_template, request, url_for
+from flask import abort, flash, redirect, render_template, url_for
 from sqlalchemy.orm import joinedload
 
 from models.core.errors import Invalid
@@ -21,7 +21,7 @@ from webapp.doses.forms import IssueForm, ReturnForm, worn_to_kind
 from webapp.doses.views import people_choices
 from webapp.extensions import db
 from webapp.formatting import lab_today
-from webapp.forms import validate_with
+from webapp.forms import query_int, validate_with
 
 
 @bp.route("/doses/dosimeters/")
@@ -41,7 +41,7 @@ def issue():
     form = IssueForm()
     form.wearer.choices = people_choices()
     if not form.is_submitted():
-        form.wearer.data = request.args.get("person", type=int)
+        form.wearer.data = query_int("person")
         form.issued_on.data = lab_today()
 
     def check(f):

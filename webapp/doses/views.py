@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import sqlalchemy as sa
-from flask import abort, flash, redirect, render_template, request, url_for
+from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 from sqlalchemy.orm import joinedload
 
@@ -19,7 +19,7 @@ from webapp.doses.forms import LOCATION_LABELS, RESULT_LABELS, SOURCE_LABELS, Am
 from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 from webapp.formatting import lab_today
-from webapp.forms import validate_with
+from webapp.forms import query_int, validate_with
 from webapp.slots import Attention, Severity, attention, home_panels, navigation
 
 # Everyone who may have dose records of their own; an admin alone has none to see.
@@ -105,7 +105,7 @@ def new():
     form.person.choices = people_choices()
     form.dosimeter.choices = _dosimeter_choices()
     if not form.is_submitted():
-        form.person.data = request.args.get("person", type=int)
+        form.person.data = query_int("person")
     if validate_with(form, lambda f: f.entry() and validate_entry(db.session, f.entry())):
         added = add_dose_record(db.session, form.entry(), created_by_id=current_user.id)
         db.session.commit()

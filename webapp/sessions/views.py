@@ -8,6 +8,7 @@ from flask import abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
 from models.core.base import utcnow
+from models.core.bounds import date_in_range
 from models.core.errors import Invalid
 from models.doses.tables import Dosimeter, DosimeterKind
 from models.instruments.instrument_ops import active_instruments, current_authorisations
@@ -30,7 +31,7 @@ from models.sessions.tables import InstrumentSession
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, lab_zone
-from webapp.forms import attach_errors, validate_with
+from webapp.forms import attach_errors, query_int, validate_with
 from webapp.sessions import bp
 from webapp.sessions.forms import EndForm, LogForm, StartForm, optional_id
 from webapp.slots import home_panels, instrument_sections, navigation
@@ -137,20 +138,20 @@ def show(session_id: int):
 
 
 def _day_start(text: str | None) -> datetime | None:
-    """The first moment of a lab-local date given as YYYY-MM-DD, or None if absent or bad."""
+    """The first moment of a lab-local date given as YYYY-MM-DD, or None if absent, bad or out of range."""
     try:
         day = datetime.strptime(text or "", "%Y-%m-%d").date()
     except ValueError:
         return None
-    return datetime.combine(day, time.min, tzinfo=lab_zone())
+    return datetime.combine(day, time.min, tzinfo=lab_zone()) if date_in_range(day) else None
 
 
 @bp.route("/sessions/")
 @login_required
 def index():
     """Sessions filtered by instrument, person and date range, with usage totals."""
-    instrument = db.session.get(Instrument, request.args.get("instrument", 0, type=int))
-    person = db.session.get(Person, request.args.get("person", 0, type=int))
+    instrument = db.session.get(Instrument, query_int("instrument", 0))
+    person = db.session.get(Person, query_int("person", 0))
     start = _day_start(request.args.get("from"))
     until = _day_start(request.args.get("to"))
     end = until + timedelta(days=1) if until else None

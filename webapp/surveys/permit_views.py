@@ -1,7 +1,7 @@
 """Bypass permits: operators ask, the safety officer decides, requester or officer closes."""
 from __future__ import annotations
 
-from flask import abort, flash, redirect, render_template, request, url_for
+from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 
 from models.core.base import utcnow
@@ -25,7 +25,7 @@ from models.surveys.tables import BypassPermit
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, local
-from webapp.forms import attach_errors, validate_with
+from webapp.forms import attach_errors, query_int, validate_with
 from webapp.mail import link, send_mail, tell_safety_officer
 from webapp.surveys import bp
 from webapp.surveys.forms import DecisionForm, PermitForm, utc
@@ -62,7 +62,7 @@ def new_permit():
     today = lab_today()
     form.instrument_id.choices = [(i.id, i.name) for i in instruments_for(db.session, current_user, today)]
     if not form.is_submitted():
-        form.instrument_id.data = request.args.get("instrument_id", type=int)
+        form.instrument_id.data = query_int("instrument_id")
     if validate_with(form, lambda f: _check(f, today)):
         permit = request_permit(db.session, _values(form))
         tell_safety_officer(

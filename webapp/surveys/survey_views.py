@@ -25,7 +25,7 @@ from models.surveys.tables import Survey, SurveyMeter, SurveyTrigger
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, settings
-from webapp.forms import validate_with
+from webapp.forms import query_int, validate_with
 from webapp.mail import link, tell_safety_officer
 from webapp.surveys import bp
 from webapp.surveys.forms import SurveyForm, utc
@@ -61,7 +61,7 @@ def new_survey():
         (m.id, _meter_label(m, calibration_on(m, today, settings().due_soon_days)))
         for m in active_meters(db.session)]
     if not form.is_submitted():
-        form.instrument_id.data = request.args.get("instrument_id", type=int)
+        form.instrument_id.data = query_int("instrument_id")
         form.trigger.data = request.args.get("trigger", SurveyTrigger.PERIODIC.value)
     if validate_with(form, lambda f: _check(f, today)):
         survey = record_survey(db.session, _values(form))
