@@ -6,6 +6,7 @@ from models.audit.tables import AuditEvent
 from models.checks.tables import CheckItemResult, SafetyCheck, TemporaryControl
 from models.core import database  # noqa: F401  (connection pragmas)
 from models.core.base import Base
+from models.core.outbox import OutboxMessage
 from models.core.settings import LabSettings
 from models.doses.tables import DoseRecord, Dosimeter, ImportBatch, ImportMapping
 from models.due.tables import ReminderSent
@@ -20,7 +21,7 @@ __all__ = [
     "ApiToken", "AuditEvent", "Authorisation", "Base", "BypassPermit", "CheckItemResult",
     "ChecklistItem", "ChecklistTemplate", "Dosimeter", "DoseRecord", "ImportBatch",
     "ImportMapping", "Incident", "IncidentNote", "Instrument", "InstrumentSession",
-    "Investigation", "LabSettings", "LimitRule", "LimitSet", "Person", "PersonRole",
+    "Investigation", "LabSettings", "LimitRule", "LimitSet", "OutboxMessage", "Person", "PersonRole",
     "PregnancyDeclaration", "ReminderSent", "SafetyCheck", "Survey", "SurveyMeter", "SurveyPoint",
     "SurveyTask", "TemporaryControl",
 ]

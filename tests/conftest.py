@@ -267,19 +267,43 @@ def free_port() -> int:
         return sock.getsockname()[1]
 
 
-@pytest.fixture
-def smtp_server():
-    """A real SMTP server on loopback; yields (port, mailbox)."""
-    from aiosmtpd.controller import Controller
+class SmtpSwitch:
+    """A real SMTP server on loopback that a test can stop and start again on the same port."""
 
-    mailbox = Mailbox()
-    port = free_port()
-    controller = Controller(mailbox, hostname="127.0.0.1", port=port)
-    controller.start()
+    def __init__(self):
+        self.mailbox = Mailbox()
+        self.port = free_port()
+        self.controller = None
+
+    def start(self) -> None:
+        """Start answering."""
+        from aiosmtpd.controller import Controller
+
+        self.controller = Controller(self.mailbox, hostname="127.0.0.1", port=self.port)
+        self.controller.start()
+
+    def stop(self) -> None:
+        """Stop answering: connections are refused from now on."""
+        if self.controller is not None:
+            self.controller.stop()
+            self.controller = None
+
+
+@pytest.fixture
+def smtp_switch():
+    """A real SMTP server on loopback, running, that the test may stop mid-way."""
+    switch = SmtpSwitch()
+    switch.start()
     try:
-        yield port, mailbox
+        yield switch
     finally:
-        controller.stop()
+        switch.stop()
+
+
+@pytest.fixture
+def smtp_server(smtp_switch):
+    """A real SMTP server on loopback; yields (port, mailbox)."""
+    return smtp_switch.port, smtp_switch.mailbox
 
 
 @pytest.fixture

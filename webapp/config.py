@@ -44,13 +44,21 @@ def from_environment(instance_path: str) -> dict:
         "MAIL_FROM": os.environ.get("MAIL_FROM", "logbook@localhost"),
         # Read once, by the command that creates a new database; the Settings page rules afterwards.
         "LAB_TIMEZONE": _zone("LAB_TIMEZONE"),
+        "MAIL_TIMEOUT": float(os.environ.get("MAIL_TIMEOUT", "10")),
         "BASE_URL": os.environ.get("BASE_URL", "http://127.0.0.1:5000"),
+        # The largest request accepted, uploads included; a dosimetry report is far smaller.
+        "MAX_CONTENT_LENGTH": int(os.environ.get("MAX_CONTENT_LENGTH", str(10 * 1024 * 1024))),
         "RATELIMIT_ENABLED": _flag("RATELIMIT_ENABLED", True),
         "RATELIMIT_STORAGE_URI": os.environ.get("RATELIMIT_STORAGE_URI", "memory://"),
         "SESSION_COOKIE_HTTPONLY": True,
         "SESSION_COOKIE_SAMESITE": "Lax",
         "SESSION_COOKIE_SECURE": _flag("SESSION_COOKIE_SECURE"),
     }
+
+
+def upload_limit_text(config: dict) -> str:
+    """The request size limit as people read it, e.g. "10 MB"."""
+    return f"{config['MAX_CONTENT_LENGTH'] / (1024 * 1024):g} MB"
 
 
 def _instance_secret(instance_path: str, name: str) -> str:

@@ -26,6 +26,7 @@ class Severity(enum.IntEnum):
     PROJECTED = 40
     OPEN_INVESTIGATION = 45
     OUT_OF_SERVICE = 50
+    UNDELIVERED_MAIL = 55
     FAILED_CHECK = 60
     OVERDUE = 70
     METER_CALIBRATION = 80
@@ -39,7 +40,7 @@ SEVERITY_CLASS = {
     Severity.LIMIT_REACHED: "state-bad", Severity.LEVEL_2: "state-bad",
     Severity.LEVEL_1: "state-warn", Severity.PROJECTED: "state-warn",
     Severity.OUT_OF_SERVICE: "state-bad", Severity.FAILED_CHECK: "state-bad",
-    Severity.BYPASS: "state-bad",
+    Severity.BYPASS: "state-bad", Severity.UNDELIVERED_MAIL: "state-bad",
 }
 
 

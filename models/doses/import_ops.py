@@ -17,6 +17,7 @@ from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, joinedload
 
 from models.core.base import taken
+from models.core.bounds import DATE_MESSAGE, date_in_range
 from models.core.codes import Location, Quantity, Result
 from models.core.errors import Invalid
 from models.core.units import DOSE_UNITS
@@ -41,6 +42,8 @@ FIELD_LABELS = {
 }
 REQUIRED = ("wear_start", "wear_end", "quantity", "location")
 ISO_DATE = "ISO 8601"
+# A monthly report of a large lab has a few thousand rows; this bounds the memory a file can take.
+MAX_ROWS = 50_000
 DUPLICATE = "duplicate"
 
 
@@ -120,19 +123,30 @@ def _date_format_works(fmt: str) -> bool:
 
 
 def read_csv(data: bytes) -> tuple[list[str], list[tuple[int, list[str]]]]:
-    """The header and the non-blank rows (with their line numbers) of a CSV file."""
+    """The header and the non-blank rows (with their line numbers) of a CSV file.
+
+    Rows are read one at a time from the bytes, never as one decoded copy, and a file with more
+    than MAX_ROWS rows is refused as soon as the row after the last allowed one is read.
+    """
+    text = io.TextIOWrapper(io.BytesIO(data), encoding="utf-8-sig", newline="")
     try:
-        text = data.decode("utf-8-sig")
+        first = text.readline()
+        try:
+            dialect = csv.Sniffer().sniff(first, delimiters=",;\t")
+        except csv.Error:
+            dialect = csv.excel
+        text.seek(0)
+        reader = csv.reader(text, dialect)
+        header = [h.strip() for h in next(reader)]
+        rows = []
+        for row in reader:
+            if any(cell.strip() for cell in row):
+                rows.append((reader.line_num, row))
+                if len(rows) > MAX_ROWS:
+                    raise Invalid.one("file", f"The file has more than {MAX_ROWS:,} rows: split it into "
+                                              "smaller reports.")
     except UnicodeDecodeError as error:
         raise Invalid.one("file", "The file is not UTF-8 text: save it as CSV (UTF-8).") from error
-    try:
-        dialect = csv.Sniffer().sniff(text.split("\n", 1)[0], delimiters=",;\t")
-    except csv.Error:
-        dialect = csv.excel
-    reader = csv.reader(io.StringIO(text), dialect)
-    try:
-        header = [h.strip() for h in next(reader)]
-        rows = [(reader.line_num, row) for row in reader if any(cell.strip() for cell in row)]
     except StopIteration:
         raise Invalid.one("file", "The file is empty.") from None
     except csv.Error as error:
@@ -174,7 +188,7 @@ class Preview:
         return not self.file_errors and not self.bad_rows and self.earlier is None and bool(self.rows)
 
     def problems(self) -> list[str]:
-        """Every file and row error as one line each."""
+        """Every file and row error as one line each, in the file's order."""
         lines = list(self.file_errors)
         for row in self.bad_rows:
             lines += [f"Line {row.line}: {FIELD_LABELS.get(f, 'Row')}: {m}" if f != DUPLICATE
@@ -267,6 +281,10 @@ def _parse_row(row: Row, layout: Layout, people: dict, dosimeters: dict) -> None
         except ValueError:
             errors[name] = (f"'{cells[name]}' is not a date written as "
                             f"{date_format_words(layout.date_format)}.")
+        else:
+            if not date_in_range(dates[name]):
+                errors[name] = f"'{cells[name]}': {DATE_MESSAGE}"
+                dates[name] = None
     quantity = _QUANTITIES.get(cells["quantity"].lower().replace(" ", ""))
     if quantity is None:
         errors["quantity"] = f"Unknown quantity '{cells['quantity']}': use Hp(10), Hp(0.07) or Hp(3)."

@@ -7,6 +7,7 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
 from models.core.base import copy_fields, taken, utcnow
+from models.core.bounds import range_text, within
 from models.core.errors import Invalid
 from models.instruments.tables import Authorisation, Instrument
 from models.people.tables import Person
@@ -16,6 +17,16 @@ ELEMENT_SYMBOLS = frozenset(
     "Br Kr Rb Sr Y Zr Nb Mo Tc Ru Rh Pd Ag Cd In Sn Sb Te I Xe Cs Ba La Ce Pr Nd Pm Sm Eu Gd Tb "
     "Dy Ho Er Tm Yb Lu Hf Ta W Re Os Ir Pt Au Hg Tl Pb Bi".split()
 )
+
+# Plausible ratings of an analytical X-ray tube, and sensible schedules (the forms show these ranges).
+# Generous outer bounds: analytical tubes run at tens of kV and up to a few kW (common practice).
+RANGES = {
+    "max_kv": (0.001, 500.0, "kV"), "max_ma": (0.001, 5000.0, "mA"), "max_power_w": (0.001, 100_000.0, "W"),
+    "surface_action_level_usv_h": (0.001, 10_000.0, "µSv/h"),
+    "housing_action_level_usv_h": (0.001, 10_000.0, "µSv/h"),
+    # The published outer bound for checks is 12 months (25 Pa. Code 227a.20); surveys at least yearly.
+    "check_interval_days": (1, 366, "days"), "survey_interval_days": (1, 730, "days"),
+}
 
 INSTRUMENT_FIELDS = (
     "name", "kind", "room", "registration_number", "anode", "max_kv", "max_ma", "max_power_w",
@@ -48,10 +59,12 @@ def validate_instrument(session: Session, values: dict, current: Instrument | No
         value = values.get(key)
         if value is None or not value > 0:  # also refuses NaN
             errors[key] = f"{label} must be greater than zero."
+        elif not within(value, *RANGES[key][:2]):
+            errors[key] = f"{label} must be from {range_text(*RANGES[key])}."
     for key in ("check_interval_days", "survey_interval_days"):
         value = values.get(key)
-        if value is None or value < 1:
-            errors[key] = "The interval must be at least one day."
+        if not within(value, *RANGES[key][:2]):
+            errors[key] = f"The interval must be from {range_text(*RANGES[key])}."
     if errors:
         raise Invalid(errors)
 

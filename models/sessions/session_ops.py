@@ -34,11 +34,11 @@ from models.surveys.tables import BypassPermit, SurveyTrigger
 # Power ratings are round numbers; kV x mA in floating point may land a hair above them.
 _POWER_TOLERANCE = 1e-9
 
-# Free-text fields and how much of each is kept.
 # The PostgreSQL exclusion constraint behind the overlap rule (migration 0015).
 _OVERLAP_CONSTRAINT = "ex_instrument_session_no_overlap"
 
-_TEXT_FIELDS = {"purpose": 300, "configuration_change": 5000, "notes": 5000}
+# Free-text fields and their longest accepted length; longer text is refused, never cut.
+TEXT_LIMITS = {"purpose": 300, "configuration_change": 5000, "notes": 5000}
 
 # Fields copied from the checked values onto the session row.
 _ROW_FIELDS = ("kv", "ma", "started_at", "ended_at", "beam_on_minutes", "purpose",
@@ -121,6 +121,14 @@ def _validate_settings(instrument: Instrument, kv, ma, errors: dict) -> None:
         if power > instrument.max_power_w * (1 + _POWER_TOLERANCE):
             errors["ma"] = (f"Tube power {kv:g} kV × {ma:g} mA = {power:g} W is above this "
                             f"instrument's rating of {instrument.max_power_w:g} W.")
+
+
+def _validate_texts(values: dict, errors: dict) -> None:
+    """Each free text within its length: refused with the field named, never cut."""
+    for key, limit in TEXT_LIMITS.items():
+        text = (values.get(key) or "").strip()
+        if len(text) > limit:
+            errors[key] = f"At most {limit:,} characters, please (this has {len(text):,})."
 
 
 def _validate_times(session: Session, values: dict, now: datetime, errors: dict) -> None:
@@ -237,6 +245,7 @@ def validate_session(
     if operator is None or not operator.active:
         raise Invalid.one("operator", "No active person with that login.")
     _validate_settings(instrument, values.get("kv"), values.get("ma"), errors)
+    _validate_texts(values, errors)
     _validate_times(session, values, now, errors)
     _validate_instrument(session, instrument, values, errors)
     start, end = values.get("started_at"), values.get("ended_at")
@@ -270,8 +279,8 @@ def _new_row(
     row = InstrumentSession(instrument_id=instrument.id, operator_id=operator.id, source=source)
     for key in _ROW_FIELDS:
         setattr(row, key, values.get(key))
-    for key, size in _TEXT_FIELDS.items():
-        setattr(row, key, (values.get(key) or "").strip()[:size] or None)
+    for key in TEXT_LIMITS:
+        setattr(row, key, (values.get(key) or "").strip() or None)
     row.purpose = row.purpose or ""
     row.configuration_changed = bool(values.get("configuration_changed"))
     if not row.configuration_changed:

@@ -8,10 +8,14 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
 from models.core.base import copy_fields, taken, utcnow
+from models.core.bounds import range_text, within
 from models.core.due_dates import calibration_due, calibration_valid_on, due_state
 from models.core.errors import Invalid
 from models.surveys.tables import SurveyMeter
 
+# Meters are calibrated yearly (a common state rule); three years is the outer bound accepted.
+CALIBRATION_MONTHS_RANGE = (1, 36)
+CORRECTION_RANGE = (0.0, 100.0)
 METER_FIELDS = ("serial", "model", "detector_type", "calibrated_on", "calibration_interval_months",
                 "correction_factor", "energy_response_notes")
 
@@ -27,8 +31,8 @@ def validate_meter(session: Session, values: dict, today: date, current: SurveyM
     errors.update(_calibration_errors(values.get("calibrated_on"),
                                       values.get("calibration_interval_months"), today))
     factor = values.get("correction_factor")
-    if factor is None or not factor > 0:  # also refuses NaN
-        errors["correction_factor"] = "The correction factor must be greater than zero."
+    if not within(factor, *CORRECTION_RANGE) or factor == 0:
+        errors["correction_factor"] = f"The correction factor must be above 0 and at most {CORRECTION_RANGE[1]:g}."
     if errors:
         raise Invalid(errors)
 
@@ -40,8 +44,9 @@ def _calibration_errors(calibrated_on: date | None, months: int | None, today: d
         errors["calibrated_on"] = "Enter the date of the meter's last calibration."
     elif calibrated_on > today:
         errors["calibrated_on"] = f"The calibration date {calibrated_on} is in the future."
-    if months is None or months < 1:
-        errors["calibration_interval_months"] = "The calibration interval must be at least one month."
+    if not within(months, *CALIBRATION_MONTHS_RANGE):
+        errors["calibration_interval_months"] = (
+            f"The calibration interval must be from {range_text(*CALIBRATION_MONTHS_RANGE, 'months')}.")
     return errors
 
 

@@ -40,7 +40,11 @@ GOOD = {"name": "XRD 1", "anode": "Cu", "max_kv": 60.0, "max_ma": 40.0, "max_pow
     ("max_power_w", 0.0, "Maximum power must be greater than zero."),
     ("name", "  ", "Enter the instrument's name."),
     ("anode", "Xx", "Give the anode as an element symbol, e.g. Cu or Mo."),
-    ("check_interval_days", 0, "The interval must be at least one day."),
+    ("check_interval_days", 0, "The interval must be from 1 to 366 days."),
+    # A check interval of 3,000,000 days once broke the due pages; a year is the published outer bound.
+    ("check_interval_days", 3_000_000, "The interval must be from 1 to 366 days."),
+    ("survey_interval_days", 731, "The interval must be from 1 to 730 days."),
+    ("max_kv", float("inf"), "Maximum tube voltage must be from 0.001 to 500 kV."),
 ])
 def test_instrument_rules(session, field, value, message):
     with pytest.raises(Invalid) as caught:

@@ -91,12 +91,13 @@ def test_a_dry_run_prints_and_records_nothing(app, session, late_lab, smtp_serve
     assert session.scalar(sa.select(sa.func.count()).select_from(ReminderSent)) == 0
 
 
-def test_the_calendar_feed_has_the_due_dates_and_an_old_address_stops(late_lab, login, client):
+def test_the_calendar_feed_has_the_due_dates_and_an_old_address_stops(app, late_lab, login, client):
     _, operator, _ = late_lab
     login(operator)
     page = client.post("/calendar/renew").text
     url = page.split('class="feed-url">')[1].split("<")[0]
-    path = url.split("localhost", 1)[1]
+    # The address is on BASE_URL, whatever host the request came to.
+    path = url.split(app.config["BASE_URL"], 1)[1]
     client.post("/logout")
     response = client.get(path)
     assert response.status_code == 200

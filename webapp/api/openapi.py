@@ -10,8 +10,8 @@ _ENTRY = {
     "properties": {
         "operator": {"type": "string", "description": "Login of the person at the instrument."},
         "supervisor": {"type": "string", "description": "Login of the supervising person; required when the operator is authorised on the instrument only as supervised, and that person must be independently authorised on it."},
-        "kv": {"type": "number", "exclusiveMinimum": 0, "description": "Tube voltage, kV; at most the rating."},
-        "ma": {"type": "number", "exclusiveMinimum": 0, "description": "Tube current, mA; at most the rating; kV x mA at most the rated power."},
+        "kv": {"type": "number", "minimum": 0, "exclusiveMinimum": True, "description": "Tube voltage, kV; at most the rating."},
+        "ma": {"type": "number", "minimum": 0, "exclusiveMinimum": True, "description": "Tube current, mA; at most the rating; kV x mA at most the rated power."},
         "purpose": {"type": "string", "maxLength": 300},
         "pre_use_checks_confirmed": {"type": "boolean", "description": "Warning light and shutter indicators seen working; must be true."},
         "dosimeter_worn": {"type": "boolean"},
@@ -19,8 +19,9 @@ _ENTRY = {
         "dosimeter": {"type": "string", "description": "Serial of one dosimeter; use 'dosimeters' for several."},
         "alignment": {"type": "boolean"},
         "configuration_changed": {"type": "boolean"},
-        "configuration_change": {"type": "string", "description": "Required when configuration_changed is true."},
-        "notes": {"type": "string"},
+        "configuration_change": {"type": "string", "maxLength": 5000,
+                                 "description": "Required when configuration_changed is true."},
+        "notes": {"type": "string", "maxLength": 5000},
         "caution_acknowledged": {"type": "boolean", "description": "Required true for alignment work or under an active bypass permit: the operator read the caution about the primary beam and ring dosimetry."},
         "started_at": {**_TIME, "description": "Defaults to now when opening; not in the future."},
     },
@@ -81,7 +82,17 @@ def _body(ref: str) -> dict:
 
 _ERRORS = {"401": _problem("Missing, unknown or revoked token."),
            "422": _problem("Refused by a rule; nothing written."),
-           "429": _problem("Too many requests from this token.")}
+           "429": _problem("Too many requests from this token."),
+           "default": _problem("Any other error (404, 405, 413, 500...), always as a problem document.")}
+_POST_ERRORS = {**_ERRORS, "400": _problem("Not a JSON object, not valid JSON, or nested too deeply."),
+                "413": _problem("Body larger than 64 KiB.")}
+
+
+def _created(description: str) -> dict:
+    """201 with the new session and a Location header naming it."""
+    return {**_json(description, {"$ref": "#/components/schemas/Session"}),
+            "headers": {"Location": {"description": "Where the new session can be read.",
+                                     "schema": {"type": "string"}}}}
 _SESSION_REF = {"$ref": "#/components/schemas/Session"}
 _IDEMPOTENCY_KEY = {
     "name": "Idempotency-Key", "in": "header", "required": False,
@@ -111,19 +122,24 @@ def document() -> dict:
                             "instrument": {"type": "string"}, "sessions": {"type": "array", "items": _SESSION_REF}}}),
                             **_ERRORS}},
                 "post": {"summary": "Open a session", "parameters": [_IDEMPOTENCY_KEY], "requestBody": _body("#/components/schemas/OpenSession"),
-                         "responses": {"201": _json("Opened", _SESSION_REF), "400": _problem("Not a JSON object."), **_ERRORS}},
+                         "responses": {"201": _created("Opened"), **_POST_ERRORS}},
             },
             "/sessions/finished": {
                 "post": {"summary": "Log a session that already ended", "parameters": [_IDEMPOTENCY_KEY],
                          "requestBody": _body("#/components/schemas/FinishedSession"),
-                         "responses": {"201": _json("Logged", _SESSION_REF), "400": _problem("Not a JSON object."), **_ERRORS}},
+                         "responses": {"201": _created("Logged"), **_POST_ERRORS}},
             },
             "/sessions/{session_id}/close": {
                 "post": {"summary": "End an open session",
                          "parameters": [{"name": "session_id", "in": "path", "required": True, "schema": {"type": "integer"}},
                                         _IDEMPOTENCY_KEY],
                          "requestBody": _body("#/components/schemas/CloseSession"),
-                         "responses": {"200": _json("Ended", _SESSION_REF), "404": _problem("No such session on this instrument."), **_ERRORS}},
+                         "responses": {"200": _json("Ended", _SESSION_REF), "404": _problem("No such session on this instrument."), **_POST_ERRORS}},
+            },
+            "/sessions/{session_id}": {
+                "get": {"summary": "One session of the token's instrument",
+                        "parameters": [{"name": "session_id", "in": "path", "required": True, "schema": {"type": "integer"}}],
+                        "responses": {"200": _json("The session", _SESSION_REF), "404": _problem("No such session on this instrument."), **_ERRORS}},
             },
             "/openapi.json": {
                 "get": {"summary": "This document", "security": [],

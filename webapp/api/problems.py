@@ -4,6 +4,8 @@ from __future__ import annotations
 from flask import Response, json
 
 MEDIA_TYPE = "application/problem+json"
+# Every answer under this path is JSON, errors included.
+API_PREFIX = "/api/v1/"
 
 
 def problem(status: int, title: str, detail: str, errors: dict[str, str] | None = None,

@@ -1,15 +1,17 @@
 """API v1 endpoints: open, close, log and list the sessions of the token's instrument."""
 from __future__ import annotations
 
-from datetime import datetime
+import math
+from datetime import UTC, datetime
 from functools import wraps
 
 import sqlalchemy as sa
-from flask import Response, abort, g, json, jsonify, request
+from flask import Response, abort, g, json, jsonify, request, url_for
 from werkzeug.exceptions import HTTPException
 
 from models.audit.audit_ops import set_actor
 from models.core.base import utcnow
+from models.core.bounds import date_in_range
 from models.core.errors import Invalid, errors_of
 from models.doses.tables import Dosimeter
 from models.due.start_ops import start_session, validate_starting
@@ -19,6 +21,7 @@ from models.people.person_ops import find_person
 from models.people.tables import Person
 from models.sessions.session_ops import (
     MAX_DOSIMETERS,
+    TEXT_LIMITS,
     close_session,
     figures,
     find_sessions,
@@ -30,6 +33,7 @@ from webapp.api import v1
 from webapp.api.openapi import document
 from webapp.api.problems import problem
 from webapp.extensions import db, limiter
+from webapp.forms import MULTI_LINE_FORBIDDEN, SINGLE_LINE_FORBIDDEN, query_int
 
 NUMBERS = ("kv", "ma", "beam_on_minutes")
 FLAGS = ("pre_use_checks_confirmed", "dosimeter_worn", "alignment", "configuration_changed",
@@ -37,6 +41,10 @@ FLAGS = ("pre_use_checks_confirmed", "dosimeter_worn", "alignment", "configurati
 TEXTS = ("purpose", "configuration_change", "notes")
 TIMES = ("started_at", "ended_at")
 REFUSED = "The entry breaks one or more of the logbook's rules; nothing was written."
+SINGLE_LINE = {"purpose"}
+# An instrument PC sends a few hundred bytes of flat JSON; anything far beyond is refused unread.
+MAX_BODY_BYTES = 64 * 1024
+MAX_DEPTH = 4
 
 
 def _token_key() -> str:
@@ -80,22 +88,55 @@ def _authenticate():
     return None
 
 
+def _depth(value, limit: int) -> int:
+    """How deeply lists and objects nest in a JSON value, counted no further than `limit` + 1."""
+    if limit < 0 or not isinstance(value, (dict, list)):
+        return 0
+    children = value.values() if isinstance(value, dict) else value
+    return 1 + max((_depth(child, limit - 1) for child in children), default=0)
+
+
 def _body() -> dict:
-    """The JSON object sent, or a 400 problem."""
-    body = request.get_json(silent=True)
+    """The JSON object sent, or a 400/413 problem: small, shallow and readable, or refused."""
+    if not request.is_json:
+        abort(400, "Send a JSON object with Content-Type: application/json.")
+    if (request.content_length or 0) > MAX_BODY_BYTES:
+        abort(413, f"A request body may be at most {MAX_BODY_BYTES // 1024} KiB.")
+    raw = request.get_data(cache=True)
+    if len(raw) > MAX_BODY_BYTES:
+        abort(413, f"A request body may be at most {MAX_BODY_BYTES // 1024} KiB.")
+    try:
+        body = json.loads(raw)
+    except (ValueError, RecursionError):  # RecursionError: nesting deeper than the parser goes
+        abort(400, "The body is not valid JSON.")
     if not isinstance(body, dict):
         abort(400, "Send a JSON object with Content-Type: application/json.")
+    if _depth(body, MAX_DEPTH) > MAX_DEPTH:
+        abort(400, f"The JSON nests deeper than {MAX_DEPTH} levels.")
     return body
 
 
 def _time(text) -> datetime:
-    """An ISO 8601 time with its offset, as aware UTC."""
-    if not isinstance(text, str):
+    """An ISO 8601 time with its offset, as aware UTC, from 1950 to 2100."""
+    if not isinstance(text, str) or len(text) > 40:
         raise ValueError
     moment = datetime.fromisoformat(text.replace("Z", "+00:00"))
-    if moment.tzinfo is None:
+    if moment.tzinfo is None or not date_in_range(moment):
         raise ValueError
-    return moment
+    try:
+        return moment.astimezone(UTC)
+    except OverflowError:  # 9999-12-31 with a negative offset lies past the last representable time
+        raise ValueError from None
+
+
+def _text_error(key: str, value: str) -> str | None:
+    """Why a text is refused (too long, control characters), or None."""
+    if len(value) > TEXT_LIMITS[key]:
+        return f"'{key}' may be at most {TEXT_LIMITS[key]} characters (it has {len(value)})."
+    pattern = SINGLE_LINE_FORBIDDEN if key in SINGLE_LINE else MULTI_LINE_FORBIDDEN
+    if pattern.search(value):
+        return f"'{key}' contains control characters; remove them."
+    return None
 
 
 def _values(body: dict, operator: Person | None) -> tuple[dict, dict]:
@@ -103,10 +144,16 @@ def _values(body: dict, operator: Person | None) -> tuple[dict, dict]:
     values, errors = {}, {}
     for key in NUMBERS:
         value = body.get(key)
-        if value is not None and (isinstance(value, bool) or not isinstance(value, (int, float))):
+        if value is None:
+            values[key] = None
+        elif isinstance(value, bool) or not isinstance(value, (int, float)):
             errors[key] = f"'{key}' must be a number."
+            values[key] = None
+        elif not _finite(value):
+            errors[key] = f"'{key}' must be a finite number."
+            values[key] = None
         else:
-            values[key] = float(value) if value is not None else None
+            values[key] = float(value)
     for key in FLAGS:
         value = body.get(key, False)
         if not isinstance(value, bool):
@@ -116,6 +163,9 @@ def _values(body: dict, operator: Person | None) -> tuple[dict, dict]:
         value = body.get(key)
         if value is not None and not isinstance(value, str):
             errors[key] = f"'{key}' must be text."
+        elif isinstance(value, str) and (problem_text := _text_error(key, value)):
+            errors[key] = problem_text
+            value = None
         values[key] = value if isinstance(value, str) else None
     for key in TIMES:
         if body.get(key) is None:
@@ -140,7 +190,7 @@ def _values(body: dict, operator: Person | None) -> tuple[dict, dict]:
     values["supervisor_id"] = None
     supervisor = body.get("supervisor")
     if supervisor is not None:
-        person = find_person(db.session, supervisor.strip()) if isinstance(supervisor, str) else None
+        person = find_person(db.session, supervisor.strip()) if _plain_name(supervisor) else None
         if person is None:
             errors["supervisor"] = "'supervisor' must be the login of a person in the logbook."
         else:
@@ -153,19 +203,32 @@ def _serials(body: dict) -> tuple[list[str] | None, str]:
     if "dosimeters" in body:
         given = body["dosimeters"]
         ok = (isinstance(given, list) and len(given) <= MAX_DOSIMETERS
-              and all(isinstance(s, str) and 0 < len(s) <= 64 for s in given))
+              and all(_plain_name(s) and 0 < len(s) <= 64 for s in given))
         return (given if ok else None), "dosimeters"
     given = body.get("dosimeter")
     if given is None:
         return [], "dosimeter"
-    ok = isinstance(given, str) and 0 < len(given) <= 64
+    ok = _plain_name(given) and 0 < len(given) <= 64
     return ([given] if ok else None), "dosimeter"
+
+
+def _finite(value: int | float) -> bool:
+    """True for a number a float holds exactly enough and that is not infinite or NaN."""
+    try:
+        return math.isfinite(float(value))
+    except OverflowError:  # an integer with hundreds of digits
+        return False
+
+
+def _plain_name(value) -> bool:
+    """True for a short single-line text, such as a login or a serial."""
+    return isinstance(value, str) and len(value) <= 200 and not SINGLE_LINE_FORBIDDEN.search(value)
 
 
 def _operator(body: dict) -> Person | None:
     """The operator named by login in the body."""
     login = body.get("operator")
-    return find_person(db.session, login.strip()) if isinstance(login, str) else None
+    return find_person(db.session, login.strip()) if _plain_name(login) else None
 
 
 def _api_names(errors: dict, dosimeter_key: str) -> dict:
@@ -232,12 +295,12 @@ def idempotent(view):
     return run
 
 
-def _answer(payload: dict, status: int):
+def _answer(payload: dict, status: int, headers: dict | None = None):
     """Commit the write together with the answer kept for its Idempotency-Key, and send it."""
     if g.get("idempotency_claim") is not None:
         idempotency_ops.settle(db.session, g.idempotency_claim, status, json.dumps(payload))
     db.session.commit()
-    return jsonify(payload), status
+    return jsonify(payload), status, headers or {}
 
 
 @v1.post("/sessions")
@@ -248,7 +311,7 @@ def open_():
     now = utcnow()
     operator, values = _validated(body, lambda op, v: validate_starting(db.session, instrument, op, v, now))
     entry = start_session(db.session, instrument, operator, values, source=EntrySource.API, now=now)
-    return _answer(as_json(entry), 201)
+    return _answer(as_json(entry), 201, _where(entry))
 
 
 @v1.post("/sessions/finished")
@@ -258,7 +321,21 @@ def finished():
     instrument, body = g.instrument, _body()
     operator, values = _validated(body, lambda op, v: validate_finished(db.session, instrument, op, v))
     entry = log_finished_session(db.session, instrument, operator, values, source=EntrySource.API)
-    return _answer(as_json(entry), 201)
+    return _answer(as_json(entry), 201, _where(entry))
+
+
+def _where(entry: InstrumentSession) -> dict:
+    """The Location header of a new session: where it can be read."""
+    return {"Location": url_for("api.v1.show", session_id=entry.id)}
+
+
+@v1.get("/sessions/<int:session_id>")
+def show(session_id: int):
+    """One session of the token's instrument."""
+    entry = db.session.get(InstrumentSession, session_id)
+    if entry is None or entry.instrument_id != g.instrument.id:
+        abort(404, f"No session {session_id} on this instrument.")
+    return jsonify(as_json(entry))
 
 
 @v1.post("/sessions/<int:session_id>/close")
@@ -288,9 +365,11 @@ def list_():
                 bounds[key] = _time(request.args[key])
             except ValueError:
                 raise Invalid({key: f"'{key}' must be an ISO 8601 time with its offset."}) from None
+    limit = query_int("limit", None, high=1000) if request.args.get("limit") else 100
+    if limit is None:
+        raise Invalid({"limit": "'limit' must be a whole number from 1 to 1000."})
     rows = find_sessions(db.session, instrument=g.instrument, start=bounds.get("from"),
-                         end=bounds.get("to"),
-                         limit=min(max(request.args.get("limit", 100, type=int), 1), 1000))
+                         end=bounds.get("to"), limit=limit)
     return jsonify({"instrument": g.instrument.name, "sessions": [as_json(s) for s in rows]})
 
 

@@ -17,6 +17,7 @@ from webapp.access import roles_required
 from webapp.audit import bp
 from webapp.extensions import db
 from webapp.formatting import day_start
+from webapp.forms import query_int
 
 
 @bp.route("/audit/")
@@ -25,13 +26,13 @@ def index():
     """A page of audit events; an admin without the safety officer role sees no dose content."""
     officer = current_user.has_role(Role.SAFETY_OFFICER)
     entity = request.args.get("entity", "")
-    actor = db.session.get(Person, request.args.get("person", 0, type=int))
+    actor = db.session.get(Person, query_int("person", 0))
     until = day_start(request.args.get("to"))
     chosen = EventFilter(entity or None, actor.id if actor else None, day_start(request.args.get("from")),
                          until + timedelta(days=1) if until else None,
                          frozenset() if officer else DOSE_ENTITIES)
-    before = request.args.get("before", type=int)
-    events, next_before = event_page(db.session, chosen, before if before and 0 < before < 2**63 else None)
+    before = query_int("before")
+    events, next_before = event_page(db.session, chosen, before)
     actors = {p.id: p for p in db.session.scalars(
         sa.select(Person).where(Person.id.in_({e.actor_id for e in events if e.actor_id})))}
     entities = db.session.scalars(sa.select(AuditEvent.entity).distinct().order_by(AuditEvent.entity))

@@ -1,12 +1,12 @@
 """Forms for logging in, changing a password and resetting a forgotten one."""
-from flask_wtf import FlaskForm
 from wtforms import PasswordField, StringField
 from wtforms.validators import DataRequired, EqualTo, Length
 
+from webapp.forms import LogbookForm
 from webapp.passwords import MAX_LENGTH, strong_password
 
 
-class LoginForm(FlaskForm):
+class LoginForm(LogbookForm):
     """Login name and password."""
 
     login = StringField("Login", validators=[DataRequired(), Length(max=64)])
@@ -18,7 +18,7 @@ def _about_person(form) -> list[str]:
     return [form.person.login, form.person.name, form.person.email or ""]
 
 
-class NewPasswordForm(FlaskForm):
+class NewPasswordForm(LogbookForm):
     """A new password for a given person, typed twice."""
 
     password = PasswordField("New password", validators=[
@@ -39,7 +39,7 @@ class ChangePasswordForm(NewPasswordForm):
         DataRequired("Enter your current password."), Length(max=MAX_LENGTH)])
 
 
-class ResetRequestForm(FlaskForm):
+class ResetRequestForm(LogbookForm):
     """Who forgot their password."""
 
     login = StringField("Login", validators=[DataRequired("Enter your login."), Length(max=64)])

@@ -3,7 +3,6 @@ from __future__ import annotations
 
 from datetime import datetime
 
-from flask_wtf import FlaskForm
 from wtforms import DateTimeLocalField, RadioField, SelectChoice, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, Length, Optional
 
@@ -14,12 +13,13 @@ from models.core.base import utcnow
 from models.instruments.tables import ChecklistItem
 from models.surveys.tables import SurveyMeter
 from webapp.formatting import from_local, lab_zone
+from webapp.forms import LogbookForm
 
 WHEN_FORMAT = "%Y-%m-%dT%H:%M"
 NO_METER = ""
 
 
-class CheckForm(FlaskForm):
+class CheckForm(LogbookForm):
     """When, which meter, notes; one result and comment field per item are added per checklist."""
 
     performed_at = DateTimeLocalField("When the check was done (lab time)", format=WHEN_FORMAT,
@@ -72,20 +72,20 @@ def check_form(items: list[ChecklistItem], meters: list[SurveyMeter]) -> CheckFo
     return form
 
 
-class ItemForm(FlaskForm):
+class ItemForm(LogbookForm):
     """The wording of one checklist item."""
 
     text = StringField("Item", validators=[DataRequired("Say what is to be tested."),
                                            Length(max=MAX_TEXT)])
 
 
-class ReasonForm(FlaskForm):
+class ReasonForm(LogbookForm):
     """Why an item is taken off (or put back on) the list."""
 
     reason = StringField("Reason", validators=[DataRequired("Say why."), Length(max=500)])
 
 
-class ControlForm(FlaskForm):
+class ControlForm(LogbookForm):
     """Temporary written controls and their expiry."""
 
     description = TextAreaField(

@@ -45,7 +45,7 @@ from webapp.checks.forms import ControlForm, ItemForm, ReasonForm, check_form
 from webapp.extensions import db
 from webapp.formatting import local
 from webapp.forms import error_text, validate_with
-from webapp.mail import tell_safety_officer
+from webapp.mail import link, tell_safety_officer
 from webapp.slots import Attention, Severity, attention, instrument_sections, request_hooks, settings_sections
 
 
@@ -57,11 +57,11 @@ def _lapse_controls() -> None:
     """
     held = lapse_expired_controls(db.session, utcnow())
     if held:
-        db.session.commit()
         for instrument in held:
             tell_safety_officer(f"{instrument.name} is out of service: temporary controls expired",
                                 f"{instrument.out_of_service_reason}\n\nRecord a passing check or "
                                 "new temporary controls to return it to service.")
+        db.session.commit()
 
 
 def _instrument(instrument_id: int) -> Instrument:
@@ -96,15 +96,15 @@ def new(instrument_id: int):
     if validate_with(form, validate):
         safety_check = record_check(db.session, instrument, current_user, form.performed_at_utc(),
                                     form.answers(items), meter(), form.notes.data, now)
-        db.session.commit()
         if not safety_check.passed:
             _tell_failure(safety_check)
+        db.session.commit()
         return redirect(url_for("checks.show", check_id=safety_check.id))
     return render_template("checks/new.html", instrument=instrument, form=form, items=items)
 
 
 def _tell_failure(safety_check: SafetyCheck) -> None:
-    """E-mail the safety officer about a failed check at once."""
+    """Queue the safety officer's alert about a failed check, committed with the check."""
     instrument = safety_check.instrument
     lines = "\n".join(f"- {r.item_text}: {r.comment}" for r in failed_items(safety_check))
     tell_safety_officer(
@@ -112,7 +112,7 @@ def _tell_failure(safety_check: SafetyCheck) -> None:
         f"{safety_check.performed_by.name} recorded a failed safety-device check of "
         f"{instrument.name} ({instrument.room}).\n\nFailed items:\n{lines}\n\n"
         f"Status now: {'in service' if instrument.in_service else 'out of service'}.\n"
-        f"{url_for('checks.show', check_id=safety_check.id, _external=True)}")
+        f"{link('checks.show', check_id=safety_check.id)}")
 
 
 @bp.route("/checks/<int:check_id>")

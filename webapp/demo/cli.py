@@ -14,6 +14,7 @@ from webapp.demo import bp
 from webapp.demo.lab import DEMO_PASSWORD, LAB_ZONE, PEOPLE, is_empty, load_demo_lab
 from webapp.exposure.notify import tell_about
 from webapp.extensions import db
+from webapp.mail import deliver_queued
 from webapp.passwords import hash_password
 
 
@@ -35,8 +36,9 @@ def load(if_empty, today):
         summary = load_demo_lab(db.session, day, hash_password(DEMO_PASSWORD))
     # As after any import: doses over a level raise investigations for the safety officer.
     raised = review_after_dose_change(db.session, day)
+    tell_about(raised)  # queued with the change, sent after the commit
     db.session.commit()
-    tell_about(raised)
+    deliver_queued()
     click.echo(f"Loaded the demo lab up to {day.isoformat()}: {summary.people} people, "
                f"{summary.instruments} instruments, {summary.sessions} sessions, "
                f"{summary.checks} checks, {summary.surveys} surveys, "

@@ -14,6 +14,7 @@ from webapp.doses import bp
 from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today
+from webapp.mail import deliver_queued
 
 
 @bp.cli.command("import")
@@ -53,9 +54,10 @@ def import_report(file, mapping, dry_run):
         db.session.rollback()
         raise click.ClickException(" ".join(error.errors.values())) from error
     raised = review_after_dose_change(db.session, lab_today())
+    tell_about(raised)  # queued with the change, sent after the commit
     db.session.commit()
+    deliver_queued()
     click.echo(f"Imported {batch.row_count} dose records as batch #{batch.id}.")
-    tell_about(raised)
     for investigation in raised:
         click.echo(f"Investigation raised: {investigation_label(investigation)} "
                    f"({investigation.person.name}).")

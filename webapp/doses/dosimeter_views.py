@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import sqlalchemy as sa
-from flask import abort, flash, redirect, render_template, request, url_for
+from flask import abort, flash, redirect, render_template, url_for
 from sqlalchemy.orm import joinedload
 
 from models.doses.dosimeter_ops import (
@@ -20,7 +20,7 @@ from webapp.doses.forms import IssueForm, ReturnForm, worn_to_kind
 from webapp.doses.views import people_choices
 from webapp.extensions import db
 from webapp.formatting import lab_today
-from webapp.forms import error_text, validate_with
+from webapp.forms import error_text, query_int, validate_with
 
 
 @bp.route("/doses/dosimeters/")
@@ -40,7 +40,7 @@ def issue():
     form = IssueForm()
     form.wearer.choices = people_choices()
     if not form.is_submitted():
-        form.wearer.data = request.args.get("person", type=int)
+        form.wearer.data = query_int("person")
         form.issued_on.data = lab_today()
 
     def validate(f):

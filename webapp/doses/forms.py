@@ -1,7 +1,6 @@
 """Forms for dosimeters, dose records, report imports and pregnancy declarations."""
 from __future__ import annotations
 
-from flask_wtf import FlaskForm
 from flask_wtf.file import FileField, FileRequired
 from wtforms import DateField, FloatField, SelectChoice, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
@@ -12,7 +11,7 @@ from models.core.units import DOSE_UNITS
 from models.doses.import_ops import FIELD_LABELS, FIELDS, ISO_DATE
 from models.doses.record_ops import DoseEntry
 from models.doses.tables import SOURCE_LABELS, DoseSource, DosimeterKind, ExchangeCycle, Hand
-from webapp.forms import choices
+from webapp.forms import LogbookForm, choices
 
 # Kind and hand in one choice, since a ring always names its hand.
 WORN_CHOICES = [SelectChoice("whole_body", "Whole body"), SelectChoice("ring_left", "Ring, left hand"),
@@ -27,7 +26,15 @@ def worn_to_kind(worn: str) -> tuple[DosimeterKind, Hand | None]:
     return DosimeterKind(worn), None
 
 
-class DoseForm(FlaskForm):
+def _member(cls, value):
+    """The enum member for a submitted value, or None when it is not one."""
+    try:
+        return cls(value)
+    except ValueError:
+        return None
+
+
+class DoseForm(LogbookForm):
     """One dose result."""
 
     person = SelectField("Person", coerce=int, validators=[InputRequired("Choose whose dose this is.")])
@@ -65,7 +72,7 @@ class AmendForm(DoseForm):
                            description="Kept with the new version; the earlier version stays as it was.")
 
 
-class IssueForm(FlaskForm):
+class IssueForm(LogbookForm):
     """Issue a dosimeter to a wearer."""
 
     wearer = SelectField("Wearer", coerce=int, validators=[InputRequired("Choose the wearer.")])
@@ -77,20 +84,20 @@ class IssueForm(FlaskForm):
                                  description="Wear periods follow calendar months or quarters.")
 
 
-class ReturnForm(FlaskForm):
+class ReturnForm(LogbookForm):
     """The day a dosimeter came back for good."""
 
     returned_on = DateField("Returned on", validators=[InputRequired("Enter the return date.")])
 
 
-class UploadForm(FlaskForm):
+class UploadForm(LogbookForm):
     """A dosimetry report and the layout to read it with."""
 
     file = FileField("Report (CSV)", validators=[FileRequired("Choose the CSV file.")])
     layout = SelectField("Columns", description="How to read the file's columns.")
 
 
-class MappingForm(FlaskForm):
+class MappingForm(LogbookForm):
     """Which of the file's columns gives each field."""
 
     name = StringField("Name of this mapping", validators=[Length(max=120)],
@@ -105,14 +112,14 @@ for _name in FIELDS:
     setattr(MappingForm, _name, SelectField(FIELD_LABELS[_name], validate_choice=False))
 
 
-class DeclareForm(FlaskForm):
+class DeclareForm(LogbookForm):
     """The date of a pregnancy declaration."""
 
     declared_on = DateField("Date of the declaration", validators=[
         InputRequired("Enter the date of the declaration.")])
 
 
-class EndForm(FlaskForm):
+class EndForm(LogbookForm):
     """The day a declaration stops applying."""
 
     ended_on = DateField("Date", validators=[InputRequired("Enter the date.")])

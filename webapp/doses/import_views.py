@@ -14,6 +14,7 @@ from wtforms import SelectChoice
 from models.core.errors import Invalid
 from models.doses.import_ops import (
     FIELDS,
+    MAX_ROWS,
     PRODUCT_LAYOUT,
     Layout,
     commit_report,
@@ -27,6 +28,7 @@ from models.doses.tables import DoseRecord, ImportBatch, ImportMapping
 from models.exposure.investigation_ops import review_after_dose_change
 from models.people.tables import Role
 from webapp.access import roles_required
+from webapp.config import upload_limit_text
 from webapp.doses import bp
 from webapp.doses.forms import MappingForm, UploadForm
 from webapp.exposure.notify import tell_about
@@ -35,6 +37,8 @@ from webapp.formatting import lab_today
 from webapp.forms import error_text, validate_with
 
 NEW_MAPPING = "new"
+# The preview shows counts and this many rows and problems, not a page per row of a large file.
+PREVIEW_ROWS = 50
 _SHA = re.compile(r"[0-9a-f]{64}")
 
 
@@ -81,6 +85,8 @@ def import_upload():
     form = UploadForm()
     form.layout.choices = ([SelectChoice("", "The logbook's own layout")] + [SelectChoice(str(m.id), m.name) for m in mappings]
                            + [SelectChoice(NEW_MAPPING, "A new mapping: choose the columns")])
+    form.file.description = (f"At most {upload_limit_text(current_app.config)} and "
+                             f"{MAX_ROWS:,} rows; split a larger report.")
     if form.validate_on_submit():
         sha = _store(form.file.data.read())
         filename = (form.file.data.filename or "report.csv")[:255]
@@ -125,7 +131,7 @@ def import_preview(sha: str):
     filename = request.args.get("filename", "report.csv")
     preview = validate_report(db.session, _stored(sha), _layout(layout_key), filename)
     return render_template("doses/preview.html", preview=preview, layout_key=layout_key,
-                           date_words=date_format_words)
+                           date_words=date_format_words, shown=PREVIEW_ROWS)
 
 
 @bp.route("/doses/import/<sha>/commit", methods=["POST"])
@@ -145,8 +151,8 @@ def import_commit(sha: str):
         flash(f"This file was already imported (batch #{preview.earlier.id}); nothing was added.", "warning")
         return redirect(url_for("doses.import_batch", batch_id=preview.earlier.id))
     raised = review_after_dose_change(db.session, lab_today())
+    tell_about(raised)  # queued with the change, sent after the commit
     db.session.commit()
-    tell_about(raised)
     os.remove(_upload_path(sha))
     flash(f"Imported {batch.row_count} dose records as batch #{batch.id}.", "info")
     return redirect(url_for("doses.import_batch", batch_id=batch.id))

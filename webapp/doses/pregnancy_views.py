@@ -26,7 +26,7 @@ from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today
 from webapp.forms import validate_with
-from webapp.mail import tell_safety_officer
+from webapp.mail import link, tell_safety_officer
 
 # Who may do what: the person declares and withdraws; the safety officer declares for them and
 # records the end of the pregnancy.
@@ -103,14 +103,13 @@ def pregnancy_change(person_id: int, action: str):
 
     if not (changed := validate_with(form, change)):
         return _page(person_id, declare_form, end_form, 400)
-    raised = changed.value
-    db.session.commit()
-    tell_about(raised)
+    tell_about(changed.value)
     if action == "declare" and current_user.id == person_id:
         tell_safety_officer("A declaration needs your review",
                             f"{subject.name} recorded a pregnancy declaration dated "
                             f"{declare_form.declared_on.data}. Please talk with them about work "
-                            f"arrangements: {url_for('doses.pregnancy', person_id=person_id, _external=True)}")
+                            f"arrangements: {link('doses.pregnancy', person_id=person_id)}")
+    db.session.commit()
     flash({"declare": "Declaration recorded.", WITHDRAWN: "Declaration withdrawn.",
            ENDED: "Declaration ended."}[action], "info")
     return redirect(url_for("doses.pregnancy", person_id=person_id))

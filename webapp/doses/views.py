@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import sqlalchemy as sa
-from flask import abort, flash, redirect, render_template, request, url_for
+from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 from sqlalchemy.orm import joinedload
 from wtforms import SelectChoice
@@ -22,7 +22,7 @@ from webapp.doses.forms import AmendForm, DoseForm
 from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today
-from webapp.forms import validate_with
+from webapp.forms import query_int, validate_with
 from webapp.slots import Attention, Severity, attention, home_panels, navigation
 
 # Everyone who may have dose records of their own; an admin alone has none to see.
@@ -108,12 +108,12 @@ def new():
     form.person.choices = people_choices()
     form.dosimeter.choices = _dosimeter_choices()
     if not form.is_submitted():
-        form.person.data = request.args.get("person", type=int)
+        form.person.data = query_int("person")
     if validate_with(form, lambda f: validate_entry(db.session, f.entry())):
         added = add_dose_record(db.session, form.entry(), created_by_id=current_user.id)
         raised = review_after_dose_change(db.session, lab_today())
+        tell_about(raised)  # queued with the change, sent after the commit
         db.session.commit()
-        tell_about(raised)
         flash("Dose record saved.", "info")
         return redirect(url_for("doses.record", record_id=added.id))
     return render_template("doses/record_form.html", form=form, original=None)
@@ -143,8 +143,8 @@ def amend(record_id: int):
         version = amend_dose_record(db.session, original, entry(form), form.reason.data,
                                     created_by_id=current_user.id)
         raised = review_after_dose_change(db.session, lab_today())
+        tell_about(raised)  # queued with the change, sent after the commit
         db.session.commit()
-        tell_about(raised)
         flash(f"Saved as version {version.version}; version {original.version} stays on file.", "info")
         return redirect(url_for("doses.record", record_id=version.id))
     return render_template("doses/record_form.html", form=form, original=original)

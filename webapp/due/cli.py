@@ -1,10 +1,8 @@
 """`flask reminders send [--dry-run]`: e-mail what is due, for cron or a systemd timer."""
 from __future__ import annotations
 
-import smtplib
-
 import click
-from flask import current_app, url_for
+from flask import current_app
 
 from models.audit.verify_ops import chain_head
 from models.checks.check_ops import lapse_expired_controls
@@ -16,7 +14,7 @@ from models.due.reminder_ops import Reminder, anchor_key, anchor_sent, plan_remi
 from webapp.due import bp
 from webapp.due.views import target_url
 from webapp.extensions import db
-from webapp.mail import safety_officer_addresses, send_mail, tell_safety_officer
+from webapp.mail import deliver_queued, link, safety_officer_addresses, send_mail, tell_safety_officer
 
 
 def compose(reminder: Reminder, lab_name: str, today) -> tuple[list[str], str, str]:
@@ -45,7 +43,7 @@ def compose(reminder: Reminder, lab_name: str, today) -> tuple[list[str], str, s
         subject = f"{lab_name}: {counts} for you"
         body = (f"Hello {reminder.person.name},\n\nThese safety tasks are due soon or late for you "
                 f"on {today}:\n\n{listing}")
-    body += f"\n\nThe full list: {url_for('due.index', _external=True)}"
+    body += f"\n\nThe full list: {link('due.index')}"
     return to, subject, body
 
 
@@ -63,11 +61,10 @@ def send(dry_run: bool):
     for instrument in held:
         click.echo(f"{instrument.name}: temporary controls expired; now out of service.")
     if not dry_run:
-        session.commit()
         for instrument in held:
             tell_safety_officer(f"{instrument.name} is out of service: temporary controls expired",
                                 instrument.out_of_service_reason)
-    failures = 0
+        session.commit()
     with current_app.test_request_context(base_url=current_app.config["BASE_URL"]):
         reminders = plan_reminders(session, now)
         for reminder in reminders:
@@ -75,34 +72,31 @@ def send(dry_run: bool):
             if dry_run:
                 click.echo(f"Would send to {', '.join(a for a in to if a)}: {subject}\n{body}\n")
                 continue
-            try:
-                sent = send_mail(to, subject, body)
-            except (smtplib.SMTPException, OSError) as error:
-                failures += 1
-                click.echo(f"Not sent to {', '.join(to)}: {error}", err=True)
-                continue
-            if sent:
+            # Queued and recorded together: a reminder is never lost nor queued twice.
+            if send_mail(to, subject, body):
                 record_sent(session, reminder, now)
                 session.commit()
-                click.echo(f"Sent to {', '.join(a for a in to if a)}: {subject}")
+                click.echo(f"Queued for {', '.join(a for a in to if a)}: {subject}")
             else:
-                click.echo(f"Not sent (no mail server or no address): {subject}", err=True)
-    if not _mail_anchor(now, dry_run):
-        failures += 1
+                click.echo(f"Not queued (no address): {subject}", err=True)
+    _mail_anchor(now, dry_run)
     if dry_run:
         session.rollback()
     if not reminders:
         click.echo("Nothing new to remind.")
-    if failures:
+    delivery = deliver_queued()
+    if delivery:
+        click.echo(f"Sent {delivery.sent}; not sent {delivery.failed} (retried by `flask mail send-pending`).")
+    if delivery.failed:
         raise SystemExit(1)
 
 
-def _mail_anchor(now, dry_run: bool) -> bool:
-    """Once a month, e-mail the safety officers the head of the audit trail to keep; False if it failed."""
+def _mail_anchor(now, dry_run: bool) -> None:
+    """Once a month, queue for the safety officers the head of the audit trail to keep."""
     session = db.session
     key = anchor_key(lab_date(session, now))
     if anchor_sent(session, key):
-        return True
+        return
     line = chain_head(session).line()
     subject = f"{lab_settings(session).lab_name}: audit trail anchor for {key.rsplit(':', 1)[1]}"
     body = (f"{line}\n\nKeep this line outside the logbook (a file, a printout, another mailbox). "
@@ -110,14 +104,9 @@ def _mail_anchor(now, dry_run: bool) -> bool:
             "later removed or rewritten.")
     if dry_run:
         click.echo(f"Would send to the safety officers: {subject}\n{body}\n")
-        return True
-    try:
-        sent = send_mail(safety_officer_addresses(), subject, body)
-    except (smtplib.SMTPException, OSError) as error:
-        click.echo(f"Audit anchor not sent: {error}", err=True)
-        return False
-    if sent:
+        return
+    # Queued and recorded together, like the reminders.
+    if send_mail(safety_officer_addresses(), subject, body):
         record_anchor_sent(session, key, now)
         session.commit()
-        click.echo(f"Sent the audit anchor to the safety officers: {subject}")
-    return True
+        click.echo(f"Queued the audit anchor for the safety officers: {subject}")

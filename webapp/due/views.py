@@ -23,6 +23,7 @@ from models.people.tables import Role
 from webapp.due import bp
 from webapp.extensions import db, limiter
 from webapp.formatting import settings
+from webapp.mail import link
 from webapp.slots import Attention, Severity, attention, home_panels, navigation, settings_sections
 
 STATE_CLASS = {due_dates.OVERDUE: "state-bad", due_dates.NEVER_DONE: "state-bad", due_dates.DUE_SOON: "state-warn",
@@ -42,16 +43,17 @@ navigation.add("What is due", "due.index", {Role.OPERATOR, Role.SAFETY_OFFICER},
 
 
 def target_url(item: DueItem, external: bool = False) -> str:
-    """The page where the item is acted on."""
+    """The page where the item is acted on; `external` gives a full address on BASE_URL."""
+    build = link if external else url_for
     if item.target_kind in OTHER_TARGETS:
         endpoint, arg = OTHER_TARGETS[item.target_kind]
         try:
-            return url_for(endpoint, **{arg: item.target_id}, _external=external)
+            return build(endpoint, **{arg: item.target_id})
         except BuildError:
             pass
     if item.instrument_id is not None:
-        return url_for("instruments.show", instrument_id=item.instrument_id, _external=external)
-    return url_for("due.index", _external=external)
+        return build("instruments.show", instrument_id=item.instrument_id)
+    return build("due.index")
 
 
 @bp.context_processor
@@ -120,7 +122,7 @@ def renew():
     token = renew_token(db.session, current_user)
     db.session.commit()
     return render_template("due/calendar.html",
-                           feed_url=url_for("due.feed", token=token, _external=True))
+                           feed_url=link("due.feed", token=token))
 
 
 @bp.route("/calendar/stop", methods=["POST"])

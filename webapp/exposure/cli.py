@@ -26,6 +26,7 @@ from webapp.exposure import bp
 from webapp.exposure.notify import tell_about
 from webapp.extensions import db
 from webapp.formatting import lab_today
+from webapp.mail import deliver_queued
 
 NOT_OFFICIAL = ("These figures are computed from the records in this logbook; they are not the "
                 "official dose record.")
@@ -111,6 +112,7 @@ def _table(rows: list[dict], unit: str) -> str:
 def review(on):
     """Raise investigations for new level crossings, e-mail them, ask for surveys (for cron)."""
     raised = review_after_dose_change(db.session, on.date() if on else lab_today())
+    tell_about(raised)  # queued with the change, sent after the commit
     db.session.commit()
-    tell_about(raised)
+    deliver_queued()
     click.echo(f"{len(raised)} new investigation(s) raised.")

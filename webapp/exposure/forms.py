@@ -1,14 +1,13 @@
 """Forms for limit sets, the counting policies (each change with a reason) and investigations."""
 from __future__ import annotations
 
-from flask_wtf import FlaskForm
 from wtforms import FloatField, IntegerField, SelectChoice, SelectField, StringField, SubmitField, TextAreaField
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
 from models.core.codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
 from models.exposure.limit_set_ops import RULE_COLUMNS
 from webapp.exposure import labels
-from webapp.forms import choices
+from webapp.forms import LogbookForm, choices
 
 
 def _reason() -> TextAreaField:
@@ -17,13 +16,13 @@ def _reason() -> TextAreaField:
         DataRequired("Say why; the audit trail keeps the reason."), Length(max=500)])
 
 
-class ReasonForm(FlaskForm):
+class ReasonForm(LogbookForm):
     """Only a reason: removing a rule."""
 
     reason = _reason()
 
 
-class ChooseSetForm(FlaskForm):
+class ChooseSetForm(LogbookForm):
     """The limit set in force."""
 
     limit_set_id = SelectField("Limit set in force", coerce=int,
@@ -31,7 +30,7 @@ class ChooseSetForm(FlaskForm):
     reason = _reason()
 
 
-class PoliciesForm(FlaskForm):
+class PoliciesForm(LogbookForm):
     """How records are counted."""
 
     proration = SelectField("Wear periods that cross a period boundary",
@@ -47,14 +46,14 @@ class PoliciesForm(FlaskForm):
     reason = _reason()
 
 
-class CopyForm(FlaskForm):
+class CopyForm(LogbookForm):
     """A name for an editable copy."""
 
     name = StringField("Name of the copy", validators=[DataRequired("Name the copy."),
                                                        Length(max=120)])
 
 
-class RuleForm(FlaskForm):
+class RuleForm(LogbookForm):
     """One rule of a copied set: limit, investigation levels and their source."""
 
     category = SelectField("Worker category", choices=choices(WorkerCategory, labels.CATEGORY))
@@ -81,7 +80,7 @@ class RuleForm(FlaskForm):
 NOTE_LENGTH = 5000
 
 
-class ReviewForm(FlaskForm):
+class ReviewForm(LogbookForm):
     """The safety officer's review of an investigation: what was asked, found and done."""
 
     questions = TextAreaField("Questions asked", validators=[Length(max=NOTE_LENGTH)],

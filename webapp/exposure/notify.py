@@ -1,10 +1,6 @@
 """E-mail about the investigations that `review_after_dose_change` raised."""
 from __future__ import annotations
 
-import smtplib
-
-from flask import current_app
-
 from models.core.codes import Level
 from models.core.labels import LEVEL_LABELS
 from models.exposure.investigation_ops import investigation_label
@@ -14,19 +10,18 @@ from webapp.mail import link, send_mail, tell_safety_officer
 
 
 def tell_about(raised: list[Investigation]) -> None:
-    """E-mail each investigation raised to the person and the safety officer; call after committing.
+    """Queue e-mail about each investigation raised, to the person and the safety officer.
 
-    The investigations are saved and head the attention list, so a lost e-mail is only logged.
+    Call it before the commit: the messages are saved with the investigations and sent after it.
+
+    A message not delivered stays in the outbox and on the safety officer's home page.
     """
     for investigation in raised:
-        try:
-            _tell(investigation)
-        except (smtplib.SMTPException, OSError):
-            current_app.logger.exception("Could not e-mail about investigation %s", investigation.id)
+        _tell(investigation)
 
 
 def _tell(investigation: Investigation) -> None:
-    """One message to the person, one to the safety officer."""
+    """Queue one message to the person, one to the safety officer."""
     what = investigation_label(investigation)
     figure = dose(investigation.dose_msv)
     person = investigation.person

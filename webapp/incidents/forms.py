@@ -1,17 +1,16 @@
 """Forms for reporting incidents and following them up."""
 from __future__ import annotations
 
-from flask_wtf import FlaskForm
 from wtforms import DateField, DateTimeLocalField, FloatField, SelectChoice, SelectField, TextAreaField
 from wtforms.validators import InputRequired, Length
 
 from models.core.codes import Location, Quantity
 from models.incidents.incident_ops import TYPE_LABELS
 from models.incidents.tables import IncidentType
-from webapp.forms import CheckboxesField, choices
+from webapp.forms import CheckboxesField, LogbookForm, choices
 
 
-class ReportForm(FlaskForm):
+class ReportForm(LogbookForm):
     """What happened, where, to whom, and what was done at once."""
 
     type = SelectField("What kind of incident", choices=[SelectChoice("", "—")] + choices(IncidentType, TYPE_LABELS),
@@ -26,19 +25,19 @@ class ReportForm(FlaskForm):
                                                   "secured, dosimeters kept, RSO telephoned.")
 
 
-class NoteForm(FlaskForm):
+class NoteForm(LogbookForm):
     """A follow-up note."""
 
     text = TextAreaField("Note", validators=[Length(max=10000)])
 
 
-class StopForm(FlaskForm):
+class StopForm(LogbookForm):
     """Why the instrument goes out of service."""
 
     reason = TextAreaField("Reason", validators=[Length(max=1000)])
 
 
-class DoseForm(FlaskForm):
+class DoseForm(LogbookForm):
     """The safety officer's dose estimate for one person."""
 
     person_id = SelectField("Person", choices=[], validate_choice=False)
@@ -54,7 +53,7 @@ class DoseForm(FlaskForm):
                                       "reconstruction, dosimeter read-out.")
 
 
-class CloseForm(FlaskForm):
+class CloseForm(LogbookForm):
     """What was found and done."""
 
     closing_note = TextAreaField("Closing note", validators=[Length(max=10000)])

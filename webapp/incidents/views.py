@@ -1,10 +1,8 @@
 """Incidents: anyone reports, the safety officer is told at once and follows up."""
 from __future__ import annotations
 
-import smtplib
-
 import sqlalchemy as sa
-from flask import abort, current_app, flash, redirect, render_template, url_for
+from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 from wtforms import SelectChoice
 
@@ -36,7 +34,8 @@ from webapp.formatting import from_local, lab_today, local
 from webapp.forms import validate_with
 from webapp.incidents import bp
 from webapp.incidents.forms import CloseForm, DoseForm, NoteForm, ReportForm, StopForm
-from webapp.mail import link, tell_safety_officer
+from webapp.mail import deliver_queued, link, tell_safety_officer
+from webapp.mail.sender import Delivery
 from webapp.sessions.forms import optional_id
 from webapp.slots import Attention, Severity, attention, navigation
 
@@ -109,23 +108,24 @@ def new():
     form.people.choices = [SelectChoice(str(p.id), p.name) for p in _people()]
     if validate_with(form, lambda f: validate_report(**_report_values(f))):
         incident = report_incident(db.session, reported_by=current_user, **_report_values(form))
+        _queue_alert(incident)
         db.session.commit()
-        _tell(incident)
+        _say_whether_sent(deliver_queued())
         return redirect(url_for("incidents.show", incident_id=incident.id))
     return render_template("incidents/new.html", form=form)
 
 
-def _tell(incident: Incident) -> None:
-    """E-mail the safety officer once; a mail failure must not lose the report."""
+def _queue_alert(incident: Incident) -> None:
+    """Queue the safety officer's e-mail with the report, so a mail failure never loses either."""
     subject = f"Incident: {TYPE_LABELS[incident.type].lower()}"
     if incident.instrument:
         subject += f" on {incident.instrument.name}"
-    try:
-        sent = tell_safety_officer(subject, _mail_body(incident))
-    except (OSError, smtplib.SMTPException):
-        current_app.logger.exception("Incident %s: e-mail to the safety officer failed", incident.id)
-        sent = False
-    if sent:
+    tell_safety_officer(subject, _mail_body(incident))
+
+
+def _say_whether_sent(delivery: Delivery) -> None:
+    """Tell the reporter whether the e-mail went out; if not, to tell the safety officer in person."""
+    if delivery.sent and not delivery.failed:
         flash("Reported. The radiation safety officer has been e-mailed; tell them in person or "
               "by telephone as well.", "info")
     else:
@@ -168,7 +168,8 @@ _FORM_NAMES = {NoteForm: "note_form", StopForm: "stop_form", DoseForm: "dose_for
 
 
 def _follow_up(incident_id: int, form, action, done: str, reason: str | None = None, after=None):
-    """Run one follow-up action from a form; commit, pass its result to `after`, redirect; or show the errors."""
+    """Run one follow-up action from a form; pass its result to `after` (which queues mail), commit,
+    redirect; or show the errors."""
     incident = db.session.get(Incident, incident_id) or abort(404)
 
     def run(f):
@@ -176,9 +177,9 @@ def _follow_up(incident_id: int, form, action, done: str, reason: str | None = N
             return action(incident, f)
 
     if outcome := validate_with(form, run):
-        db.session.commit()
         if after is not None:
             after(outcome.value)
+        db.session.commit()
         flash(done, "info")
         return redirect(url_for("incidents.show", incident_id=incident.id))
     return _show(incident, **{_FORM_NAMES[type(form)]: form})

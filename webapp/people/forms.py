@@ -1,16 +1,15 @@
 """Forms for people and accounts."""
 from __future__ import annotations
 
-from flask_wtf import FlaskForm
 from wtforms import EmailField, PasswordField, SelectChoice, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, Email, EqualTo, Length, Optional
 
 from models.people.tables import CATEGORY_LABELS, PERSON_CATEGORIES, ROLE_LABELS, Role
-from webapp.forms import CheckboxesField, choices
+from webapp.forms import CheckboxesField, LogbookForm, choices
 from webapp.passwords import MIN_LENGTH, strong_password
 
 
-class PersonForm(FlaskForm):
+class PersonForm(LogbookForm):
     """Name, contact, roles and worker category."""
 
     name = StringField("Name", validators=[DataRequired("Enter the person's name."), Length(max=200)])
@@ -34,7 +33,7 @@ class NewPersonForm(PersonForm):
         EqualTo("password", "The two passwords differ.")])
 
 
-class DeactivateForm(FlaskForm):
+class DeactivateForm(LogbookForm):
     """Why an account is switched off."""
 
     reason = TextAreaField("Reason", validators=[DataRequired("Say why."), Length(max=500)])

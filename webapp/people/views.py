@@ -37,8 +37,8 @@ def new():
             db.session, login=form.login.data, name=form.name.data, email=form.email.data,
             roles={Role(r) for r in form.roles.data}, category=WorkerCategory(form.category.data),
             password_hash=hash_password(form.password.data))
+        _tell_officers_of_roles(person, set(), person.role_set)  # queued, sent after the commit
         db.session.commit()
-        _tell_officers_of_roles(person, set(), person.role_set)
         flash(f"{person.name} can now log in as '{person.login}'.", "info")
         return redirect(url_for("people.index"))
     return render_template("people/edit.html", form=form, person=None)
@@ -56,8 +56,8 @@ def edit(person_id: int):
     if validate_with(form, lambda f: update_person(db.session, person, name=f.name.data, email=f.email.data,
                                                    roles={Role(r) for r in f.roles.data},
                                                    category=WorkerCategory(f.category.data), by=current_user)):
+        _tell_officers_of_roles(person, held, person.role_set)  # queued, sent after the commit
         db.session.commit()
-        _tell_officers_of_roles(person, held, person.role_set)
         flash("Saved.", "info")
         return redirect(url_for("people.index"))
     return render_template("people/edit.html", form=form, person=person,

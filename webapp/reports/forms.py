@@ -3,16 +3,16 @@ from __future__ import annotations
 
 from datetime import date
 
-from flask_wtf import FlaskForm
 from wtforms import DateField
 from wtforms.validators import Optional, ValidationError
 
 from models.reports.export_ops import Filters
+from webapp.forms import LogbookForm
 
 FIRST_DAY, LAST_DAY = date(1950, 1, 1), date(2100, 12, 31)
 
 
-class ExportForm(FlaskForm):
+class ExportForm(LogbookForm):
     """From and to (lab dates, both inclusive), read from the query string."""
 
     class Meta:

@@ -1,7 +1,6 @@
 """Forms for sessions and authorisations."""
 from __future__ import annotations
 
-from flask_wtf import FlaskForm
 from wtforms import (
     BooleanField,
     DateField,
@@ -15,8 +14,9 @@ from wtforms import (
 from wtforms.validators import InputRequired, Length, Optional
 
 from models.instruments.tables import AuthorisationLevel
+from models.sessions.session_ops import TEXT_LIMITS
 from webapp.formatting import from_local
-from webapp.forms import CheckboxesField
+from webapp.forms import CheckboxesField, LogbookForm
 
 NUMBER = "Enter a number."
 WHEN = "Enter a date and time."
@@ -29,12 +29,14 @@ def optional_id(value: str | None) -> int | None:
     return int(text) if text.isascii() and text.isdigit() and len(text) <= 9 else None
 
 
-class StartForm(FlaskForm):
+class StartForm(LogbookForm):
     """Settings and confirmations for a session that starts now."""
 
     kv = FloatField("Tube voltage (kV)", validators=[InputRequired(NUMBER)])
     ma = FloatField("Tube current (mA)", validators=[InputRequired(NUMBER)])
-    purpose = StringField("Purpose or sample", validators=[Length(max=300)])
+    purpose = StringField("Purpose or sample", validators=[Length(max=TEXT_LIMITS["purpose"])],
+                          description=f"At most {TEXT_LIMITS['purpose']} characters.",
+                          render_kw={"maxlength": TEXT_LIMITS["purpose"]})
     pre_use_checks_confirmed = BooleanField(
         "I saw the warning light and the shutter indicators working before starting")
     dosimeter_worn = BooleanField("I am wearing the dosimeters ticked below")
@@ -87,14 +89,14 @@ class LogForm(StartForm):
                 "beam_on_minutes": self.beam_on_minutes.data}
 
 
-class EndForm(FlaskForm):
+class EndForm(LogbookForm):
     """Beam-on time, asked when a session ends."""
 
     beam_on_minutes = FloatField("Beam-on time (min)", validators=[Optional()],
                                  description="Leave empty if the beam was on the whole session.")
 
 
-class AuthoriseForm(FlaskForm):
+class AuthoriseForm(LogbookForm):
     """The safety officer authorises a person on an instrument."""
 
     person_id = SelectField("Person", choices=[], validate_choice=False)
@@ -106,7 +108,7 @@ class AuthoriseForm(FlaskForm):
                                           "(common practice).")
 
 
-class RevokeForm(FlaskForm):
+class RevokeForm(LogbookForm):
     """Why an authorisation is withdrawn."""
 
     reason = TextAreaField("Reason", validators=[InputRequired("Say why."), Length(max=1000)])

@@ -31,7 +31,7 @@ from models.sessions.tables import InstrumentSession
 from webapp.access import can_see_dose_of, roles_required
 from webapp.extensions import db
 from webapp.formatting import day_start, lab_today, lab_zone
-from webapp.forms import validate_with
+from webapp.forms import query_int, validate_with
 from webapp.sessions import bp
 from webapp.sessions.forms import EndForm, LogForm, StartForm, optional_id
 from webapp.slots import home_panels, instrument_sections, navigation
@@ -188,8 +188,8 @@ def _page_key(text: str | None) -> tuple[datetime, int] | None:
 @login_required
 def index():
     """Sessions filtered by instrument, person and date range, one page at a time, newest first."""
-    instrument = db.session.get(Instrument, request.args.get("instrument", 0, type=int))
-    person = db.session.get(Person, request.args.get("person", 0, type=int))
+    instrument = db.session.get(Instrument, query_int("instrument", 0))
+    person = db.session.get(Person, query_int("person", 0))
     start = day_start(request.args.get("from"))
     until = day_start(request.args.get("to"))
     chosen = SessionFilter(instrument.id if instrument else None, person.id if person else None,

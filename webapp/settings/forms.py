@@ -3,14 +3,14 @@ from __future__ import annotations
 
 from zoneinfo import available_timezones
 
-from flask_wtf import FlaskForm
 from wtforms import EmailField, IntegerField, SelectChoice, SelectField, StringField
 from wtforms.validators import DataRequired, Email, InputRequired, Length, NumberRange, Optional
 
 from models.core.settings import IDLE_TIMEOUT_RANGE, SESSION_LIFETIME_RANGE
+from webapp.forms import LogbookForm
 
 
-class LabForm(FlaskForm):
+class LabForm(LogbookForm):
     """Name, time zone, display unit, due-soon window, safety officer's address."""
 
     lab_name = StringField("Lab name", validators=[DataRequired("Enter the lab's name."),
@@ -22,7 +22,8 @@ class LabForm(FlaskForm):
                                            "(10 CFR 20.1004).")
     due_soon_days = IntegerField("'Due soon' window (days)", validators=[
         InputRequired("Enter a number of days."),
-        NumberRange(min=0, max=90, message="Between 0 and 90 days.")])
+        NumberRange(min=0, max=90, message="Between 0 and 90 days.")],
+        render_kw={"min": 0, "max": 90}, description="Accepted: 0 to 90 days.")
     safety_officer_email = EmailField("Safety officer's e-mail", validators=[
         Optional(), Email("Enter a valid e-mail address.")],
         description="Alerts also go to every person holding the safety officer role. Only a "

@@ -3,7 +3,6 @@ from __future__ import annotations
 
 import math
 
-from flask_wtf import FlaskForm
 from werkzeug.datastructures import MultiDict
 from wtforms import FloatField, SelectField, SelectMultipleField
 from wtforms.validators import InputRequired, NumberRange, Optional, ValidationError
@@ -12,6 +11,7 @@ from wtforms.widgets import CheckboxInput, ListWidget
 from models.core.units import RATE_UNITS
 from models.instruments.tube import SUPPORTED_ANODES
 from models.surveys.shielding import MATERIALS, MAX_KV, MIN_KV
+from webapp.forms import LogbookForm
 from webapp.shielding.setup import SetUp
 
 NUMBER = "Enter a number."
@@ -33,7 +33,7 @@ class Number(FloatField):
             self.data = value
 
 
-class EstimateForm(FlaskForm):
+class EstimateForm(LogbookForm):
     """Anode, kV and the reading to shield; optional planned current and distance."""
 
     class Meta:

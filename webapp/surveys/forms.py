@@ -3,7 +3,6 @@ from __future__ import annotations
 
 from datetime import UTC
 
-from flask_wtf import FlaskForm
 from wtforms import (
     BooleanField,
     DateField,
@@ -20,13 +19,15 @@ from wtforms import (
 )
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
+from models.core.bounds import range_text
 from models.core.due_dates import METER_CALIBRATION_MONTHS
 from models.core.units import RATE_UNITS
+from models.surveys.meter_ops import CALIBRATION_MONTHS_RANGE
 from models.surveys.permit_ops import RING_RULE
 from models.surveys.survey_ops import REFERENCE_DISTANCE_CM, TRIGGER_LABELS, PointInput
 from models.surveys.tables import PointLevel, SurveyTrigger
 from webapp.formatting import lab_zone
-from webapp.forms import choices
+from webapp.forms import LogbookForm, choices
 
 NUMBER = "Enter a number."
 # Empty rows are ignored, so a fixed set of rows serves surveys of any size.
@@ -55,7 +56,7 @@ def utc(field: DateTimeLocalField):
     return field.data.astimezone(UTC) if field.data else None
 
 
-class MeterForm(FlaskForm):
+class MeterForm(LogbookForm):
     """What the meter is and its calibration."""
 
     serial = StringField("Serial number", validators=[DataRequired("Enter the meter's serial number."),
@@ -66,9 +67,10 @@ class MeterForm(FlaskForm):
     calibrated_on = DateField("Calibrated on", validators=[InputRequired("Enter a date.")])
     calibration_interval_months = IntegerField(
         "Calibration interval (months)", default=METER_CALIBRATION_MONTHS,
-        validators=[InputRequired(NUMBER)],
+        validators=[InputRequired(NUMBER)], render_kw={"min": 1, "max": CALIBRATION_MONTHS_RANGE[1]},
         description="12 months, and after any repair: a common state rule "
-                    "(e.g. N.D. Admin. Code 33.1-10-15-08).")
+                    "(e.g. N.D. Admin. Code 33.1-10-15-08). "
+                    f"Accepted: {range_text(*CALIBRATION_MONTHS_RANGE, 'months')}.")
     correction_factor = FloatField(
         "Low-energy correction factor", default=1.0, validators=[InputRequired(NUMBER)],
         description="Multiplies (reading - background) to give the net dose rate; from the "
@@ -82,18 +84,19 @@ class MeterForm(FlaskForm):
             "correction_factor", "energy_response_notes")}
 
 
-class CalibrationForm(FlaskForm):
+class CalibrationForm(LogbookForm):
     """A new calibration of a meter."""
 
     calibrated_on = DateField("New calibration date", validators=[InputRequired("Enter a date.")])
     calibration_interval_months = IntegerField(
         "Calibration interval (months)", default=METER_CALIBRATION_MONTHS,
-        validators=[InputRequired(NUMBER)])
+        validators=[InputRequired(NUMBER)], render_kw={"min": 1, "max": CALIBRATION_MONTHS_RANGE[1]},
+        description=f"Accepted: {range_text(*CALIBRATION_MONTHS_RANGE, 'months')}.")
     note = StringField("Certificate or note", validators=[Length(max=300)],
                        description="Kept in the audit log with the change.")
 
 
-class ReasonForm(FlaskForm):
+class ReasonForm(LogbookForm):
     """Why a record is switched off."""
 
     reason = TextAreaField("Reason", validators=[DataRequired("Say why."), Length(max=1000)])
@@ -123,7 +126,7 @@ class PointForm(Form):
                           distance_cm=self.distance_cm.data, level=PointLevel(self.level.data))
 
 
-class SurveyForm(FlaskForm):
+class SurveyForm(LogbookForm):
     """A survey of one instrument with its points."""
 
     instrument_id = SelectField("Instrument", coerce=int, validate_choice=False)
@@ -147,7 +150,7 @@ class SurveyForm(FlaskForm):
         return [row.form for row in self.points if not row.form.is_blank()]
 
 
-class PermitForm(FlaskForm):
+class PermitForm(LogbookForm):
     """A request to bypass safety devices for a window."""
 
     instrument_id = SelectField("Instrument", coerce=int, validate_choice=False)
@@ -159,7 +162,7 @@ class PermitForm(FlaskForm):
     ring_dosimetry_confirmed = BooleanField("Ring dosimeters will be worn", description=RING_RULE)
 
 
-class DecisionForm(FlaskForm):
+class DecisionForm(LogbookForm):
     """The safety officer's note on approving or refusing."""
 
     note = TextAreaField("Note", validators=[Length(max=2000)],

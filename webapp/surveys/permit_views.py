@@ -1,7 +1,7 @@
 """Bypass permits: operators ask, the safety officer decides, requester or officer closes."""
 from __future__ import annotations
 
-from flask import abort, flash, redirect, render_template, request, url_for
+from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 from wtforms import SelectChoice
 
@@ -26,8 +26,8 @@ from models.surveys.tables import BypassPermit
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, local
-from webapp.forms import error_text, validate_with
-from webapp.mail import send_mail, tell_safety_officer
+from webapp.forms import error_text, query_int, validate_with
+from webapp.mail import link, send_mail, tell_safety_officer
 from webapp.surveys import bp
 from webapp.surveys.forms import DecisionForm, PermitForm, utc
 
@@ -63,15 +63,15 @@ def new_permit():
     today = lab_today()
     form.instrument_id.choices = [SelectChoice(i.id, i.name) for i in instruments_for(db.session, current_user, today)]
     if not form.is_submitted():
-        form.instrument_id.data = request.args.get("instrument_id", type=int)
+        form.instrument_id.data = query_int("instrument_id")
     if validate_with(form, lambda f: _validate(f, today)):
         permit = request_permit(db.session, _values(form))
-        db.session.commit()
         tell_safety_officer(
             f"Bypass permit asked for: {permit.instrument.name}",
             f"{current_user.name} asks to bypass {permit.devices} on {permit.instrument.name} "
             f"from {local(permit.window_start)} to {local(permit.window_end)} (lab time).\n"
-            f"Reason: {permit.reason}\nDecide: {url_for('surveys.permit', permit_id=permit.id, _external=True)}")
+            f"Reason: {permit.reason}\nDecide: {link('surveys.permit', permit_id=permit.id)}")
+        db.session.commit()
         flash("Permit asked for. The radiation safety officer decides; do not bypass anything "
               "before it is approved.", "info")
         return redirect(url_for("surveys.permit", permit_id=permit.id))
@@ -120,12 +120,12 @@ def _decide(permit_id: int, approve: bool):
     if not validate_with(form, lambda f: decide(db.session, permit, current_user._get_current_object(),
                                                 approve, f.note.data)):
         return _show(permit, form)
-    db.session.commit()
     word = "approved" if approve else "refused"
     send_mail([permit.requested_by.email or ""], f"Bypass permit {word}: {permit.instrument.name}",
               f"Your bypass permit for {permit.devices} on {permit.instrument.name} was {word} by "
               f"{current_user.name}.\n{permit.decision_note or ''}\n"
               + (f"{SIGN_RULE}\n{RING_RULE}\n" if approve else ""))
+    db.session.commit()
     flash(f"Permit {word}.", "info")
     return redirect(url_for("surveys.permit", permit_id=permit.id))
 

@@ -28,8 +28,8 @@ from models.surveys.tables import Survey, SurveyMeter, SurveyTrigger
 from webapp.access import roles_required
 from webapp.extensions import db
 from webapp.formatting import lab_today, settings
-from webapp.forms import validate_with
-from webapp.mail import tell_safety_officer
+from webapp.forms import query_int, validate_with
+from webapp.mail import link, tell_safety_officer
 from webapp.shielding.setup import over_level_estimates
 from webapp.surveys import bp
 from webapp.surveys.forms import SurveyForm, utc
@@ -68,17 +68,18 @@ def new_survey():
         SelectChoice(m.id, _meter_label(m, calibration_on(m, today, settings().due_soon_days)))
         for m in active_meters(db.session)]
     if not form.is_submitted():
-        form.instrument_id.data = request.args.get("instrument_id", type=int)
+        form.instrument_id.data = query_int("instrument_id")
         form.trigger.data = request.args.get("trigger", SurveyTrigger.PERIODIC.value)
     if validate_with(form, lambda f: _validate(f, today)):
         survey = record_survey(db.session, _values(form))
+        if not survey.passed:
+            tell_safety_officer(f"Survey failed: {survey.instrument.name} is out of service",
+                                f"{survey.instrument.out_of_service_reason}\nRecorded by "
+                                f"{current_user.name}.\n{link('surveys.survey', survey_id=survey.id)}")
         db.session.commit()
         if survey.passed:
             flash(f"Survey recorded: passed (highest net {survey.max_net_usv_h:.3g} µSv/h).", "info")
         else:
-            tell_safety_officer(f"Survey failed: {survey.instrument.name} is out of service",
-                                f"{survey.instrument.out_of_service_reason}\nRecorded by "
-                                f"{current_user.name}.\n{url_for('surveys.survey', survey_id=survey.id, _external=True)}")
             flash(f"Survey failed: {survey.instrument.name} is now out of service.", "error")
         return redirect(url_for("surveys.survey", survey_id=survey.id))
     return render_template("surveys/survey_new.html", form=form,
