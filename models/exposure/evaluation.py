@@ -134,6 +134,7 @@ def person_rows(evaluation: Evaluation, person: int) -> list[dict]:
                 "remaining_msv": _number(evaluation.remaining[at]),
                 "projected_level": str(_member(Level, evaluation.projected_level[at])),
                 "clause": evaluation.limit_set.rules[rule].clause if rule >= 0 else None,
+                "stand_in": bool(totals.stand_in[at]),
             }
         )
     return rows

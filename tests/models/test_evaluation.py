@@ -174,6 +174,7 @@ KEYS = {
     "remaining_msv",
     "projected_level",
     "clause",
+    "stand_in",
 }
 
 

@@ -122,6 +122,8 @@ class TestReview:
         make_person("rso", roles=(Role.SAFETY_OFFICER,), email="rso@example.org")
         person = make_person("ada", name="Ada Example", email="ada@example.org")
         make_dose(person, value=1.5, **OCTOBER)
+        # the badge's Hp(0.07) reads nothing: the lens, which reads it, stays below its levels
+        make_dose(person, value=0.0, quantity="Hp(0.07)", **OCTOBER)
         runner = app.test_cli_runner()
         result = runner.invoke(args=["exposure", "review", "--on", "2026-11-30"])
         assert result.exit_code == 0, result.output
@@ -147,6 +149,8 @@ def crossing(session, make_person, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person("ada", name="Ada Example")
     make_dose(person, value=1.5, **OCTOBER)
+    # the badge's Hp(0.07) reads nothing: the lens, which reads it, stays below its levels
+    make_dose(person, value=0.0, quantity="Hp(0.07)", **OCTOBER)
     (item,) = raise_investigations(session, evaluate_lab(session, ON))
     session.commit()
     return item
