@@ -10,6 +10,7 @@ from flask_wtf.csrf import CSRFError
 from models.audit.audit_ops import set_actor
 from models.people.tables import Person
 from webapp import config, formatting
+from webapp.exposure.limits_cli import install_cli
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
 
 BLUEPRINTS = (
@@ -51,6 +52,7 @@ def create_app(overrides: dict | None = None) -> Flask:
         module = __import__(name, fromlist=["bp"])
         app.register_blueprint(module.bp)
 
+    install_cli(app)  # after migrate.init_app, which adds the `db` group it extends
     formatting.install(app)
     _install_request_hooks(app)
     _install_error_pages(app)

@@ -31,6 +31,8 @@ LEVEL_LABELS = {
     Level.LEVEL_1: "level I",
     Level.LEVEL_2: "level II",
     Level.LIMIT_REACHED: "limit reached",
+    # A row no rule covers (evaluation.NO_LIMIT): nothing was assessed, so never "below level I".
+    "no_limit": "no limit in this set",
 }
 PRORATION_LABELS = {
     Proration.PRORATE_DAYS: "Spread each record over its wear days; a period counts the days "

@@ -144,6 +144,30 @@ def choose_limit_set(session: Session, settings: LabSettings, limit_set: LimitSe
         raise Invalid.one("limit_set_id", "Choose one of the installed limit sets.")
     as_rules(limit_set)  # refuses a set whose rules would not evaluate
     settings.limit_set = limit_set
+    settings.limit_set_by_default = False
+    session.flush()
+
+
+DEFAULT_PRESET = "icrp103"
+
+
+def install_default(session: Session, settings: LabSettings, key: str | None) -> LimitSet | None:
+    """On a database without a limit set, put the preset `key` (or DEFAULT_PRESET) in force, marked
+    as installed by default until the safety officer confirms or changes it; else change nothing."""
+    if settings.limit_set_id is not None:
+        return None
+    stored = install_preset(session, key or DEFAULT_PRESET)
+    settings.limit_set = stored
+    settings.limit_set_by_default = True
+    session.flush()
+    return stored
+
+
+def confirm_limit_set(session: Session, settings: LabSettings) -> None:
+    """The safety officer keeps the set installed by default: it is no longer flagged."""
+    if settings.limit_set_id is None:
+        raise Invalid.one("limit_set_id", "No limit set is in force; choose one.")
+    settings.limit_set_by_default = False
     session.flush()
 
 

@@ -29,6 +29,7 @@ LEVEL_CSS = {
     Level.LEVEL_1: "state-warn",
     Level.LEVEL_2: "state-bad",
     Level.LIMIT_REACHED: "state-bad",
+    "no_limit": "state-warn",
 }
 LOCATION = LOCATION_LABELS
 CATEGORY = {**CATEGORY_LABELS, WorkerCategory.DECLARED_PREGNANT: "Declared pregnant worker"}

@@ -8,7 +8,7 @@ from flask_login import current_user
 
 from models.core.codes import Level, Location, PeriodKind, Quantity, Series, code, decode
 from models.core.labels import LEVEL_LABELS, PERIOD_LABELS, dose_row_label
-from models.exposure.evaluation import worst_levels
+from models.exposure.evaluation import effective_limit_gaps, worst_levels
 from models.exposure.investigation_ops import (
     investigation_label,
     open_investigations,
@@ -18,12 +18,12 @@ from models.exposure.investigation_ops import (
 )
 from models.exposure.lab_ops import cached_lab_evaluation
 from models.exposure.tables import Investigation
-from models.people.tables import Person, Role
+from models.people.tables import CATEGORY_LABELS, Person, Role
 from webapp.access import roles_required
 from webapp.exposure import bp
 from webapp.exposure.forms import ReviewForm
 from webapp.extensions import db
-from webapp.formatting import dose, lab_today, local
+from webapp.formatting import dose, lab_today, local, settings
 from webapp.forms import validate_with
 from webapp.slots import Attention, Severity, attention, navigation
 
@@ -130,6 +130,33 @@ def _row_label(lab, p: int, s: int, t: int) -> str:
 def _row_text(lab, p: int, s: int, t: int) -> str:
     """'Hp(10) whole body, quarter: 1.600 mSv' for one row of the arrays."""
     return f"{_row_label(lab, p, s, t)}: {dose(float(lab.totals.dose[p, s, t]))}"
+
+
+@attention.add
+def limit_set_state() -> list[Attention]:
+    """Fail closed: no set in force, a set installed by default, people without an effective limit."""
+    lab_settings = settings()
+    where = url_for("exposure.limits")
+    if lab_settings.limit_set is None:
+        return [Attention(Severity.LIMIT_SET, "No limit set is in force: no dose is assessed against "
+                          "any limit. Choose a limit set.", where, "no limit set")]
+    name = lab_settings.limit_set.name
+    lines = []
+    if lab_settings.limit_set_by_default:
+        lines.append(Attention(
+            Severity.LIMIT_SET, f"The limit set in force, {name}, was installed by default when the "
+            "database was created and nobody has confirmed it: confirm it or choose the set that "
+            "applies to this lab.", where, "installed by default"))
+    people = db.session.execute(sa.select(Person.name, Person.category).where(Person.active)
+                                .order_by(Person.name)).all()
+    limit_set = cached_lab_evaluation(db.session, lab_today()).evaluation.limit_set
+    for category in effective_limit_gaps(limit_set, [c for _, c in people]):
+        names = ", ".join(n for n, c in people if c == category)
+        lines.append(Attention(
+            Severity.LIMIT_SET, f"{name} has no effective-dose limit for {CATEGORY_LABELS[category].lower()} "
+            f"({names}): their doses are not assessed. Choose another limit set, or copy this one "
+            "and add the rule.", where, "no limit"))
+    return lines
 
 
 @attention.add

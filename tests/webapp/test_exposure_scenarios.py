@@ -1,0 +1,100 @@
+"""The issue's scenarios, worked by hand, through `flask exposure show --json` and the person's page."""
+import json
+from datetime import date
+
+import pytest
+
+from models.exposure.pregnancy_ops import declare
+from models.people.tables import Role
+from webapp.extensions import db
+
+ON = date(2026, 3, 31)
+
+
+def _month(month: int) -> dict:
+    """Wear period of one calendar month of 2026."""
+    ends = {1: 31, 2: 28, 3: 31, 4: 30}
+    return {"wear_start": date(2026, month, 1), "wear_end": date(2026, month, ends[month])}
+
+
+def _rows(app, login: str, on: date) -> list[dict]:
+    result = app.test_cli_runner().invoke(
+        args=["exposure", "show", "--person", login, "--on", on.isoformat(), "--json"])
+    assert result.exit_code == 0, result.output
+    return json.loads(result.output)
+
+
+def _row(rows, series: str, period: str) -> dict:
+    return next(r for r in rows if (r["series"], r["period"]) == (series, period))
+
+
+def test_lens_year_counts_the_stand_in_where_no_eye_dosimeter_was_worn(
+        app, make_person, make_dose, use_limit_set, login):
+    use_limit_set("euratom2013")
+    person = make_person("ada")
+    for month in (1, 2, 3):
+        make_dose(person, value=4.0, quantity="Hp(0.07)", **_month(month))
+    make_dose(person, value=1.0, quantity="Hp(3)", location="eye", **_month(3))
+    # January 4.0 + February 4.0 (Hp(0.07) whole body, no eye dosimeter) + March 1.0 (Hp(3)
+    # worn every day of March) = 9.0 mSv; 2013/59/Euratom Art. 9(3)(a) lens limit 20 mSv a year.
+    lens = _row(_rows(app, "ada", ON), "lens", "year")
+    assert lens["dose_msv"] == pytest.approx(9.0)
+    assert lens["limit_msv"] == 20.0
+    assert lens["limit_set"] == "Council Directive 2013/59/Euratom"
+    officer = make_person("rso", roles=(Role.SAFETY_OFFICER,))
+    page = login(officer).get(f"/exposure/person/{person.id}?on={ON.isoformat()}")
+    assert page.status_code == 200
+    assert "9.000" in page.data.decode()
+
+
+def test_fetal_dose_takes_the_whole_body_badge_before_the_abdomen_dosimeter(
+        app, make_person, make_dose, use_limit_set):
+    use_limit_set("euratom2013")
+    person = make_person("bea")
+    declare(db.session, person.id, date(2026, 3, 1), today=date(2026, 3, 1))
+    db.session.commit()
+    make_dose(person, value=1.0, **_month(3))
+    make_dose(person, value=0.9, **_month(4))
+    make_dose(person, value=0.4, location="abdomen", **_month(4))
+    # March 1.0 (whole body, no abdomen dosimeter) + April 0.4 (abdomen) = 1.4 mSv against the
+    # 1 mSv of 2013/59/Euratom Art. 10(1): the limit is reached, not "below level I".
+    fetus = _row(_rows(app, "bea", date(2026, 4, 30)), "fetus", "pregnancy")
+    assert fetus["dose_msv"] == pytest.approx(1.4)
+    assert fetus["level"] == "limit_reached"
+
+
+@pytest.mark.parametrize(
+    "key, year_limit, year_level, quarter_level",
+    [
+        # ICRP 103 Table 6 has no apprentice row: nothing assessed, and the rows say so.
+        ("icrp103", None, "no_limit", "no_limit"),
+        # 2013/59/Euratom Art. 11(3)(c): 150 mSv a year to the extremities of apprentices 16-18;
+        # 140 < 150. The common-practice quarterly level II is 3.75 x 150 / 20 = 28.125 mSv.
+        ("euratom2013", 150.0, "below_1", "level_2"),
+        # 10 CFR 20.1207: minors 10 % of the adult 500 mSv (20.1201(a)(2)(ii)) = 50 mSv; 140 >= 50.
+        # Quarterly level II 3.75 x 50 / 50 = 3.75 mSv.
+        ("cfr10_20", 50.0, "limit_reached", "level_2"),
+        # IRR17 Schedule 3: trainees' extremities 150 mSv a year; level II 3.75 x 150 / 20.
+        ("irr17", 150.0, "below_1", "level_2"),
+    ],
+)
+def test_a_trainee_with_140_msv_to_one_hand_by_february(app, make_person, make_dose, use_limit_set,
+                                                       key, year_limit, year_level, quarter_level):
+    use_limit_set(key)
+    tom = make_person("tom", category="trainee")
+    make_dose(tom, value=140.0, quantity="Hp(0.07)", location="right_hand",
+              wear_start=date(2026, 1, 1), wear_end=date(2026, 2, 28))
+    rows = _rows(app, "tom", date(2026, 2, 28))
+    year, quarter = _row(rows, "right_hand", "year"), _row(rows, "right_hand", "quarter")
+    assert (year["limit_msv"], year["level"], quarter["level"]) == (year_limit, year_level, quarter_level)
+
+
+def test_a_database_with_no_set_chosen_assesses_nothing_and_says_so(app, make_person, make_dose, login):
+    person = make_person("ada")
+    make_dose(person, value=2.0, **_month(1))
+    rows = _rows(app, "ada", ON)
+    assert {r["level"] for r in rows} == {"no_limit"}
+    assert {r["limit_set"] for r in rows} == {"No limit set chosen"}
+    officer = make_person("rso", roles=(Role.SAFETY_OFFICER,))
+    home = login(officer).get("/").data.decode()
+    assert "No limit set is in force" in home
