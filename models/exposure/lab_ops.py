@@ -59,9 +59,13 @@ def read_records(session: Session, people: np.ndarray) -> DoseRecords:
 
 
 def pregnancy_windows(session: Session, people: np.ndarray, on: date) -> tuple[np.ndarray, np.ndarray]:
-    """(P,) start and end of each person's declared pregnancy in force on `on` (NaT for none)."""
+    """(P,) start and end of each person's declared pregnancy in force on `on` (NaT for none).
+
+    Declarations of people not in `people` are skipped: a one-person page asks for one person.
+    """
     start = np.full(len(people), np.datetime64("NaT"), dtype="datetime64[D]")
     end = start.copy()
+    position = {int(person_id): i for i, person_id in enumerate(np.asarray(people).tolist())}
     declarations = session.execute(
         sa.select(PregnancyDeclaration.person_id, PregnancyDeclaration.declared_on,
                   PregnancyDeclaration.ended_on)
@@ -70,9 +74,10 @@ def pregnancy_windows(session: Session, people: np.ndarray, on: date) -> tuple[n
         .order_by(PregnancyDeclaration.declared_on)
     ).all()
     for person_id, declared_on, ended_on in declarations:  # later declarations win
-        at = person_index(np.array([person_id]), people)[0]
-        start[at] = declared_on
-        end[at] = np.datetime64("NaT") if ended_on is None else ended_on
+        at = position.get(person_id)
+        if at is not None:
+            start[at] = declared_on
+            end[at] = np.datetime64("NaT") if ended_on is None else ended_on
     return start, end
 
 

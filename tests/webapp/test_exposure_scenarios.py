@@ -98,3 +98,31 @@ def test_a_database_with_no_set_chosen_assesses_nothing_and_says_so(app, make_pe
     officer = make_person("rso", roles=(Role.SAFETY_OFFICER,))
     home = login(officer).get("/").data.decode()
     assert "No limit set is in force" in home
+
+
+def test_every_page_answers_with_two_declarations_in_force_then_one(
+        app, make_person, make_dose, use_limit_set, login):
+    from models.exposure.pregnancy_ops import WITHDRAWN, end_declaration
+
+    use_limit_set("icrp103")
+    officer = make_person("rso", roles=(Role.SAFETY_OFFICER,))
+    first, second = make_person("ann"), make_person("eva")
+    declarations = [declare(db.session, p.id, date(2026, 1, 10), today=date(2026, 1, 10))
+                    for p in (first, second)]
+    for p in (first, second):
+        make_dose(p, value=0.2, **_month(1))
+    db.session.commit()
+
+    def pages_answer():
+        for viewer, subject in ((officer, first), (officer, second), (first, first), (second, second)):
+            client = login(viewer)
+            for url in (f"/exposure/person/{subject.id}", f"/exposure/person/{subject.id}?on=2026-01-31",
+                        f"/exposure/person/{subject.id}/chart.svg", f"/doses/person/{subject.id}/pregnancy",
+                        "/exposure/me", "/"):
+                assert client.get(url, follow_redirects=True).status_code == 200, (viewer.login, url)
+        assert login(officer).get("/exposure/people").status_code == 200
+
+    pages_answer()
+    end_declaration(db.session, declarations[0], date(2026, 2, 1), WITHDRAWN, today=date(2026, 2, 1))
+    db.session.commit()
+    pages_answer()
