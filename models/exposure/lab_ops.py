@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, timedelta
 
 import numpy as np
 import sqlalchemy as sa
@@ -58,9 +58,18 @@ def read_records(session: Session, people: np.ndarray) -> DoseRecords:
     )
 
 
-def pregnancy_windows(session: Session, people: np.ndarray, on: date) -> tuple[np.ndarray, np.ndarray]:
+# From memory (obstetric common practice): a pregnancy lasts about 38 weeks from conception.
+PREGNANCY_DAYS = 266
+
+
+def pregnancy_windows(session: Session, people: np.ndarray, on: date,
+                      whole_pregnancy: bool = False) -> tuple[np.ndarray, np.ndarray]:
     """(P,) start and end of each person's declared pregnancy in force on `on` (NaT for none).
 
+    The window starts at the declaration, or with `whole_pregnancy` at the estimated conception
+    (else the expected end less PREGNANCY_DAYS, else the declaration less PREGNANCY_DAYS: the
+    earliest it can have been, so nothing is left out). It ends when the pregnancy ended, else on
+    the expected end (or `on`, if later) so the projection runs to it, else on `on`.
     Declarations of people not in `people` are skipped: a one-person page asks for one person.
     """
     start = np.full(len(people), np.datetime64("NaT"), dtype="datetime64[D]")
@@ -68,16 +77,25 @@ def pregnancy_windows(session: Session, people: np.ndarray, on: date) -> tuple[n
     position = {int(person_id): i for i, person_id in enumerate(np.asarray(people).tolist())}
     declarations = session.execute(
         sa.select(PregnancyDeclaration.person_id, PregnancyDeclaration.declared_on,
-                  PregnancyDeclaration.ended_on)
+                  PregnancyDeclaration.ended_on, PregnancyDeclaration.conception_on,
+                  PregnancyDeclaration.expected_end_on)
         .where(PregnancyDeclaration.declared_on <= on,
                sa.or_(PregnancyDeclaration.ended_on.is_(None), PregnancyDeclaration.ended_on >= on))
         .order_by(PregnancyDeclaration.declared_on)
     ).all()
-    for person_id, declared_on, ended_on in declarations:  # later declarations win
-        at = position.get(person_id)
-        if at is not None:
-            start[at] = declared_on
-            end[at] = np.datetime64("NaT") if ended_on is None else ended_on
+    for person_id, declared_on, ended_on, conception_on, expected_end_on in declarations:
+        at = position.get(person_id)  # later declarations win
+        if at is None:
+            continue
+        start[at] = declared_on
+        if whole_pregnancy:
+            start[at] = conception_on or (expected_end_on or declared_on) - timedelta(days=PREGNANCY_DAYS)
+        if ended_on is not None:
+            end[at] = ended_on
+        elif expected_end_on is not None:
+            end[at] = max(expected_end_on, on)
+        else:
+            end[at] = np.datetime64("NaT")
     return start, end
 
 
@@ -117,9 +135,10 @@ def evaluate_lab(session: Session, on: date) -> LabEvaluation:
         sa.select(Person.id, Person.category).order_by(Person.id)).all()) or ((), ())
     person_ids = np.asarray(people, dtype=np.int64)
     records = read_records(session, person_ids)
-    start, end = pregnancy_windows(session, person_ids, on)
+    limit_set = limit_set_of(settings)
+    start, end = pregnancy_windows(session, person_ids, on, limit_set.whole_pregnancy)
     totals = compute_doses(records, len(person_ids), on, policies_of(settings), start, end)
-    evaluation = evaluate(totals, limit_set_of(settings),
+    evaluation = evaluate(totals, limit_set,
                           np.asarray([str(c) for c in categories], dtype=str))
     return LabEvaluation(on, person_ids, evaluation)
 

@@ -219,7 +219,7 @@ def install_preset(session: Session, key: str) -> LimitSet:
         preset = presets.preset(key)
     except KeyError as error:
         raise Invalid.one("preset", f"There is no preset called '{key}'.") from error
-    stored = LimitSet(name=preset.name, preset_key=preset.key,
+    stored = LimitSet(name=preset.name, preset_key=preset.key, whole_pregnancy=preset.whole_pregnancy,
                       rules=[stored_rule(rule) for rule in preset.rules])
     session.add(stored)
     session.flush()
@@ -233,7 +233,7 @@ def copy_limit_set(session: Session, source: LimitSet, name: str) -> LimitSet:
         raise Invalid.one("name", "Name the copy.")
     if taken(session, LimitSet.name, name):
         raise Invalid.one("name", f"A limit set called '{name}' already exists.")
-    copy = LimitSet(name=name, description=f"Copy of {source.name}",
+    copy = LimitSet(name=name, description=f"Copy of {source.name}", whole_pregnancy=source.whole_pregnancy,
                     rules=[stored_rule(rule) for rule in as_rules(source).rules])
     session.add(copy)
     session.flush()
@@ -249,6 +249,7 @@ def as_rules(stored: LimitSet) -> presets.LimitSetSpec:
                                     _stored_level(r.level2_kind, r.level2_value), r.clause or "(no clause)")
             for r in stored.rules
         )
-        return presets.LimitSetSpec(stored.preset_key or f"set-{stored.id}", stored.name, rules)
+        return presets.LimitSetSpec(stored.preset_key or f"set-{stored.id}", stored.name, rules,
+                                    bool(stored.whole_pregnancy))
     except ValueError as error:
         raise Invalid.one("rules", str(error)) from error

@@ -72,6 +72,9 @@ class LimitSetSpec:
     key: str
     name: str
     rules: tuple[LimitRuleSpec, ...]
+    # The fetal rule counts the whole pregnancy, from conception (10 CFR 20.1208(a)), rather than
+    # from the declaration (ICRP 103 para 186, 2013/59/Euratom Art. 10).
+    whole_pregnancy: bool = False
 
     def __post_init__(self):
         object.__setattr__(self, "rules", tuple(self.rules))
@@ -201,8 +204,9 @@ def _cfr10_20() -> LimitSetSpec:
     cfr = "10 CFR"
     minors = f"{cfr} 20.1207 (minors: 10 % of the adult limits)"
     shallow = f"{cfr} 20.1201(a)(2)(ii) (shallow-dose equivalent"
-    # 20.1208(a) covers the entire pregnancy; the window here starts at the declaration, so dose
-    # before it is not counted, and 20.1208(d)'s extra 0.5 mSv is left to the safety officer.
+    # 20.1208(a) covers the entire pregnancy: the window starts at the estimated conception
+    # (whole_pregnancy below). 20.1208(d)'s extra 0.5 mSv after the declaration is not applied
+    # here, so a dose near the limit at declaration reads as the limit reached: fail closed.
     rules = (
         _limit(ADULT, EFFECTIVE, YEAR, 50, f"{cfr} 20.1201(a)(1)(i), (c) (deep-dose equivalent)")
         + _limit(ADULT, LENS, YEAR, 150, f"{cfr} 20.1201(a)(2)(i) (lens dose equivalent)")
@@ -215,7 +219,7 @@ def _cfr10_20() -> LimitSetSpec:
         + _limit(PREGNANT, FETUS, PREGNANCY, 5, f"{cfr} 20.1208(a) (embryo/fetus, whole pregnancy)")
         + _limit(PUBLIC, EFFECTIVE, YEAR, 1, f"{cfr} 20.1301(a)(1)")
     )
-    return LimitSetSpec("cfr10_20", "US 10 CFR Part 20", _with_levels(rules, 50))
+    return LimitSetSpec("cfr10_20", "US 10 CFR Part 20", _with_levels(rules, 50), whole_pregnancy=True)
 
 
 def _irr17() -> LimitSetSpec:

@@ -126,3 +126,62 @@ def test_every_page_answers_with_two_declarations_in_force_then_one(
     end_declaration(db.session, declarations[0], date(2026, 2, 1), WITHDRAWN, today=date(2026, 2, 1))
     db.session.commit()
     pages_answer()
+
+
+def _declare(app, *args):
+    return app.test_cli_runner().invoke(args=["people", "pregnancy", *args])
+
+
+@pytest.mark.parametrize(
+    "key, dates, expected_dose, expected_start",
+    [
+        # 10 CFR 20.1208(a), "during the entire pregnancy": conception 1 Jan, so January to April
+        # count: 4 x 1.0 = 4.0 mSv.
+        ("cfr10_20", ["--conception", "2026-01-01"], 4.0, "2026-01-01"),
+        # No conception date: expected end 23 Sep 2026 less 266 days (38 weeks) = 31 Dec 2025
+        # (1 Jan + 265 days is 23 Sep), so again January to April: 4.0 mSv.
+        ("cfr10_20", ["--expected-end", "2026-09-23"], 4.0, "2025-12-31"),
+        # ICRP 103 para 186 counts from the declaration on 1 April: April only, 1.0 mSv.
+        ("icrp103", ["--conception", "2026-01-01"], 1.0, "2026-04-01"),
+    ],
+)
+def test_a_declaration_after_months_of_dose(app, make_person, make_dose, use_limit_set,
+                                             key, dates, expected_dose, expected_start):
+    use_limit_set(key)
+    person = make_person("cat")
+    for month in (1, 2, 3, 4):
+        make_dose(person, value=1.0, **_month(month))
+    result = _declare(app, "cat", "--declared", "2026-04-01", *dates)
+    assert result.exit_code == 0, result.output
+    fetus = _row(_rows(app, "cat", date(2026, 4, 30)), "fetus", "pregnancy")
+    assert fetus["dose_msv"] == pytest.approx(expected_dose)
+    assert fetus["start"] == expected_start
+
+
+def test_the_projection_runs_to_the_expected_end(app, make_person, make_dose, use_limit_set):
+    use_limit_set("cfr10_20")
+    person = make_person("cat")
+    for month in (1, 2, 3, 4):
+        make_dose(person, value=1.0, **_month(month))
+    assert _declare(app, "cat", "--declared", "2026-04-01", "--expected-end", "2026-09-23").exit_code == 0
+    fetus = _row(_rows(app, "cat", date(2026, 4, 30)), "fetus", "pregnancy")
+    # 4.0 mSv in the 121 days 31 Dec 2025 - 30 Apr 2026, continued over the 267 days to 23 Sep:
+    # 4.0 x 267 / 121 = 8.826 mSv, over the 5 mSv of 20.1208(a).
+    assert fetus["end"] == "2026-09-23"
+    assert fetus["projected_msv"] == pytest.approx(4.0 * 267 / 121)
+    assert fetus["projected_level"] == "limit_reached"
+    # local-choice levels: 5 x 1.25 / 50 = 0.125 and 5 x 3.75 / 50 = 0.375 mSv; 4.0 is past II
+    assert fetus["level"] == "level_2"
+
+
+@pytest.mark.parametrize("args, field", [
+    (["--declared", "2026-04-01", "--conception", "2026-04-02"], "conception_on"),
+    (["--declared", "2026-04-01", "--expected-end", "2026-03-01"], "expected_end_on"),
+    (["--declared", "2100-01-01"], "declared_on"),
+    (["--withdrawn", "2026-04-01"], "withdrawn"),
+    ([], "--declared"),
+])
+def test_people_pregnancy_refuses_with_the_field_named(app, make_person, args, field):
+    make_person("cat")
+    result = _declare(app, "cat", *args)
+    assert result.exit_code == 1 and field in result.output

@@ -97,7 +97,8 @@ def person(person_id: int):
     fetal = None
     fetal_row = next((r for r in rows if r["series"] == Series.FETUS), None)
     if fetal_row is not None:
-        start, end = pregnancy_windows(db.session, np.array([person_id]), on)
+        start, end = pregnancy_windows(db.session, np.array([person_id]), on,
+                                       lab.evaluation.limit_set.whole_pregnancy)
         ended = None if np.isnat(end[0]) else end[0].astype(date)
         fetal = fetal_months(engine_records([c[0] for c in chains]), on,
                              policies_of(settings()), start[0].astype(date), ended)
@@ -108,6 +109,7 @@ def person(person_id: int):
         at_level=[r for r in rows if r["level"] not in (Level.BELOW_1, NO_LIMIT)],
         projected=[r for r in rows if r["clause"] and r["projected_level"] != r["level"]],
         lab=lab_settings, limit_set_name=lab.evaluation.limit_set.name,
+        whole_pregnancy=lab.evaluation.limit_set.whole_pregnancy,
         is_today=on == lab_today(), Series=Series, PeriodKind=PeriodKind)
 
 

@@ -1,4 +1,4 @@
-"""`flask people add`: create people from scripts, the first admin included."""
+"""`flask people add` and `flask people pregnancy`: people and written declarations from scripts."""
 from __future__ import annotations
 
 import sys
@@ -7,9 +7,11 @@ import click
 
 from models.core.codes import WorkerCategory
 from models.core.errors import Invalid
-from models.people.person_ops import add_person
+from models.exposure.pregnancy_ops import WITHDRAWN, declare, end_declaration, open_declaration
+from models.people.person_ops import add_person, find_person
 from models.people.tables import PERSON_CATEGORIES, Role
 from webapp.extensions import db
+from webapp.formatting import lab_today
 from webapp.passwords import MIN_LENGTH, hash_password
 from webapp.people import bp
 
@@ -40,3 +42,39 @@ def add(login, name, email, roles, category, password_stdin):
         raise click.ClickException(str(error)) from error
     db.session.commit()
     click.echo(f"Added {person.name} ({person.login}): {', '.join(sorted(roles))}.")
+
+
+DATE = click.DateTime(formats=["%Y-%m-%d"])
+
+
+@bp.cli.command("pregnancy")
+@click.argument("login")
+@click.option("--declared", type=DATE, default=None, help="Date of the written declaration, YYYY-MM-DD.")
+@click.option("--conception", type=DATE, default=None, help="Estimated date of conception (optional).")
+@click.option("--expected-end", type=DATE, default=None, help="Expected end of the pregnancy (optional).")
+@click.option("--withdrawn", type=DATE, default=None, help="Date the declaration was withdrawn.")
+def pregnancy(login, declared, conception, expected_end, withdrawn):
+    """Record a pregnancy declaration the safety officer received in writing, or its withdrawal."""
+    person = find_person(db.session, login)
+    if person is None:
+        raise click.ClickException(f"login: No person has the login '{login}'.")
+    if (declared is None) == (withdrawn is None):
+        raise click.ClickException("Give either --declared DATE or --withdrawn DATE.")
+    day = lab_today()
+    try:
+        if declared is not None:
+            declare(db.session, person.id, declared.date(), today=day,
+                    conception_on=conception and conception.date(),
+                    expected_end_on=expected_end and expected_end.date())
+            done = f"Declaration of {declared.date()} recorded for {login}."
+        else:
+            in_force = open_declaration(db.session, person.id)
+            if in_force is None:
+                raise Invalid.one("withdrawn", f"{login} has no declaration in force.")
+            end_declaration(db.session, in_force, withdrawn.date(), WITHDRAWN, today=day)
+            done = f"Declaration of {in_force.declared_on} withdrawn on {withdrawn.date()}."
+    except Invalid as error:
+        db.session.rollback()
+        raise click.ClickException(str(error)) from error
+    db.session.commit()
+    click.echo(done)
