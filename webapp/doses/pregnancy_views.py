@@ -92,7 +92,8 @@ def pregnancy_change(person_id: int, action: str):
     try:
         if action == "declare":
             declare(db.session, person_id, declare_form.declared_on.data, today=lab_today(),
-                    recorded_by_id=current_user.id)
+                    recorded_by_id=current_user.id, conception_on=declare_form.conception_on.data,
+                    expected_end_on=declare_form.expected_end_on.data)
         else:
             current = open_declaration(db.session, person_id)
             if current is None:
