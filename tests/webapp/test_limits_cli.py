@@ -73,3 +73,15 @@ def test_the_default_set_is_the_first_attention_line_until_confirmed(app, make_p
     assert lab_settings(db.session).limit_set_by_default is False
     with app.test_request_context():
         assert not any("installed by default" in line.text for line in attention.collect())
+
+
+def test_limits_policies_changes_only_what_is_given(app):
+    runner = app.test_cli_runner()
+    result = runner.invoke(args=["limits", "policies", "--mrd", "half", "--lens-source", "hp10",
+                                 "--reason", "service advice"])
+    assert result.exit_code == 0, result.output
+    db.session.expire_all()
+    settings = lab_settings(db.session)
+    assert (settings.proration, settings.mrd_policy, settings.lens_source) == ("prorate_days", "half", "hp10")
+    refused = runner.invoke(args=["limits", "policies", "--mrd", "double", "--reason", "x"])
+    assert refused.exit_code != 0 and "--mrd" in refused.output

@@ -1,4 +1,4 @@
-"""`flask limits list|use` and the default limit set a new database gets on `flask db upgrade`."""
+"""`flask limits list|use|policies` and the default limit set a new database gets on `flask db upgrade`."""
 from __future__ import annotations
 
 import click
@@ -8,10 +8,11 @@ from flask import Flask, current_app
 from flask.cli import with_appcontext
 
 from models.audit import audit_ops
+from models.core.codes import LensSource, MrdPolicy, Proration
 from models.core.errors import Invalid
 from models.core.settings import lab_settings
 from models.exposure import presets
-from models.exposure.limit_set_ops import choose_limit_set, install_default, install_preset
+from models.exposure.limit_set_ops import choose_limit_set, install_default, install_preset, set_policies
 from models.exposure.tables import LimitSet
 from webapp.extensions import db
 
@@ -101,3 +102,28 @@ def install_cli(app: Flask) -> None:
                             help=original.help)
     app.cli.add_command(click.Group("db", commands={**group.commands, "upgrade": command},
                                     help=group.help), name="db")
+
+
+@limits.command("policies")
+@click.option("--proration", type=click.Choice([p.value for p in Proration]), default=None)
+@click.option("--mrd", type=click.Choice([m.value for m in MrdPolicy]), default=None)
+@click.option("--lens-source", type=click.Choice([s.value for s in LensSource]), default=None)
+@click.option("--reason", required=True, help="Why, for the audit trail.")
+@with_appcontext
+def policies(proration, mrd, lens_source, reason):
+    """Change the counting policies; those not given stay as they are."""
+    if not reason.strip():
+        raise click.ClickException("reason: Give a reason for the audit trail.")
+    settings = lab_settings(db.session)
+    values = {"proration": proration or settings.proration, "mrd_policy": mrd or settings.mrd_policy,
+              "lens_source": lens_source or settings.lens_source,
+              "five_year_first_year": settings.five_year_first_year}
+    try:
+        with audit_ops.reason(db.session, reason.strip()):
+            set_policies(db.session, settings, values)
+    except Invalid as error:
+        db.session.rollback()
+        raise _fail(error) from error
+    db.session.commit()
+    click.echo(f"Policies: proration {settings.proration}, MRD {settings.mrd_policy}, "
+               f"lens source {settings.lens_source}.")
