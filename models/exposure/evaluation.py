@@ -10,7 +10,7 @@ Arrays are (P, S, T) like DoseTotals.dose. Decisions:
 - A person with a pregnancy window also gets the declared_pregnant rules; where two rules cover
   one row, the lower limit wins.
 """
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -111,6 +111,25 @@ def evaluate(totals: DoseTotals, limit_set: LimitSetSpec, categories) -> Evaluat
         projected=projected,
         projected_level=level_codes(projected, level1, level2, limit),
     )
+
+
+def with_declaration_allowance(evaluation: Evaluation, before: np.ndarray, allowance_msv: float) -> Evaluation:
+    """The fetal limit raised for people whose fetal dose by the declaration was within
+    `allowance_msv` of it (or over it): they may receive `allowance_msv` more (10 CFR 20.1208(d)).
+
+    before: (P,) fetal dose counted before the declaration (NaN or 0 for none).
+    """
+    s, t = code(Series.FETUS), code(PeriodKind.PREGNANCY)
+    limit = evaluation.limit.copy()
+    near = np.nan_to_num(before, nan=0.0) + TOLERANCE_MSV >= limit[:, s, t] - allowance_msv
+    if not near.any():
+        return evaluation
+    limit[near, s, t] = np.maximum(limit[near, s, t], before[near] + allowance_msv)
+    dose, projected = evaluation.totals.dose, evaluation.projected
+    return replace(
+        evaluation, limit=limit, fraction=dose / limit, remaining=np.maximum(limit - dose, 0.0),
+        level=level_codes(dose, evaluation.level1, evaluation.level2, limit),
+        projected_level=level_codes(projected, evaluation.level1, evaluation.level2, limit))
 
 
 def person_rows(evaluation: Evaluation, person: int) -> list[dict]:

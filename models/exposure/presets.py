@@ -65,6 +65,11 @@ class LimitRuleSpec:
         )
 
 
+# 10 CFR 20.1208(d): a dose at or within 0.05 rem (0.5 mSv) of the limit by the declaration allows
+# 0.05 rem (0.5 mSv) more during the remainder of the pregnancy.
+DECLARATION_ALLOWANCE_MSV = 0.5
+
+
 @dataclass(frozen=True)
 class LimitSetSpec:
     """A named set of rules; at most one rule per (category, series, period)."""
@@ -73,7 +78,8 @@ class LimitSetSpec:
     name: str
     rules: tuple[LimitRuleSpec, ...]
     # The fetal rule counts the whole pregnancy, from conception (10 CFR 20.1208(a)), rather than
-    # from the declaration (ICRP 103 para 186, 2013/59/Euratom Art. 10).
+    # from the declaration (ICRP 103 para 186, 2013/59/Euratom Art. 10); such a set also allows
+    # DECLARATION_ALLOWANCE_MSV more after a declaration made near the limit (20.1208(d)).
     whole_pregnancy: bool = False
 
     def __post_init__(self):
@@ -204,9 +210,8 @@ def _cfr10_20() -> LimitSetSpec:
     cfr = "10 CFR"
     minors = f"{cfr} 20.1207 (minors: 10 % of the adult limits)"
     shallow = f"{cfr} 20.1201(a)(2)(ii) (shallow-dose equivalent"
-    # 20.1208(a) covers the entire pregnancy: the window starts at the estimated conception
-    # (whole_pregnancy below). 20.1208(d)'s extra 0.5 mSv after the declaration is not applied
-    # here, so a dose near the limit at declaration reads as the limit reached: fail closed.
+    # 20.1208(a) covers the entire pregnancy: the window starts at the estimated conception, and
+    # 20.1208(d)'s 0.5 mSv after a declaration made near the limit applies (whole_pregnancy below).
     rules = (
         _limit(ADULT, EFFECTIVE, YEAR, 50, f"{cfr} 20.1201(a)(1)(i), (c) (deep-dose equivalent)")
         + _limit(ADULT, LENS, YEAR, 150, f"{cfr} 20.1201(a)(2)(i) (lens dose equivalent)")

@@ -185,3 +185,32 @@ def test_people_pregnancy_refuses_with_the_field_named(app, make_person, args, f
     make_person("cat")
     result = _declare(app, "cat", *args)
     assert result.exit_code == 1 and field in result.output
+
+
+@pytest.mark.parametrize(
+    "monthly, may, limit, level",
+    [
+        # 1.2 mSv in each of January-April: 4.8 mSv by the declaration on 1 May, within 0.5 mSv of
+        # 5 mSv, so 10 CFR 20.1208(d) allows 0.5 more: limit 4.8 + 0.5 = 5.3. With May's 0.3 the
+        # fetus has 5.1 mSv: over 20.1208(a)'s 5 but inside the allowance; level II (0.375, local
+        # choice) reached, not the limit.
+        (1.2, 0.3, 4.8 + 0.5, "level_2"),
+        # 0.75 a month: 3.0 by the declaration, not within 0.5 of 5: the limit stays 5 mSv and
+        # 3.0 + 0.3 = 3.3 is at level II.
+        (0.75, 0.3, 5.0, "level_2"),
+        # 4.8 by the declaration and 0.6 in May: 5.4 > 5.3, the allowance is used up.
+        (1.2, 0.6, 4.8 + 0.5, "limit_reached"),
+    ],
+)
+def test_10_cfr_20_1208_d_allowance_after_a_late_declaration(app, make_person, make_dose, use_limit_set,
+                                                             monthly, may, limit, level):
+    use_limit_set("cfr10_20")
+    person = make_person("dee")
+    for month in (1, 2, 3, 4):
+        make_dose(person, value=monthly, **_month(month))
+    make_dose(person, value=may, wear_start=date(2026, 5, 1), wear_end=date(2026, 5, 31))
+    assert _declare(app, "dee", "--declared", "2026-05-01", "--conception", "2026-01-01").exit_code == 0
+    fetus = _row(_rows(app, "dee", date(2026, 5, 31)), "fetus", "pregnancy")
+    assert fetus["dose_msv"] == pytest.approx(4 * monthly + may)
+    assert fetus["limit_msv"] == pytest.approx(limit)
+    assert fetus["level"] == level
