@@ -154,8 +154,8 @@ class LabEvaluation:
 def evaluate_lab(session: Session, on: date) -> LabEvaluation:
     """Read the records in force and evaluate everyone on `on` with the lab's policies and limits."""
     settings = lab_settings(session)
-    people, categories = zip(*session.execute(
-        sa.select(Person.id, Person.category).order_by(Person.id)).all()) or ((), ())
+    everyone = session.execute(sa.select(Person.id, Person.category).order_by(Person.id)).all()
+    people, categories = zip(*everyone) if everyone else ((), ())
     person_ids = np.asarray(people, dtype=np.int64)
     records = read_records(session, person_ids)
     limit_set, policies = limit_set_of(settings), policies_of(settings)

@@ -247,3 +247,19 @@ def test_status_command_lists_what_needs_doing(app, rso, operator, session, make
     data = json.loads(result.output)
     assert data["meters"][0]["serial"] == "OLD-2" and data["meters"][0]["usable"] is False
     assert data["permits"][0]["state"] == "not_closed" and data["permits"][0]["instrument"] == "XRF"
+
+
+def test_a_survey_asked_for_twice_for_one_instrument_is_one_attention_line(app, make_instrument):
+    from models.surveys.survey_ops import raise_survey_task
+    from webapp.extensions import db
+    from models.surveys.tables import SurveyTrigger
+    from webapp.slots import attention
+
+    instrument = make_instrument(name="P9")
+    raise_survey_task(db.session, instrument, SurveyTrigger.DOSE_RISE, "Dose rise: level I.")
+    raise_survey_task(db.session, instrument, SurveyTrigger.DOSE_RISE, "Dose rise: level II.")
+    db.session.commit()
+    with app.test_request_context():
+        lines = [line for line in attention.collect() if line.label == "survey needed"]
+    assert len(lines) == 1
+    assert "level I." in lines[0].text and "level II." in lines[0].text
