@@ -251,8 +251,8 @@ def test_status_command_lists_what_needs_doing(app, rso, operator, session, make
 
 def test_a_survey_asked_for_twice_for_one_instrument_is_one_attention_line(app, make_instrument):
     from models.surveys.survey_ops import raise_survey_task
-    from webapp.extensions import db
     from models.surveys.tables import SurveyTrigger
+    from webapp.extensions import db
     from webapp.slots import attention
 
     instrument = make_instrument(name="P9")
