@@ -25,6 +25,7 @@ class Severity(enum.IntEnum):
     DOSIMETER_NOT_RETURNED = 100
     TRAINING = 110
     INCIDENT = 120
+    REVIEWED = 130  # a dose at a level whose investigation is signed off, until the next level or window
 
 
 SEVERITY_CLASS = {

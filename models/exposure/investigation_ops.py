@@ -84,7 +84,7 @@ def crossings(lab: LabEvaluation) -> list[Crossing]:
     ]
 
 
-def _covered(crossing: Crossing, earlier: list[Investigation]) -> bool:
+def covered(crossing: Crossing, earlier: list[Investigation]) -> bool:
     """Whether an existing investigation already covers this crossing (see module docstring)."""
     order = list(Level)
     for investigation in earlier:
@@ -115,7 +115,7 @@ def raise_investigations(session: Session, lab: LabEvaluation) -> list[Investiga
                       period=c.period, period_start=c.period_start, level=c.level,
                       dose_msv=c.dose_msv)
         for c in found
-        if not _covered(c, existing.get((c.person_id, c.series, c.period), []))
+        if not covered(c, existing.get((c.person_id, c.series, c.period), []))
     ]
     session.add_all(new)
     session.flush()
@@ -205,6 +205,17 @@ def sign_off(session: Session, investigation: Investigation, by: Person) -> Inve
     investigation.signed_off_at = utcnow()
     session.flush()
     return investigation
+
+
+def reviewed(session: Session, found: list[Crossing]) -> list[bool]:
+    """Per crossing: a signed-off investigation covers it (same window, same or higher level)."""
+    signed: dict[tuple, list[Investigation]] = {}
+    for investigation in session.scalars(sa.select(Investigation).where(
+            Investigation.signed_off_at.is_not(None),
+            Investigation.person_id.in_(sorted({c.person_id for c in found})))):
+        signed.setdefault((investigation.person_id, investigation.series, investigation.period),
+                          []).append(investigation)
+    return [covered(c, signed.get((c.person_id, c.series, c.period), [])) for c in found]
 
 
 def open_investigations(session: Session) -> list[tuple[Investigation, str]]:

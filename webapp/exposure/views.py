@@ -10,9 +10,11 @@ from models.core.codes import Level, Location, PeriodKind, Quantity, Series, cod
 from models.core.labels import LEVEL_LABELS, PERIOD_LABELS, dose_row_label
 from models.exposure.evaluation import effective_limit_gaps, worst_levels
 from models.exposure.investigation_ops import (
+    crossings,
     investigation_label,
     open_investigations,
     record_review,
+    reviewed,
     sign_off,
     validate_review,
 )
@@ -30,6 +32,7 @@ from webapp.slots import Attention, Severity, attention, navigation
 navigation.add("Investigations", "exposure.investigations", {Role.SAFETY_OFFICER}, order=60)
 
 # What a projection reaches, in words that read after "projected to reach".
+LEVEL_ORDER = list(Level)
 REACH = {code(Level.LEVEL_1): "level I", code(Level.LEVEL_2): "level II",
          code(Level.LIMIT_REACHED): "the limit"}
 LEVEL_SEVERITY = {
@@ -73,7 +76,9 @@ def investigation(investigation_id: int):
 
 @attention.add
 def dose_levels() -> list[Attention]:
-    """People at a level or a limit, or projected to cross one, from the cached evaluation."""
+    """Every series at a level or a limit (its worst period), and projected crossings, from the cached
+    evaluation; a crossing whose investigation is signed off shows as reviewed until the next
+    level or window."""
     lab = cached_lab_evaluation(db.session, lab_today())
     evaluation = lab.evaluation
     worst = worst_levels(evaluation)
@@ -82,24 +87,32 @@ def dose_levels() -> list[Attention]:
         return []
     names = dict(db.session.execute(sa.select(Person.id, Person.name).where(
         Person.id.in_(lab.person_ids[people].tolist()))).all())
+    found = [c for c in crossings(lab) if c.person_id in names]
+    done = reviewed(db.session, found)
+    # One line per person and series: the crossing at the highest level (the first one kept).
+    per_series: dict[tuple, tuple] = {}
+    for crossing, is_reviewed in sorted(zip(found, done), key=lambda x: -LEVEL_ORDER.index(x[0].level)):
+        per_series.setdefault((crossing.person_id, crossing.series), (crossing, is_reviewed))
     lines = []
-    for p, (s_proj, t_proj) in zip(people, _projected_rows(evaluation, people)):
-        level = int(worst.level[p])
-        name = names[int(lab.person_ids[p])]
-        reach = s_proj >= 0 and int(evaluation.projected_level[p, s_proj, t_proj])
-        if level:
-            row = _row_text(lab, p, worst.series[p], worst.period[p])
-            text = f"{name}: {row}, {LEVEL_LABELS[decode(Level, [level])[0]]}"
-            if reach > level:
-                text += (f"; {_row_label(lab, p, s_proj, t_proj)} projected to reach "
-                         f"{REACH[reach]} by its end")
-            severity, label = LEVEL_SEVERITY[level], LEVEL_LABELS[decode(Level, [level])[0]]
+    for crossing, is_reviewed in per_series.values():
+        name = names[crossing.person_id]
+        text = (f"{name}: {dose_row_label(crossing.series, crossing.quantity, crossing.location, crossing.period)}"
+                f": {dose(crossing.dose_msv)}, {LEVEL_LABELS[crossing.level]}")
+        url = url_for("exposure.person", person_id=crossing.person_id)
+        if is_reviewed:
+            lines.append(Attention(Severity.REVIEWED, text + " (investigation signed off)", url, "reviewed"))
         else:
-            text = (f"{name}: {_row_text(lab, p, s_proj, t_proj)}, projected to reach "
-                    f"{REACH[reach]} by the end of the {_period(t_proj)}")
-            severity, label = Severity.PROJECTED, "projected"
-        lines.append(Attention(severity, text, url_for("exposure.person", person_id=int(lab.person_ids[p])),
-                               label))
+            lines.append(Attention(LEVEL_SEVERITY[code(crossing.level)], text, url,
+                                   LEVEL_LABELS[crossing.level]))
+    for p, (s_proj, t_proj) in zip(people, _projected_rows(evaluation, people)):
+        reach = s_proj >= 0 and int(evaluation.projected_level[p, s_proj, t_proj])
+        if not reach:
+            continue
+        name = names[int(lab.person_ids[p])]
+        lines.append(Attention(Severity.PROJECTED,
+                               f"{name}: {_row_text(lab, p, s_proj, t_proj)}, projected to reach "
+                               f"{REACH[reach]} by the end of the {_period(t_proj)}",
+                               url_for("exposure.person", person_id=int(lab.person_ids[p])), "projected"))
     return lines
 
 
