@@ -67,3 +67,11 @@ def measured_label(series: str, quantity: str, location: str) -> str:
 def dose_row_label(series: str, quantity: str, location: str, period: str) -> str:
     """'Hp(10) whole body, quarter' or 'lens from Hp(0.07) whole body, quarter'."""
     return f"{measured_label(series, quantity, location)}, {PERIOD_LABELS[PeriodKind(period)]}"
+
+
+def shared_row_label(series: str, quantity: str, location: str, period: str) -> str:
+    """dose_row_label for text others may see (attention list, survey tasks, investigation lists):
+    a fetal row would disclose a pregnancy, so it reads only 'a confidential dose row'."""
+    if Series(series) is Series.FETUS:
+        return "a confidential dose row (see the person's page)"
+    return dose_row_label(series, quantity, location, period)

@@ -26,7 +26,7 @@ from sqlalchemy.orm import Session
 from models.core.base import utcnow
 from models.core.codes import Level, Location, PeriodKind, Quantity, Series, code, decode
 from models.core.errors import Invalid
-from models.core.labels import LEVEL_LABELS, dose_row_label
+from models.core.labels import LEVEL_LABELS, shared_row_label
 from models.exposure.lab_ops import LabEvaluation
 from models.exposure.tables import Investigation
 from models.instruments.tables import Authorisation, Instrument
@@ -123,9 +123,9 @@ def raise_investigations(session: Session, lab: LabEvaluation) -> list[Investiga
 
 
 def _row_of(investigation: Investigation) -> str:
-    """'Hp(10) whole body, quarter' for an investigation."""
-    return dose_row_label(investigation.series, investigation.quantity, investigation.location,
-                          investigation.period)
+    """'Hp(10) whole body, quarter' for an investigation (a fetal row stays confidential)."""
+    return shared_row_label(investigation.series, investigation.quantity, investigation.location,
+                            investigation.period)
 
 
 def investigation_label(investigation: Investigation) -> str:

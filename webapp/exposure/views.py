@@ -7,7 +7,7 @@ from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 
 from models.core.codes import Level, Location, PeriodKind, Quantity, Series, code, decode
-from models.core.labels import LEVEL_LABELS, PERIOD_LABELS, dose_row_label
+from models.core.labels import LEVEL_LABELS, PERIOD_LABELS, shared_row_label
 from models.exposure.evaluation import effective_limit_gaps, worst_levels
 from models.exposure.investigation_ops import (
     crossings,
@@ -96,7 +96,7 @@ def dose_levels() -> list[Attention]:
     lines = []
     for crossing, is_reviewed in per_series.values():
         name = names[crossing.person_id]
-        text = (f"{name}: {dose_row_label(crossing.series, crossing.quantity, crossing.location, crossing.period)}"
+        text = (f"{name}: {shared_row_label(crossing.series, crossing.quantity, crossing.location, crossing.period)}"
                 f": {dose(crossing.dose_msv)}, {LEVEL_LABELS[crossing.level]}")
         url = url_for("exposure.person", person_id=crossing.person_id)
         if is_reviewed:
@@ -111,7 +111,8 @@ def dose_levels() -> list[Attention]:
         name = names[int(lab.person_ids[p])]
         lines.append(Attention(Severity.PROJECTED,
                                f"{name}: {_row_text(lab, p, s_proj, t_proj)}, projected to reach "
-                               f"{REACH[reach]} by the end of the {_period(t_proj)}",
+                               f"{REACH[reach]} by the end of the "
+                               f"{'period' if s_proj == code(Series.FETUS) else _period(t_proj)}",
                                url_for("exposure.person", person_id=int(lab.person_ids[p])), "projected"))
     return lines
 
@@ -135,7 +136,7 @@ def _period(t: int) -> str:
 def _row_label(lab, p: int, s: int, t: int) -> str:
     """'Hp(10) whole body, quarter' for one row of the arrays."""
     totals = lab.totals
-    return dose_row_label(decode(Series, [s])[0], decode(Quantity, [totals.quantity[p, s]])[0],
+    return shared_row_label(decode(Series, [s])[0], decode(Quantity, [totals.quantity[p, s]])[0],
                           decode(Location, [totals.location[p, s, t]])[0],
                           decode(PeriodKind, [t])[0])
 
