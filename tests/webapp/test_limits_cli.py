@@ -85,3 +85,25 @@ def test_limits_policies_changes_only_what_is_given(app):
     assert (settings.proration, settings.mrd_policy, settings.lens_source) == ("prorate_days", "half", "hp10")
     refused = runner.invoke(args=["limits", "policies", "--mrd", "double", "--reason", "x"])
     assert refused.exit_code != 0 and "--mrd" in refused.output
+
+
+def test_changing_the_set_raises_investigations_at_once(app, make_person, make_dose, monkeypatch):
+    from datetime import date
+
+    import sqlalchemy as sa
+
+    from models.exposure.tables import Investigation
+
+    monkeypatch.setattr("webapp.exposure.notify.lab_today", lambda: date(2026, 11, 15))
+    ada = make_person("ada")
+    # 1.5 mSv Hp(10) and a nil Hp(0.07) in October; no limit set yet, so nothing is raised.
+    october = {"wear_start": date(2026, 10, 1), "wear_end": date(2026, 10, 31)}
+    make_dose(ada, value=1.5, **october)
+    make_dose(ada, value=0.0, quantity="Hp(0.07)", **october)
+    assert db.session.scalar(sa.select(sa.func.count()).select_from(Investigation)) == 0
+    result = app.test_cli_runner().invoke(args=["limits", "use", "icrp103", "--reason", "set-up"])
+    assert result.exit_code == 0, result.output
+    # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md, investigation levels)
+    raised = db.session.scalars(sa.select(Investigation)).all()
+    assert [(i.series, i.period, i.level) for i in raised] == [("effective", "quarter", "level_1")]
+    assert "1 new investigation" in result.output

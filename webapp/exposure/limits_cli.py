@@ -14,6 +14,7 @@ from models.core.settings import lab_settings
 from models.exposure import presets
 from models.exposure.limit_set_ops import choose_limit_set, install_default, install_preset, set_policies
 from models.exposure.tables import LimitSet
+from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 
 limits = click.Group("limits", help="The limit set in force: list the sets, choose one.")
@@ -66,7 +67,8 @@ def use(key: str, reason: str):
         db.session.rollback()
         raise _fail(error) from error
     db.session.commit()
-    click.echo(f"'{chosen.name}' is now the limit set in force.")
+    raised = review_dose_levels()
+    click.echo(f"'{chosen.name}' is now the limit set in force; {len(raised)} new investigation(s) raised.")
 
 
 def install_default_limit_set() -> LimitSet | None:
@@ -125,5 +127,6 @@ def policies(proration, mrd, lens_source, reason):
         db.session.rollback()
         raise _fail(error) from error
     db.session.commit()
-    click.echo(f"Policies: proration {settings.proration}, MRD {settings.mrd_policy}, "
+    raised = review_dose_levels()
+    click.echo(f"{len(raised)} new investigation(s) raised. Policies: proration {settings.proration}, MRD {settings.mrd_policy}, "
                f"lens source {settings.lens_source}.")
