@@ -18,6 +18,7 @@ from models.people.tables import Person
 from webapp import config, formatting, headers, slots
 from webapp.api.problems import API_PREFIX, problem
 from webapp.auth import login_sessions
+from webapp.exposure.limits_cli import install_cli
 from webapp.extensions import csrf, db, limiter, login_manager, migrate
 from webapp.settings.new_database import set_lab_zone_after_first_revision
 
@@ -74,6 +75,7 @@ def create_app(overrides: dict | None = None) -> Flask:
         module = __import__(name, fromlist=["bp"])
         app.register_blueprint(module.bp)
 
+    install_cli(app)  # after migrate.init_app, which adds the `db` group it extends
     formatting.install(app)
     slots.install(app)
     headers.install(app)

@@ -53,6 +53,8 @@ def from_environment(instance_path: str) -> dict:
         "SESSION_COOKIE_HTTPONLY": True,
         "SESSION_COOKIE_SAMESITE": "Lax",
         "SESSION_COOKIE_SECURE": _flag("SESSION_COOKIE_SECURE"),
+        # The preset a new database gets on `flask db upgrade`, marked as installed by default.
+        "LIMIT_SET": os.environ.get("LIMIT_SET", "icrp103"),
     }
 
 

@@ -20,6 +20,7 @@ from models.people.tables import Person, Role
 class Severity(enum.IntEnum):
     """Order of the safety officer's attention list: most severe first."""
 
+    LIMIT_SET = 5  # the limit set itself: none, not confirmed, or without a limit for someone
     LIMIT_REACHED = 10
     LEVEL_2 = 20
     LEVEL_1 = 30
@@ -34,9 +35,11 @@ class Severity(enum.IntEnum):
     DOSIMETER_NOT_RETURNED = 100
     TRAINING = 110
     INCIDENT = 120
+    REVIEWED = 130  # a dose at a level whose investigation is signed off, until the next level or window
 
 
 SEVERITY_CLASS = {
+    Severity.LIMIT_SET: "state-bad",
     Severity.LIMIT_REACHED: "state-bad", Severity.LEVEL_2: "state-bad",
     Severity.LEVEL_1: "state-warn", Severity.PROJECTED: "state-warn",
     Severity.OUT_OF_SERVICE: "state-bad", Severity.FAILED_CHECK: "state-bad",

@@ -35,6 +35,8 @@ LEVEL_LABELS = {
     Level.LEVEL_1: "level I",
     Level.LEVEL_2: "level II",
     Level.LIMIT_REACHED: "limit reached",
+    # A row no rule covers (evaluation.NO_LIMIT): nothing was assessed, so never "below level I".
+    "no_limit": "no limit in this set",
 }
 RESULT_LABELS = {
     Result.MEASURED: "measured",
@@ -77,3 +79,11 @@ def measured_label(series: str, quantity: str, location: str) -> str:
 def dose_row_label(series: str, quantity: str, location: str, period: str) -> str:
     """'Hp(10) whole body, calendar quarter' or 'lens from Hp(0.07) whole body, calendar quarter'."""
     return f"{measured_label(series, quantity, location)}, {PERIOD_LABELS[PeriodKind(period)]}"
+
+
+def shared_row_label(series: str, quantity: str, location: str, period: str) -> str:
+    """dose_row_label for text others may see (attention list, survey tasks, investigation lists):
+    a fetal row would disclose a pregnancy, so it reads only 'a confidential dose row'."""
+    if Series(series) is Series.FETUS:
+        return "a confidential dose row (see the person's page)"
+    return dose_row_label(series, quantity, location, period)

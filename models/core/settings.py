@@ -29,6 +29,8 @@ class LabSettings(IdMixin, Base):
     lab_name: Mapped[str] = mapped_column(sa.String(200), default="X-ray laboratory")
     timezone: Mapped[str] = mapped_column(sa.String(64), default="UTC")
     limit_set_id: Mapped[int | None] = mapped_column(sa.ForeignKey("limit_set.id"))
+    # Installed when the database was created, and not yet confirmed or changed by the safety officer.
+    limit_set_by_default: Mapped[bool] = mapped_column(default=False, server_default=sa.false())
     proration: Mapped[Proration] = mapped_column(
         enum_column(Proration), default=Proration.PRORATE_DAYS
     )

@@ -16,16 +16,19 @@ import sqlalchemy as sa
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, joinedload
 
-from models.core.base import taken
+from models.core.base import taken, utcnow
 from models.core.bounds import DATE_MESSAGE, date_in_range
 from models.core.codes import Location, Quantity, Result
 from models.core.errors import Invalid
+from models.core.settings import lab_date
 from models.core.units import DOSE_UNITS
 from models.doses.record_ops import (
     DoseEntry,
+    dosimeter_periods,
     duplicate_message,
     entry_errors,
     existing_current_keys,
+    overlap_message,
     record_from,
     unit_of,
 )
@@ -241,24 +244,32 @@ def _validate_rows(session: Session, rows: list[Row], layout: Layout) -> None:
     dosimeters = {d.serial: d for d in session.scalars(
         sa.select(Dosimeter).where(Dosimeter.serial.in_(serials)).options(joinedload(Dosimeter.wearer)))} \
         if serials else {}
+    today = lab_date(session, utcnow())
     for row in rows:
-        _parse_row(row, layout, people, dosimeters)
+        _parse_row(row, layout, people, dosimeters, today)
     existing = existing_current_keys(session, {r.entry.person_id for r in rows if r.entry} - {None})
+    periods = dosimeter_periods(session, {r.entry.dosimeter_id for r in rows if r.entry})
     first_line: dict[tuple, int] = {}
     for row in rows:
         if row.entry is None or row.errors:
             continue
         key = row.entry.key
+        overlap = overlap_message(row.entry, periods) if row.entry.dosimeter_id else None
         if key in existing:
             row.errors[DUPLICATE] = duplicate_message(existing[key])
         elif key in first_line:
             row.errors[DUPLICATE] = (f"Repeats line {first_line[key]} of this file (same person, "
                                      "quantity, location and wear period).")
+        elif overlap:
+            row.errors["wear_start"] = overlap
         else:
             first_line[key] = row.line
+            if row.entry.dosimeter_id:  # later lines may not overlap this one either (id 0: a line)
+                periods.setdefault((row.entry.dosimeter_id, row.entry.quantity), []).append(
+                    (row.entry.wear_start, row.entry.wear_end, 0))
 
 
-def _parse_row(row: Row, layout: Layout, people: dict, dosimeters: dict) -> None:
+def _parse_row(row: Row, layout: Layout, people: dict, dosimeters: dict, today: date) -> None:
     """Turn one row's cells into a dose entry, collecting every error on the way."""
     cells, errors = row.cells, row.errors
     login, serial = cells.get("person", ""), cells.get("dosimeter", "")
@@ -315,7 +326,7 @@ def _parse_row(row: Row, layout: Layout, people: dict, dosimeters: dict) -> None
         person_id=row.person.id if row.person else None, dosimeter_id=row.dosimeter.id if row.dosimeter else None,
         wear_start=dates.get("wear_start"), wear_end=dates.get("wear_end"), quantity=quantity,
         location=location, result=result, value=numbers["value"], unit=unit, mrd=numbers["mrd"])
-    semantic = entry_errors(row.entry, row.dosimeter)
+    semantic = entry_errors(row.entry, row.dosimeter, today)
     row.errors.update({f: m for f, m in semantic.items() if f not in errors})
 
 

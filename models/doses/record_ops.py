@@ -13,8 +13,10 @@ from datetime import date
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
+from models.core.base import utcnow
 from models.core.codes import SOURCES, Location, Quantity, Result
 from models.core.errors import Invalid
+from models.core.settings import lab_date
 from models.core.units import DOSE_UNITS, from_msv, to_msv
 from models.doses.dosimeter_ops import describe_dosimeter, location_of
 from models.doses.tables import DoseRecord, DoseSource, Dosimeter
@@ -64,18 +66,36 @@ def _amount(value: float, unit: str) -> str:
     return f"{value:g} {unit}"
 
 
-def entry_errors(entry: DoseEntry, dosimeter: Dosimeter | None = None) -> dict[str, str]:
-    """Every rule a dose entry breaks, by field; `dosimeter` is the entry's dosimeter if it has one."""
+# Wear dates outside these cannot be right for this logbook (and would distort every period sum).
+EARLIEST_WEAR, LATEST_WEAR = date(1950, 1, 1), date(2100, 12, 31)
+
+
+def _wear_date_errors(entry: DoseEntry, today: date | None) -> dict[str, str]:
+    """Wear dates present, in order, within EARLIEST_WEAR..LATEST_WEAR, and not ending after today."""
+    errors: dict[str, str] = {}
+    for name, day, what in (("wear_start", entry.wear_start, "first"), ("wear_end", entry.wear_end, "last")):
+        if day is None:
+            errors[name] = f"Enter the {what} day of the wear period."
+        elif not EARLIEST_WEAR <= day <= LATEST_WEAR:
+            errors[name] = f"{day} is outside {EARLIEST_WEAR.year}-{LATEST_WEAR.year}: check the date."
+    if errors:
+        return errors
+    if entry.wear_end < entry.wear_start:
+        errors["wear_end"] = (f"The wear period ends on {entry.wear_end} before it starts on "
+                              f"{entry.wear_start}.")
+    elif today is not None and entry.wear_end > today:
+        errors["wear_end"] = (f"The wear period ends on {entry.wear_end}, after today ({today}) in the "
+                              "lab's time zone: a result cannot cover days not yet worn.")
+    return errors
+
+
+def entry_errors(entry: DoseEntry, dosimeter: Dosimeter | None = None, today: date | None = None) -> dict[str, str]:
+    """Every rule a dose entry breaks, by field; `dosimeter` is the entry's dosimeter if it has one,
+    `today` the lab's date (wear periods may not end after it)."""
     errors: dict[str, str] = {}
     if entry.person_id is None:
         errors["person"] = "Choose whose dose this is."
-    if entry.wear_start is None:
-        errors["wear_start"] = "Enter the first day of the wear period."
-    if entry.wear_end is None:
-        errors["wear_end"] = "Enter the last day of the wear period."
-    elif entry.wear_start is not None and entry.wear_end < entry.wear_start:
-        errors["wear_end"] = (f"The wear period ends on {entry.wear_end} before it starts on "
-                              f"{entry.wear_start}.")
+    errors.update(_wear_date_errors(entry, today))
     if (entry.quantity, entry.location) not in ALLOWED_PAIRS:
         errors["location"] = (f"{entry.quantity.value} is not recorded at {entry.location.value.replace('_', ' ')}: "
                               f"use {PAIRS_HELP}.")
@@ -148,10 +168,35 @@ def duplicate_message(record_id: int) -> str:
             "and wear period: correct that one instead.")
 
 
+def dosimeter_periods(session: Session, dosimeter_ids) -> dict[tuple, list[tuple[date, date, int]]]:
+    """(dosimeter id, quantity) -> [(wear start, wear end, record id)] of the current records."""
+    ids = sorted(set(dosimeter_ids) - {None})
+    periods: dict[tuple, list] = {}
+    if ids:
+        for dosimeter_id, quantity, start, end, record_id in session.execute(
+                sa.select(DoseRecord.dosimeter_id, DoseRecord.quantity, DoseRecord.wear_start,
+                          DoseRecord.wear_end, DoseRecord.id)
+                .where(is_current(), DoseRecord.dosimeter_id.in_(ids))):
+            periods.setdefault((dosimeter_id, quantity), []).append((start, end, record_id))
+    return periods
+
+
+def overlap_message(entry: DoseEntry, periods: dict[tuple, list], replacing_id: int | None = None) -> str | None:
+    """Why an entry's wear period cannot be right: its dosimeter already has a result for some of
+    those days (a correction of that very record aside); None when it has not."""
+    for start, end, record_id in periods.get((entry.dosimeter_id, entry.quantity), []):
+        if record_id != replacing_id and start <= entry.wear_end and entry.wear_start <= end:
+            where = f"record #{record_id}" if record_id else "another line of this file"
+            return (f"This dosimeter already has a {entry.quantity.value} result for {start} to {end} "
+                    f"({where}), which overlaps this wear period: correct that record instead.")
+    return None
+
+
 def validate_entry(session: Session, entry: DoseEntry, *, replacing: DoseRecord | None = None) -> None:
-    """Refuse an entry that breaks a rule or repeats a current record (other than the one replaced)."""
+    """Refuse an entry that breaks a rule, repeats a current record (other than the one replaced),
+    or overlaps another wear period of its dosimeter."""
     dosimeter = session.get(Dosimeter, entry.dosimeter_id) if entry.dosimeter_id else None
-    errors = entry_errors(entry, dosimeter)
+    errors = entry_errors(entry, dosimeter, lab_date(session, utcnow()))
     if entry.dosimeter_id and dosimeter is None:
         errors["dosimeter"] = "There is no such dosimeter."
     if entry.person_id is not None and session.get(Person, entry.person_id) is None:
@@ -160,6 +205,11 @@ def validate_entry(session: Session, entry: DoseEntry, *, replacing: DoseRecord 
         twin = existing_current_keys(session, [entry.person_id]).get(entry.key)
         if twin is not None and (replacing is None or twin != replacing.id):
             errors["wear_start"] = duplicate_message(twin)
+        elif entry.dosimeter_id:
+            overlap = overlap_message(entry, dosimeter_periods(session, [entry.dosimeter_id]),
+                                      replacing.id if replacing else None)
+            if overlap:
+                errors["wear_start"] = overlap
     if errors:
         raise Invalid(errors)
 

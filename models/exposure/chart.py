@@ -13,7 +13,7 @@ from datetime import date
 import numpy as np
 from dateutil.relativedelta import relativedelta
 
-from models.core.codes import PeriodKind, Quantity, Series, code
+from models.core.codes import PeriodKind, Series, code
 from models.doses.tables import DoseRecord
 from models.exposure.engine import DoseRecords, Policies, compute_doses
 
@@ -85,16 +85,12 @@ def fetal_months(
 ) -> MonthlyDose:
     """Fetal dose in each month of a declared pregnancy, from its declaration up to `on`.
 
-    year_to_date holds the running total since the declaration (what the fetal limit applies to).
-    The months use the dosimeter the evaluation on `on` uses (abdomen, else whole body), so an
-    abdomen dosimeter issued mid-window does not change the earlier months' source.
+    year_to_date holds the running total since the window's start (what the fetal limit applies
+    to). Each day reads the abdomen dosimeter if one was worn, else whole body, as the engine does.
     """
     start = np.array([declared_on], dtype="datetime64[D]")
     end = np.array([ended_on or np.datetime64("NaT")], dtype="datetime64[D]")
     s, t = code(Series.FETUS), code(PeriodKind.PREGNANCY)
-    source = compute_doses(records, 1, on, policies, start, end).location[0, s, t]
-    records = _subset(records, (records.quantity == code(Quantity.HP10))
-                      & (records.location == source))
     starts = month_starts(on, (on.year - declared_on.year) * 12 + on.month - declared_on.month + 1)
     since, missing = [], []
     for first in starts:
@@ -105,9 +101,3 @@ def fetal_months(
     dose = np.diff(since, prepend=0.0)
     # Missing results are counted per window, so a month's own count is the rise since the last.
     return MonthlyDose(on, starts, dose, since, np.diff(np.array(missing), prepend=0))
-
-
-def _subset(records: DoseRecords, keep: np.ndarray) -> DoseRecords:
-    """The records where `keep` is true."""
-    return DoseRecords(**{name: getattr(records, name)[keep] for name in (
-        "person", "quantity", "location", "wear_start", "wear_end", "value", "result", "mrd")})

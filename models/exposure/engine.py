@@ -11,6 +11,13 @@ Decisions, shown here once so pages can quote them:
 - Records starting after `on` are ignored altogether, so an evaluation on a past date does not
   depend on records that came later (this includes the lens and fetal source choice).
 - Only the (quantity, location) pairs in SOURCES are counted; any other pair is ignored.
+- Lens and fetal sources are decided per day of wear, not per person: a day counts the dedicated
+  dosimeter (Hp(3) at the eye; Hp(10) at the abdomen) if one was worn that day (any result but
+  unused), else the stand-in (the lens source policy's whole-body quantity; Hp(10) whole body),
+  else the other whole-body quantity (flagged in `DoseTotals.stand_in`). Days on which the person
+  wore only other dosimeters (rings) count as missing results, never as zero. This is done on
+  intervals: each stand-in record is cut into the pieces of its wear period that the dosimeters
+  ranked above it did not cover, and the pieces are summed like records.
 """
 from dataclasses import dataclass
 from datetime import date
@@ -33,6 +40,13 @@ from models.core.codes import (
 from models.exposure.periods import Windows, fixed_windows, period_windows
 
 _HP10_WB, _HP007_WB, _HP3, _LEFT, _RIGHT, _ABDOMEN = range(len(SOURCES))
+# Channels made of record pieces, after the measured ones: the stand-in (A) and the other
+# whole-body quantity (B) on days without the dedicated dosimeter, and the days with neither (GAP).
+_LENS_A, _LENS_B, _LENS_GAP, _FETUS_A, _FETUS_B, _FETUS_GAP = range(len(SOURCES), len(SOURCES) + 6)
+_N_CHANNELS = len(SOURCES) + 6
+_OTHER_WB = {_HP007_WB: _HP10_WB, _HP10_WB: _HP007_WB}
+# Interval keys: person * _SPAN + day + _SHIFT keeps each person's days apart and non-negative.
+_SPAN, _SHIFT = 1 << 33, 1 << 31
 _CHANNEL = np.full((len(Quantity), len(Location)), -1, dtype=np.int8)
 for _channel, (_q, _l) in enumerate(SOURCES):
     _CHANNEL[code(_q), code(_l)] = _channel
@@ -138,11 +152,16 @@ def person_index(person_ids, people) -> np.ndarray:
 class DoseTotals:
     """Engine output for P people on one date.
 
-    dose: (P, S, T) float mSv, NaN where the person has no such window.
-    missing: (P, S, T) int, records in the window that carry no dose yet (lost or not returned
-    without an estimate, or measured without a value): pages show "n results missing".
-    quantity: (P, S) Quantity codes of the records behind each series.
+    dose: (P, S, T) float mSv, NaN where the person has no such window (the fetus: no pregnancy).
+    missing: (P, S, T) int, results in the window that carry no dose yet (lost or not returned
+    without an estimate, or measured without a value), plus, for the lens and the fetus, the
+    records of other dosimeters worn on days that no series source covers: pages show
+    "n results missing".
+    quantity: (P, S) Quantity codes of the records behind each series (for the lens and fetus,
+    the dedicated dosimeter if the person wore one, else the stand-in).
     location: (P, S, T) Location codes (the worst hand can change from one period to the next).
+    stand_in: (P, S, T) bool, some days of the window counted the other whole-body quantity
+    because the chosen stand-in was not reported for them (lens and fetus only).
     """
 
     on: date
@@ -152,6 +171,27 @@ class DoseTotals:
     missing: np.ndarray
     quantity: np.ndarray
     location: np.ndarray
+    stand_in: np.ndarray
+
+
+@dataclass(frozen=True)
+class _Rows:
+    """What the per-period passes sum: the records, then the pieces cut from them.
+
+    key: person * _N_CHANNELS + channel (records that count for nothing: the spare bin);
+    first, last: the days the share is taken over; weight: mSv per share unit; lacking: index
+    of the rows that are holes; hole: per lacking row, which record of which channel it is
+    (a record cut in pieces is still one missing result); other: index of the rows read from
+    the other whole-body quantity.
+    """
+
+    key: np.ndarray
+    first: np.ndarray
+    last: np.ndarray
+    weight: np.ndarray
+    lacking: np.ndarray
+    hole: np.ndarray
+    other: np.ndarray
 
 
 def compute_doses(
@@ -172,63 +212,67 @@ def compute_doses(
     if len(records) and not 0 <= records.person.min() <= records.person.max() < n_people:
         raise ValueError("a person index is outside 0..n_people-1")
     on_day = _day(on)
-    # Day numbers fit int32, which halves the memory traffic of the per-period passes.
-    first = records.wear_start.view(np.int64).astype(np.int32)
-    last = records.wear_end.view(np.int64).astype(np.int32)
-    n_channels = len(SOURCES)
-    size = n_people * n_channels
-    channel = _CHANNEL.ravel()[records.quantity * len(Location) + records.location]
-    # Records that count for nothing go to a spare bin past the end instead of being copied out.
-    key = np.where((channel >= 0) & (first <= on_day), records.person * n_channels + channel, size)
-    amount = _amount(records, policies.mrd)
+    t_pregnancy = code(PeriodKind.PREGNANCY)
+    pregnant = windows.exists[:, t_pregnancy]
     prorate = policies.proration is Proration.PRORATE_DAYS
-    rate = amount / (last - first + 1) if prorate else amount
-    maybe_lacking = np.flatnonzero(np.isnan(records.value))
-    lacking = maybe_lacking[np.isin(records.result[maybe_lacking], _MAY_LACK_VALUE)]
+    rows, has = _rows(records, n_people, on_day, policies, pregnant)
+    size = n_people * _N_CHANNELS
+    n_periods = len(PeriodKind)
+    raw = np.zeros((size + 1, n_periods))
+    holes = np.zeros((size + 1, n_periods))
+    other_days = np.zeros((size + 1, n_periods))
+    row_person = rows.key // _N_CHANNELS
 
-    raw = np.zeros((size + 1, len(PeriodKind)))
-    holes = np.zeros((size + 1, len(PeriodKind)))
-
-    def window_of(rows, lo, hi):
-        """(lo, hi) for the records `rows`: as given if scalars, else looked up per person."""
+    def window_of(selected, lo, hi):
+        """(lo, hi) for the rows `selected`: as given if scalars, else looked up per person."""
         if np.ndim(lo) == 0:
             return lo, hi
-        person = records.person[rows]
+        person = np.minimum(row_person[selected], n_people - 1)
         return lo[person], hi[person]
 
-    def add(t: int, rows, lo, hi) -> None:
-        """Sum records `rows`, and the missing results, into period kind t over [lo, hi]."""
-        share = _share(first[rows], last[rows], *window_of(rows, lo, hi), prorate)
-        raw[:, t] = np.bincount(key[rows], weights=share * rate[rows], minlength=size + 1)
-        share = _share(first[lacking], last[lacking], *window_of(lacking, lo, hi), prorate)
-        holes[:, t] = np.bincount(key[lacking], weights=share > 0, minlength=size + 1)
+    def share(selected, lo, hi):
+        """Share of each selected row inside [lo, hi]."""
+        return _share(rows.first[selected], rows.last[selected], *window_of(selected, lo, hi), prorate)
+
+    def add(t: int, selected, lo, hi) -> None:
+        """Sum rows `selected`, the holes and the other-quantity days into period kind t over [lo, hi]."""
+        raw[:, t] = np.bincount(rows.key[selected], weights=share(selected, lo, hi) * rows.weight[selected],
+                                minlength=size + 1)
+        inside = share(rows.lacking, lo, hi) > 0
+        _, once = np.unique(rows.hole[inside], return_index=True)
+        holes[:, t] = np.bincount(rows.key[rows.lacking[inside][once]], minlength=size + 1)
+        other_days[:, t] = np.bincount(rows.key[rows.other], weights=share(rows.other, lo, hi) > 0,
+                                       minlength=size + 1)
 
     fixed = fixed_windows(on, policies.first_block_year)
-    # Short windows only need records ending inside the widest of them: a small part of the history.
+    # Short windows only need rows ending inside the widest of them: a small part of the history.
     short_start = min(_day(start) for kind, (start, _) in fixed.items() if kind not in _LONG)
-    recent = np.flatnonzero(last >= short_start)
+    recent = np.flatnonzero(rows.last >= short_start)
     for kind, (start, end) in fixed.items():
-        rows = slice(None) if kind in _LONG else recent
-        add(code(kind), rows, _day(start), min(_day(end), on_day))
+        selected = slice(None) if kind in _LONG else recent
+        add(code(kind), selected, _day(start), min(_day(end), on_day))
 
-    t = code(PeriodKind.PREGNANCY)
-    pregnant = windows.exists[:, t]
     if pregnant.any():
         # Empty windows get lo > hi so nothing overlaps them.
-        lo = np.where(pregnant, windows.start[:, t].view(np.int64), 1).astype(np.int32)
-        hi = np.where(pregnant, windows.counted_end[:, t].view(np.int64), 0).astype(np.int32)
-        add(t, np.flatnonzero(pregnant[records.person]), lo, hi)
+        lo = np.where(pregnant, windows.start[:, t_pregnancy].view(np.int64), 1).astype(np.int32)
+        hi = np.where(pregnant, windows.counted_end[:, t_pregnancy].view(np.int64), 0).astype(np.int32)
+        in_pregnancy = row_person < n_people
+        in_pregnancy[in_pregnancy] = pregnant[row_person[in_pregnancy]]
+        add(t_pregnancy, np.flatnonzero(in_pregnancy), lo, hi)
 
-    n_periods = len(PeriodKind)
-    raw = raw[:size].reshape(n_people, n_channels, n_periods)
-    holes = holes[:size].reshape(n_people, n_channels, n_periods).astype(np.int64)
-    has = np.bincount(key, minlength=size + 1)[:size].reshape(n_people, n_channels) > 0
-    lens_channel = np.where(has[:, _HP3], _HP3, _LENS_SUBSTITUTE[policies.lens_source])
-    fetal_channel = np.where(has[:, _ABDOMEN], _ABDOMEN, _HP10_WB)
-    dose = _series(raw, lens_channel, fetal_channel, np.maximum(raw[:, _LEFT], raw[:, _RIGHT]))
+    def channels(array):
+        return array[:size].reshape(n_people, _N_CHANNELS, n_periods)
+
+    raw, holes, other_days = channels(raw), channels(holes).astype(np.int64), channels(other_days)
+    lens_direct = _LENS_SUBSTITUTE[policies.lens_source]
+    dose = _series(raw, has, lens_direct, np.maximum(raw[:, _LEFT], raw[:, _RIGHT]), gap=False)
     # Either hand may turn out the worse once its missing results arrive.
-    missing = _series(holes, lens_channel, fetal_channel, holes[:, _LEFT] + holes[:, _RIGHT])
-    quantity, location = _sources(raw, lens_channel, fetal_channel)
+    missing = _series(holes, has, lens_direct, holes[:, _LEFT] + holes[:, _RIGHT], gap=True)
+    dose[:, code(Series.FETUS)] = np.where(pregnant[:, None], dose[:, code(Series.FETUS)], np.nan)
+    stand_in = np.zeros(dose.shape, dtype=bool)
+    stand_in[:, code(Series.LENS)] = other_days[:, _LENS_B] > 0
+    stand_in[:, code(Series.FETUS)] = other_days[:, _FETUS_B] > 0
+    quantity, location = _sources(raw, has, lens_direct)
     return DoseTotals(
         on=on,
         policies=policies,
@@ -237,7 +281,135 @@ def compute_doses(
         missing=missing,
         quantity=quantity,
         location=location,
+        stand_in=stand_in,
     )
+
+
+def _rows(records: DoseRecords, n_people: int, on_day: int, policies: Policies,
+          pregnant: np.ndarray) -> tuple[_Rows, np.ndarray]:
+    """The rows to sum, and (P, len(SOURCES)) whether each person has counted records per channel."""
+    # Day numbers fit int32, which halves the memory traffic of the per-period passes.
+    first = records.wear_start.view(np.int64).astype(np.int32)
+    last = records.wear_end.view(np.int64).astype(np.int32)
+    person = records.person
+    channel = _CHANNEL.ravel()[records.quantity * len(Location) + records.location]
+    counted = (channel >= 0) & (first <= on_day)
+    size = n_people * _N_CHANNELS
+    key = np.where(counted, person * _N_CHANNELS + channel, size)
+    has = np.zeros((n_people, len(SOURCES)), dtype=bool)
+    has[person[counted], channel[counted]] = True
+    amount = _amount(records, policies.mrd)
+    days = last - first + 1
+    prorate = policies.proration is Proration.PRORATE_DAYS
+    rate = amount / days if prorate else amount
+    lacking = np.isnan(records.value) & np.isin(records.result, _MAY_LACK_VALUE)
+    # A dosimeter reported unused was not worn: it covers no day.
+    worn = counted & (records.result != code(Result.UNUSED))
+
+    counted_in = [np.flatnonzero(counted & (channel == c)) for c in range(len(SOURCES))]
+    worn_in = [rows[worn[rows]] for rows in counted_in]
+
+    def of(by_channel, *channel_set, among=None):
+        """Index of the records of these channels (of the people in `among`, if given)."""
+        rows = np.concatenate([by_channel[c] for c in channel_set])
+        return rows if among is None else rows[among[person[rows]]]
+
+    whole_body = (_HP10_WB, _HP007_WB)
+    lens_sub = _LENS_SUBSTITUTE[policies.lens_source]
+    lens_other = _OTHER_WB[lens_sub]
+    # Without an Hp(3) dosimeter the lens reads the stand-in's own channel: no pieces needed.
+    with_eye = has[:, _HP3]
+    cuts = (
+        (_LENS_A, of(counted_in, lens_sub, among=with_eye), of(worn_in, _HP3)),
+        (_LENS_B, of(counted_in, lens_other), of(worn_in, _HP3, lens_sub)),
+        (_LENS_GAP, of(worn_in, _LEFT, _RIGHT, _ABDOMEN), of(worn_in, _HP3, *whole_body)),
+        (_FETUS_A, of(counted_in, _HP10_WB, among=pregnant), of(worn_in, _ABDOMEN, among=pregnant)),
+        (_FETUS_B, of(counted_in, _HP007_WB, among=pregnant),
+         of(worn_in, _ABDOMEN, _HP10_WB, among=pregnant)),
+        (_FETUS_GAP, of(worn_in, _LEFT, _RIGHT, _HP3, among=pregnant),
+         of(worn_in, _ABDOMEN, *whole_body, among=pregnant)),
+    )
+    keys, firsts, lasts, weights, lacks, others = [key], [first], [last], [rate], [lacking], []
+    origins = [np.arange(len(records))]
+    offset = len(records)
+    for slot, (piece_channel, source, cover) in enumerate(cuts, start=1):
+        origin, piece_first, piece_last = _cut(person, first, last, source, cover)
+        gap = piece_channel in (_LENS_GAP, _FETUS_GAP)
+        keys.append(person[origin] * _N_CHANNELS + piece_channel)
+        firsts.append(piece_first)
+        # Counted whole at its wear end, a record's piece weighs its share of the record's days.
+        lasts.append(piece_last if prorate else last[origin])
+        kept = 1.0 if prorate else (piece_last - piece_first + 1) / days[origin]
+        weights.append(np.zeros(len(origin)) if gap else rate[origin] * kept)
+        lacks.append(np.ones(len(origin), dtype=bool) if gap else lacking[origin])
+        origins.append(slot * len(records) + origin)
+        if piece_channel in (_LENS_B, _FETUS_B):
+            others.append(offset + np.arange(len(origin)))
+        offset += len(origin)
+    lacking_rows = np.flatnonzero(np.concatenate(lacks))
+    rows = _Rows(
+        key=np.concatenate(keys),
+        first=np.concatenate(firsts).astype(np.int32),
+        last=np.concatenate(lasts).astype(np.int32),
+        weight=np.concatenate(weights),
+        lacking=lacking_rows,
+        hole=np.concatenate(origins)[lacking_rows],
+        other=np.concatenate(others),
+    )
+    return rows, has
+
+
+def _union(person: np.ndarray, first: np.ndarray, last: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sorted, disjoint (start, end) interval keys covering the given days of each person."""
+    base = person.astype(np.int64) * _SPAN + _SHIFT
+    start, end = base + first, base + last
+    order = np.argsort(start, kind="stable")
+    start, end = start[order], end[order]
+    if not len(start):
+        return start, end
+    reach = np.maximum.accumulate(end)
+    new = np.ones(len(start), dtype=bool)
+    new[1:] = start[1:] > reach[:-1] + 1
+    closing = np.flatnonzero(np.append(new[1:], True))
+    return start[new], reach[closing]
+
+
+def _cut(person: np.ndarray, first: np.ndarray, last: np.ndarray, source: np.ndarray,
+         cover: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Pieces of the wear periods of records `source` on days no record `cover` of the same person covers.
+
+    Returns (record index, first day, last day) per piece.
+    """
+    concerned = np.zeros(int(person.max(initial=-1)) + 1, dtype=bool)
+    concerned[person[source]] = True
+    cover = cover[concerned[person[cover]]]  # only the covers of people with records to cut
+    cover_start, cover_end = _union(person[cover], first[cover], last[cover])
+    base = person[source].astype(np.int64) * _SPAN + _SHIFT
+    a, b = base + first[source], base + last[source]
+    inside_from = np.searchsorted(cover_end, a, "left")  # first cover ending on or after a
+    inside_to = np.searchsorted(cover_start, b, "right")  # covers starting on or before b
+    k = inside_to - inside_from
+    # Most records are either untouched (k = 0) or inside one cover: only the rest need cutting.
+    at_first = np.minimum(inside_from, max(len(cover_start) - 1, 0))
+    if len(cover_start):
+        inside_one = (k == 1) & (cover_start[at_first] <= a) & (cover_end[at_first] >= b)
+    else:
+        inside_one = np.zeros(len(source), dtype=bool)
+    whole = np.flatnonzero(k <= 0)
+    cut = np.flatnonzero((k > 0) & ~inside_one)
+    n = k[cut] + 1  # k covers inside leave up to k + 1 pieces
+    origin = np.repeat(cut, n)
+    j = np.arange(int(n.sum())) - np.repeat(np.cumsum(n) - n, n)
+    at = inside_from[origin] + j
+    # Padded so the unused index of a first or last piece stays valid.
+    ends, starts = np.append(cover_end, 0), np.append(cover_start, 0)
+    lo = np.where(j == 0, a[origin], ends[at - 1] + 1)
+    hi = np.where(j == k[origin], b[origin], starts[np.minimum(at, len(cover_start))] - 1)
+    keep = lo <= hi
+    origin = np.concatenate([whole, origin[keep]])
+    lo = np.concatenate([a[whole], lo[keep]])
+    hi = np.concatenate([b[whole], hi[keep]])
+    return source[origin], lo - base[origin], hi - base[origin]
 
 
 def _day(day: date) -> int:
@@ -262,34 +434,43 @@ def _amount(records: DoseRecords, mrd_policy: MrdPolicy) -> np.ndarray:
     return amount
 
 
-def _series(
-    per_channel: np.ndarray,
-    lens_channel: np.ndarray,
-    fetal_channel: np.ndarray,
-    worst_hand: np.ndarray,
-) -> np.ndarray:
-    """(P, S, T) series from (P, channels, T) channel sums and the (P, T) worst-hand figure."""
+def _series(per_channel: np.ndarray, has: np.ndarray, lens_direct: int, worst_hand: np.ndarray,
+            gap: bool) -> np.ndarray:
+    """(P, S, T) series from (P, _N_CHANNELS, T) channel sums and the (P, T) worst-hand figure.
+
+    gap: add the days no source covers (for the missing counts, not for doses).
+    """
     n_people, _, n_periods = per_channel.shape
-    people = np.arange(n_people)
     out = np.empty((n_people, len(Series), n_periods), dtype=per_channel.dtype)
     for series, channel in _DIRECT.items():
         out[:, code(series)] = per_channel[:, channel]
-    out[:, code(Series.LENS)] = per_channel[people, lens_channel]
+    with_eye = has[:, _HP3, None]
+    stand_in = np.where(with_eye, per_channel[:, _LENS_A], per_channel[:, lens_direct])
+    out[:, code(Series.LENS)] = per_channel[:, _HP3] + stand_in + per_channel[:, _LENS_B]
     out[:, code(Series.WORST_HAND)] = worst_hand
-    out[:, code(Series.FETUS)] = per_channel[people, fetal_channel]
+    out[:, code(Series.FETUS)] = per_channel[:, _ABDOMEN] + per_channel[:, _FETUS_A] + per_channel[:, _FETUS_B]
+    if gap:
+        out[:, code(Series.LENS)] += per_channel[:, _LENS_GAP]
+        out[:, code(Series.FETUS)] += per_channel[:, _FETUS_GAP]
     return out
 
 
-def _sources(
-    raw: np.ndarray, lens_channel: np.ndarray, fetal_channel: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
+def _named_source(has: np.ndarray, dedicated: int, stand_in: int) -> np.ndarray:
+    """(P,) channel that names a derived series: the dedicated dosimeter if worn, else the stand-in
+    (or the other whole-body quantity when the stand-in was never reported)."""
+    other = _OTHER_WB[stand_in]
+    fallback = np.where(has[:, stand_in] | ~has[:, other], stand_in, other)
+    return np.where(has[:, dedicated], dedicated, fallback)
+
+
+def _sources(raw: np.ndarray, has: np.ndarray, lens_direct: int) -> tuple[np.ndarray, np.ndarray]:
     """(P, S) Quantity codes and (P, S, T) Location codes behind each series."""
     n_people, _, n_periods = raw.shape
     channel = np.empty((n_people, len(Series), n_periods), dtype=np.int64)
     for series, direct in _DIRECT.items():
         channel[:, code(series)] = direct
-    channel[:, code(Series.LENS)] = lens_channel[:, None]
-    channel[:, code(Series.FETUS)] = fetal_channel[:, None]
+    channel[:, code(Series.LENS)] = _named_source(has, _HP3, lens_direct)[:, None]
+    channel[:, code(Series.FETUS)] = _named_source(has, _ABDOMEN, _HP10_WB)[:, None]
     # Ties (both hands equal, often both zero) report the left hand.
     channel[:, code(Series.WORST_HAND)] = np.where(raw[:, _RIGHT] > raw[:, _LEFT], _RIGHT, _LEFT)
     quantities = np.array([code(q) for q, _ in SOURCES], dtype=np.int8)

@@ -3,12 +3,14 @@
 Arrays are (P, S, T) like DoseTotals.dose. Decisions:
 - Level ladder: below_1 < level_1 (dose >= level I) < level_2 (>= level II) < limit_reached
   (>= 100 % of the limit). A row without a limit takes its level from absolute levels only.
+- Fail closed: a row that no rule of the set covers for the person's category is reported with
+  the level `no_limit` ("no limit in this set"), never `below_1`, since nothing was assessed.
 - projected_msv = dose / elapsed days * total days of the period. Rolling windows (and an open
   pregnancy) end on the evaluation date, so their projection equals their dose.
 - A person with a pregnancy window also gets the declared_pregnant rules; where two rules cover
   one row, the lower limit wins.
 """
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -18,6 +20,8 @@ from models.exposure.presets import LimitSetSpec
 
 # Float sums of prorated parts must not drop a dose that sits exactly on a threshold.
 TOLERANCE_MSV = 1e-9
+# The level reported for a row no rule covers; not a Level, since it is not a place on the ladder.
+NO_LIMIT = "no_limit"
 
 _NON_FETAL = [code(s) for s in Series if s is not Series.FETUS]
 _NON_PREGNANCY = [code(t) for t in PeriodKind if t is not PeriodKind.PREGNANCY]
@@ -109,6 +113,25 @@ def evaluate(totals: DoseTotals, limit_set: LimitSetSpec, categories) -> Evaluat
     )
 
 
+def with_declaration_allowance(evaluation: Evaluation, before: np.ndarray, allowance_msv: float) -> Evaluation:
+    """The fetal limit raised for people whose fetal dose by the declaration was within
+    `allowance_msv` of it (or over it): they may receive `allowance_msv` more (10 CFR 20.1208(d)).
+
+    before: (P,) fetal dose counted before the declaration (NaN or 0 for none).
+    """
+    s, t = code(Series.FETUS), code(PeriodKind.PREGNANCY)
+    limit = evaluation.limit.copy()
+    near = np.nan_to_num(before, nan=0.0) + TOLERANCE_MSV >= limit[:, s, t] - allowance_msv
+    if not near.any():
+        return evaluation
+    limit[near, s, t] = np.maximum(limit[near, s, t], before[near] + allowance_msv)
+    dose, projected = evaluation.totals.dose, evaluation.projected
+    return replace(
+        evaluation, limit=limit, fraction=dose / limit, remaining=np.maximum(limit - dose, 0.0),
+        level=level_codes(dose, evaluation.level1, evaluation.level2, limit),
+        projected_level=level_codes(projected, evaluation.level1, evaluation.level2, limit))
+
+
 def person_rows(evaluation: Evaluation, person: int) -> list[dict]:
     """One plain dict per series x period shown for this person, ready for JSON."""
     totals = evaluation.totals
@@ -128,12 +151,14 @@ def person_rows(evaluation: Evaluation, person: int) -> list[dict]:
                 "dose_msv": float(totals.dose[at]),
                 "limit_msv": _number(evaluation.limit[at]),
                 "fraction": _number(evaluation.fraction[at]),
-                "level": str(_member(Level, evaluation.level[at])),
+                "level": str(_member(Level, evaluation.level[at])) if rule >= 0 else NO_LIMIT,
                 "projected_msv": float(evaluation.projected[at]),
                 "series": str(_member(Series, s)),
                 "remaining_msv": _number(evaluation.remaining[at]),
-                "projected_level": str(_member(Level, evaluation.projected_level[at])),
+                "projected_level": (str(_member(Level, evaluation.projected_level[at])) if rule >= 0
+                                    else NO_LIMIT),
                 "clause": evaluation.limit_set.rules[rule].clause if rule >= 0 else None,
+                "stand_in": bool(totals.stand_in[at]),
             }
         )
     return rows
@@ -164,6 +189,12 @@ class WorstLevels:
     period: np.ndarray
     fraction: np.ndarray
     attention: np.ndarray
+
+
+def effective_limit_gaps(limit_set: LimitSetSpec, categories) -> list[WorkerCategory]:
+    """The worker categories among `categories` for which the set has no effective-dose limit."""
+    covered = {r.category for r in limit_set.rules if r.series is Series.EFFECTIVE and r.limit_msv is not None}
+    return [c for c in WorkerCategory if c in set(map(WorkerCategory, categories)) and c not in covered]
 
 
 def worst_levels(evaluation: Evaluation) -> WorstLevels:

@@ -26,7 +26,7 @@ from sqlalchemy.orm import Session
 from models.core.base import utcnow
 from models.core.codes import Level, Location, PeriodKind, Quantity, Series, code, decode
 from models.core.errors import Invalid
-from models.core.labels import LEVEL_LABELS, dose_row_label
+from models.core.labels import LEVEL_LABELS, shared_row_label
 from models.core.settings import lab_zone
 from models.exposure.lab_ops import LabEvaluation, cached_lab_evaluation
 from models.exposure.tables import Investigation
@@ -85,7 +85,7 @@ def crossings(lab: LabEvaluation) -> list[Crossing]:
     ]
 
 
-def _covered(crossing: Crossing, earlier: list[Investigation]) -> bool:
+def covered(crossing: Crossing, earlier: list[Investigation]) -> bool:
     """Whether an existing investigation already covers this crossing (see module docstring)."""
     order = list(Level)
     for investigation in earlier:
@@ -116,7 +116,7 @@ def raise_investigations(session: Session, lab: LabEvaluation) -> list[Investiga
                       period=c.period, period_start=c.period_start, level=c.level,
                       dose_msv=c.dose_msv)
         for c in found
-        if not _covered(c, existing.get((c.person_id, c.series, c.period), []))
+        if not covered(c, existing.get((c.person_id, c.series, c.period), []))
     ]
     session.add_all(new)
     session.flush()
@@ -124,9 +124,9 @@ def raise_investigations(session: Session, lab: LabEvaluation) -> list[Investiga
 
 
 def _row_of(investigation: Investigation) -> str:
-    """'Hp(10) whole body, calendar quarter' for an investigation."""
-    return dose_row_label(investigation.series, investigation.quantity, investigation.location,
-                          investigation.period)
+    """'Hp(10) whole body, calendar quarter' for an investigation (a fetal row stays confidential)."""
+    return shared_row_label(investigation.series, investigation.quantity, investigation.location,
+                            investigation.period)
 
 
 def investigation_label(investigation: Investigation) -> str:
@@ -217,6 +217,17 @@ def sign_off(session: Session, investigation: Investigation, by: Person) -> Inve
     investigation.signed_off_at = utcnow()
     session.flush()
     return investigation
+
+
+def reviewed(session: Session, found: list[Crossing]) -> list[bool]:
+    """Per crossing: a signed-off investigation covers it (same window, same or higher level)."""
+    signed: dict[tuple, list[Investigation]] = {}
+    for investigation in session.scalars(sa.select(Investigation).where(
+            Investigation.signed_off_at.is_not(None),
+            Investigation.person_id.in_(sorted({c.person_id for c in found})))):
+        signed.setdefault((investigation.person_id, investigation.series, investigation.period),
+                          []).append(investigation)
+    return [covered(c, signed.get((c.person_id, c.series, c.period), [])) for c in found]
 
 
 def open_investigations(session: Session) -> list[tuple[Investigation, str]]:

@@ -2,19 +2,20 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, timedelta
 
 import numpy as np
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
+from models.core.codes import PeriodKind, Series, code
 from models.core.settings import LabSettings, lab_settings
 from models.doses.tables import DoseRecord
 from models.doses.version_ops import is_current
 from models.exposure import presets
 from models.exposure.cache import UntilChanged
 from models.exposure.engine import DoseRecords, DoseTotals, Policies, compute_doses, person_index
-from models.exposure.evaluation import Evaluation, evaluate
+from models.exposure.evaluation import Evaluation, evaluate, with_declaration_allowance
 from models.exposure.limit_set_ops import as_rules
 from models.exposure.tables import PregnancyDeclaration
 from models.people.tables import Person
@@ -58,22 +59,67 @@ def read_records(session: Session, people: np.ndarray) -> DoseRecords:
     )
 
 
-def pregnancy_windows(session: Session, people: np.ndarray, on: date) -> tuple[np.ndarray, np.ndarray]:
-    """(P,) start and end of each person's declared pregnancy in force on `on` (NaT for none)."""
-    start = np.full(len(people), np.datetime64("NaT"), dtype="datetime64[D]")
-    end = start.copy()
-    declarations = session.execute(
+# From memory (obstetric common practice): a pregnancy lasts about 38 weeks from conception.
+PREGNANCY_DAYS = 266
+
+
+def _declarations_in_force(session: Session, people: np.ndarray, on: date) -> list[tuple]:
+    """(row in `people`, declared, ended, conception, expected end) of each declaration in force on
+    `on`, the earliest first; people not in `people` are skipped (a page may ask for one person)."""
+    position = {int(person_id): i for i, person_id in enumerate(np.asarray(people).tolist())}
+    rows = session.execute(
         sa.select(PregnancyDeclaration.person_id, PregnancyDeclaration.declared_on,
-                  PregnancyDeclaration.ended_on)
+                  PregnancyDeclaration.ended_on, PregnancyDeclaration.conception_on,
+                  PregnancyDeclaration.expected_end_on)
         .where(PregnancyDeclaration.declared_on <= on,
                sa.or_(PregnancyDeclaration.ended_on.is_(None), PregnancyDeclaration.ended_on >= on))
         .order_by(PregnancyDeclaration.declared_on)
     ).all()
-    for person_id, declared_on, ended_on in declarations:  # later declarations win
-        at = person_index(np.array([person_id]), people)[0]
+    return [(position[row[0]], *row[1:]) for row in rows if row[0] in position]
+
+
+def pregnancy_windows(session: Session, people: np.ndarray, on: date,
+                      whole_pregnancy: bool = False) -> tuple[np.ndarray, np.ndarray]:
+    """(P,) start and end of each person's declared pregnancy in force on `on` (NaT for none).
+
+    The window starts at the declaration, or with `whole_pregnancy` at the estimated conception
+    (else the expected end less PREGNANCY_DAYS, else the declaration less PREGNANCY_DAYS: the
+    earliest it can have been, so nothing is left out). It ends when the pregnancy ended, else on
+    the expected end (or `on`, if later) so the projection runs to it, else on `on`.
+    """
+    start = np.full(len(people), np.datetime64("NaT"), dtype="datetime64[D]")
+    end = start.copy()
+    # Later declarations win.
+    for at, declared_on, ended_on, conception_on, expected_end_on in _declarations_in_force(session, people, on):
         start[at] = declared_on
-        end[at] = np.datetime64("NaT") if ended_on is None else ended_on
+        if whole_pregnancy:
+            start[at] = conception_on or (expected_end_on or declared_on) - timedelta(days=PREGNANCY_DAYS)
+        if ended_on is not None:
+            end[at] = ended_on
+        elif expected_end_on is not None:
+            end[at] = max(expected_end_on, on)
+        else:
+            end[at] = np.datetime64("NaT")
     return start, end
+
+
+def declaration_dates(session: Session, people: np.ndarray, on: date) -> np.ndarray:
+    """(P,) date of each person's declaration in force on `on` (NaT for none)."""
+    declared = np.full(len(people), np.datetime64("NaT"), dtype="datetime64[D]")
+    for at, declared_on, *_ in _declarations_in_force(session, people, on):
+        declared[at] = declared_on
+    return declared
+
+
+def fetal_dose_before(records: DoseRecords, n_people: int, on: date, policies: Policies,
+                      start: np.ndarray, declared: np.ndarray) -> np.ndarray:
+    """(P,) fetal dose from the window's start to the day before the declaration (0 for none)."""
+    before_end = declared - np.timedelta64(1, "D")
+    counted = ~np.isnat(start) & ~np.isnat(declared) & (before_end >= start)
+    nat = np.datetime64("NaT")
+    totals = compute_doses(records, n_people, on, policies, np.where(counted, start, nat),
+                           np.where(counted, before_end, nat))
+    return np.nan_to_num(totals.dose[:, code(Series.FETUS), code(PeriodKind.PREGNANCY)], nan=0.0)
 
 
 def policies_of(settings: LabSettings) -> Policies:
@@ -108,14 +154,19 @@ class LabEvaluation:
 def evaluate_lab(session: Session, on: date) -> LabEvaluation:
     """Read the records in force and evaluate everyone on `on` with the lab's policies and limits."""
     settings = lab_settings(session)
-    people, categories = zip(*session.execute(
-        sa.select(Person.id, Person.category).order_by(Person.id)).all()) or ((), ())
+    everyone = session.execute(sa.select(Person.id, Person.category).order_by(Person.id)).all()
+    people, categories = zip(*everyone) if everyone else ((), ())
     person_ids = np.asarray(people, dtype=np.int64)
     records = read_records(session, person_ids)
-    start, end = pregnancy_windows(session, person_ids, on)
-    totals = compute_doses(records, len(person_ids), on, policies_of(settings), start, end)
-    evaluation = evaluate(totals, limit_set_of(settings),
+    limit_set, policies = limit_set_of(settings), policies_of(settings)
+    start, end = pregnancy_windows(session, person_ids, on, limit_set.whole_pregnancy)
+    totals = compute_doses(records, len(person_ids), on, policies, start, end)
+    evaluation = evaluate(totals, limit_set,
                           np.asarray([str(c) for c in categories], dtype=str))
+    if limit_set.whole_pregnancy and totals.windows.exists[:, code(PeriodKind.PREGNANCY)].any():
+        declared = declaration_dates(session, person_ids, on)
+        before = fetal_dose_before(records, len(person_ids), on, policies, start, declared)
+        evaluation = with_declaration_allowance(evaluation, before, presets.DECLARATION_ALLOWANCE_MSV)
     return LabEvaluation(on, person_ids, evaluation)
 
 

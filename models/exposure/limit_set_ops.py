@@ -144,6 +144,30 @@ def choose_limit_set(session: Session, settings: LabSettings, limit_set: LimitSe
         raise Invalid.one("limit_set_id", "Choose one of the installed limit sets.")
     as_rules(limit_set)  # refuses a set whose rules would not evaluate
     settings.limit_set = limit_set
+    settings.limit_set_by_default = False
+    session.flush()
+
+
+DEFAULT_PRESET = "icrp103"
+
+
+def install_default(session: Session, settings: LabSettings, key: str | None) -> LimitSet | None:
+    """On a database without a limit set, put the preset `key` (or DEFAULT_PRESET) in force, marked
+    as installed by default until the safety officer confirms or changes it; else change nothing."""
+    if settings.limit_set_id is not None:
+        return None
+    stored = install_preset(session, key or DEFAULT_PRESET)
+    settings.limit_set = stored
+    settings.limit_set_by_default = True
+    session.flush()
+    return stored
+
+
+def confirm_limit_set(session: Session, settings: LabSettings) -> None:
+    """The safety officer keeps the set installed by default: it is no longer flagged."""
+    if settings.limit_set_id is None:
+        raise Invalid.one("limit_set_id", "No limit set is in force; choose one.")
+    settings.limit_set_by_default = False
     session.flush()
 
 
@@ -195,7 +219,7 @@ def install_preset(session: Session, key: str) -> LimitSet:
         preset = presets.preset(key)
     except KeyError as error:
         raise Invalid.one("preset", f"There is no preset called '{key}'.") from error
-    stored = LimitSet(name=preset.name, preset_key=preset.key,
+    stored = LimitSet(name=preset.name, preset_key=preset.key, whole_pregnancy=preset.whole_pregnancy,
                       rules=[stored_rule(rule) for rule in preset.rules])
     session.add(stored)
     session.flush()
@@ -209,7 +233,7 @@ def copy_limit_set(session: Session, source: LimitSet, name: str) -> LimitSet:
         raise Invalid.one("name", "Name the copy.")
     if taken(session, LimitSet.name, name):
         raise Invalid.one("name", f"A limit set called '{name}' already exists.")
-    copy = LimitSet(name=name, description=f"Copy of {source.name}",
+    copy = LimitSet(name=name, description=f"Copy of {source.name}", whole_pregnancy=source.whole_pregnancy,
                     rules=[stored_rule(rule) for rule in as_rules(source).rules])
     session.add(copy)
     session.flush()
@@ -225,6 +249,7 @@ def as_rules(stored: LimitSet) -> presets.LimitSetSpec:
                                     _stored_level(r.level2_kind, r.level2_value), r.clause or "(no clause)")
             for r in stored.rules
         )
-        return presets.LimitSetSpec(stored.preset_key or f"set-{stored.id}", stored.name, rules)
+        return presets.LimitSetSpec(stored.preset_key or f"set-{stored.id}", stored.name, rules,
+                                    bool(stored.whole_pregnancy))
     except ValueError as error:
         raise Invalid.one("rules", str(error)) from error

@@ -12,8 +12,6 @@ from dateutil.relativedelta import relativedelta
 
 from models.core.codes import PeriodKind, code
 
-ROLLING_12_MONTHS_DAYS = 365
-
 
 def years_before(day: date, years: int) -> date:
     """The same calendar day `years` earlier; 29 February falls back to 28 February."""
@@ -26,7 +24,8 @@ def period_bounds(kind: PeriodKind | str, on: date, first_block_year: int) -> tu
         case PeriodKind.YEAR:
             return date(on.year, 1, 1), date(on.year, 12, 31)
         case PeriodKind.ROLLING_12_MONTHS:
-            return on - timedelta(days=ROLLING_12_MONTHS_DAYS - 1), on
+            # The 12 calendar months up to `on`: 366 days when they hold a 29 February.
+            return years_before(on, 1) + timedelta(days=1), on
         case PeriodKind.QUARTER:
             start = date(on.year, 3 * ((on.month - 1) // 3) + 1, 1)
             return start, start + relativedelta(months=3, days=-1)

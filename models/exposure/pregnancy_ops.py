@@ -1,12 +1,13 @@
 """Pregnancy declarations: declared by the person (or the safety officer for them), withdrawn, ended.
 
 A declaration is private to the person and the safety officer; nothing here decides who sees it,
-the pages do. The fetal dose window runs from `declared_on` to `ended_on` (or to the evaluation
-date while it is open).
+the pages do. The fetal dose window runs from `declared_on` (or, where the limit set covers the
+whole pregnancy, from the estimated conception) to `ended_on`, else to the expected end (so the
+projection runs to it), else to the evaluation date.
 """
 from __future__ import annotations
 
-from datetime import date
+from datetime import date, timedelta
 
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
@@ -39,13 +40,41 @@ def open_declarations(session: Session) -> list[PregnancyDeclaration]:
         .order_by(PregnancyDeclaration.declared_on)))
 
 
+# A pregnancy lasts about 280 days from the last period (obstetric common practice, from memory);
+# 300 days leaves room for an estimate's error without accepting impossible dates.
+LONGEST_PREGNANCY_DAYS = 300
+EARLIEST_YEAR = 1950
+
+
+def _check_dates(declared_on: date, conception_on: date | None, expected_end_on: date | None) -> None:
+    """The optional dates must fit the declaration; the field is named in the error."""
+    errors = {}
+    longest = timedelta(days=LONGEST_PREGNANCY_DAYS)
+    if conception_on is not None and not declared_on - longest <= conception_on <= declared_on:
+        errors["conception_on"] = (f"The estimated conception must be on or before the declaration "
+                                   f"({declared_on}) and at most {LONGEST_PREGNANCY_DAYS} days before it.")
+    if expected_end_on is not None:
+        earliest = conception_on or declared_on
+        if not declared_on <= expected_end_on <= earliest + longest:
+            errors["expected_end_on"] = (f"The expected end must fall between the declaration "
+                                         f"({declared_on}) and {LONGEST_PREGNANCY_DAYS} days after "
+                                         f"{'the conception' if conception_on else 'it'}.")
+    if errors:
+        raise Invalid(errors)
+
+
 def declare(session: Session, person_id: int, declared_on: date | None, *, today: date,
-            recorded_by_id: int | None = None) -> PregnancyDeclaration:
-    """Record a declaration from its date; a person has at most one in force."""
+            recorded_by_id: int | None = None, conception_on: date | None = None,
+            expected_end_on: date | None = None) -> PregnancyDeclaration:
+    """Record a declaration from its date (with the estimated conception and the expected end, if
+    known); a person has at most one in force."""
     if declared_on is None:
         raise Invalid.one("declared_on", "Enter the date of the declaration.")
     if declared_on > today:
         raise Invalid.one("declared_on", f"The declaration date {declared_on} is in the future.")
+    if declared_on.year < EARLIEST_YEAR:
+        raise Invalid.one("declared_on", f"Enter a date from {EARLIEST_YEAR} on.")
+    _check_dates(declared_on, conception_on, expected_end_on)
     if open_declaration(session, person_id) is not None:
         raise Invalid.one("declared_on", "A declaration is already in force.")
     earlier = declarations_of(session, person_id)
@@ -53,6 +82,7 @@ def declare(session: Session, person_id: int, declared_on: date | None, *, today
         raise Invalid.one("declared_on", f"The date falls inside an earlier declaration, which ended on "
                                          f"{earlier[0].ended_on}.")
     declaration = PregnancyDeclaration(person_id=person_id, declared_on=declared_on,
+                                       conception_on=conception_on, expected_end_on=expected_end_on,
                                        recorded_by_id=recorded_by_id)
     session.add(declaration)
     session.flush()

@@ -65,6 +65,11 @@ class LimitRuleSpec:
         )
 
 
+# 10 CFR 20.1208(d): a dose at or within 0.05 rem (0.5 mSv) of the limit by the declaration allows
+# 0.05 rem (0.5 mSv) more during the remainder of the pregnancy.
+DECLARATION_ALLOWANCE_MSV = 0.5
+
+
 @dataclass(frozen=True)
 class LimitSetSpec:
     """A named set of rules; at most one rule per (category, series, period)."""
@@ -72,6 +77,10 @@ class LimitSetSpec:
     key: str
     name: str
     rules: tuple[LimitRuleSpec, ...]
+    # The fetal rule counts the whole pregnancy, from conception (10 CFR 20.1208(a)), rather than
+    # from the declaration (ICRP 103 para 186, 2013/59/Euratom Art. 10); such a set also allows
+    # DECLARATION_ALLOWANCE_MSV more after a declaration made near the limit (20.1208(d)).
+    whole_pregnancy: bool = False
 
     def __post_init__(self):
         object.__setattr__(self, "rules", tuple(self.rules))
@@ -112,13 +121,26 @@ def _limit(category, series, period, limit_msv, clause) -> tuple[LimitRuleSpec, 
 
 
 def _with_levels(rules: tuple[LimitRuleSpec, ...], hp10_annual_msv: float) -> tuple[LimitRuleSpec, ...]:
-    """The rules plus quarterly common-practice levels for every worker and trainee annual limit."""
+    """The rules plus quarterly common-practice levels for every worker and trainee annual limit, and
+    levels on every fetal and public rule."""
 
     def scaled(level_msv: float, rule: LimitRuleSpec) -> InvestigationLevel:
         # Multiplying before dividing keeps the scaled values exact in binary.
         return InvestigationLevel(LevelKind.ABSOLUTE, level_msv * rule.limit_msv / hp10_annual_msv)
 
     level1, level2 = COMMON_PRACTICE_QUARTERLY_MSV
+    # No published investigation level exists for the fetus or the public: the same fractions of
+    # the limit as the worker rules' quarterly levels, on the rule's own period, as a local choice.
+    fraction1, fraction2 = level1 / hp10_annual_msv, level2 / hp10_annual_msv
+    local = (f"; levels I / II: local choice, {100 * fraction1:g} % / {100 * fraction2:g} % of the "
+             f"limit (the worker rules' 1.25 / 3.75 mSv a quarter over {hp10_annual_msv:g} mSv a year)")
+    rules = tuple(
+        LimitRuleSpec(rule.category, rule.series, rule.period, rule.limit_msv,
+                      InvestigationLevel(LevelKind.FRACTION, fraction1),
+                      InvestigationLevel(LevelKind.FRACTION, fraction2), rule.clause + local)
+        if rule.category in (PREGNANT, PUBLIC) else rule
+        for rule in rules
+    )
     levels = tuple(
         LimitRuleSpec(
             rule.category,
@@ -159,7 +181,7 @@ def _icrp103() -> LimitSetSpec:
 def _euratom2013() -> LimitSetSpec:
     """Council Directive 2013/59/Euratom Art. 9 to 12."""
     d = "2013/59/Euratom"
-    students = f"{d} Art. 11(2) (apprentices/students 16-18)"
+    students = "apprentices/students 16-18"
     five_years = "any 5 consecutive years"
     # The 5-year rules are the ceilings of the Directive's alternatives (up to 50 in one year where
     # national law allows). With 20/year in force they never trip first; a lab under the
@@ -172,10 +194,10 @@ def _euratom2013() -> LimitSetSpec:
         + _limit(ADULT, SKIN, YEAR, 500, f"{d} Art. 9(3)(b) (averaged over 1 cm2)")
         + _limit(ADULT, HANDS, YEAR, 500, f"{d} Art. 9(3)(c) (extremities)")
         + _limit(PREGNANT, FETUS, PREGNANCY, 1, f"{d} Art. 10(1) (unborn child)")
-        + _limit(TRAINEE, EFFECTIVE, YEAR, 6, students)
-        + _limit(TRAINEE, LENS, YEAR, 15, students)
-        + _limit(TRAINEE, SKIN, YEAR, 150, students)
-        + _limit(TRAINEE, HANDS, YEAR, 150, students)
+        + _limit(TRAINEE, EFFECTIVE, YEAR, 6, f"{d} Art. 11(2) ({students})")
+        + _limit(TRAINEE, LENS, YEAR, 15, f"{d} Art. 11(3)(a) ({students}, lens)")
+        + _limit(TRAINEE, SKIN, YEAR, 150, f"{d} Art. 11(3)(b) ({students}, skin averaged over 1 cm2)")
+        + _limit(TRAINEE, HANDS, YEAR, 150, f"{d} Art. 11(3)(c) ({students}, extremities)")
         + _limit(PUBLIC, EFFECTIVE, YEAR, 1, f"{d} Art. 12")
         + _limit(PUBLIC, LENS, YEAR, 15, f"{d} Art. 12")
         + _limit(PUBLIC, SKIN, YEAR, 50, f"{d} Art. 12")
@@ -188,8 +210,8 @@ def _cfr10_20() -> LimitSetSpec:
     cfr = "10 CFR"
     minors = f"{cfr} 20.1207 (minors: 10 % of the adult limits)"
     shallow = f"{cfr} 20.1201(a)(2)(ii) (shallow-dose equivalent"
-    # 20.1208(a) covers the entire pregnancy; the window here starts at the declaration, so dose
-    # before it is not counted, and 20.1208(d)'s extra 0.5 mSv is left to the safety officer.
+    # 20.1208(a) covers the entire pregnancy: the window starts at the estimated conception, and
+    # 20.1208(d)'s 0.5 mSv after a declaration made near the limit applies (whole_pregnancy below).
     rules = (
         _limit(ADULT, EFFECTIVE, YEAR, 50, f"{cfr} 20.1201(a)(1)(i), (c) (deep-dose equivalent)")
         + _limit(ADULT, LENS, YEAR, 150, f"{cfr} 20.1201(a)(2)(i) (lens dose equivalent)")
@@ -202,7 +224,7 @@ def _cfr10_20() -> LimitSetSpec:
         + _limit(PREGNANT, FETUS, PREGNANCY, 5, f"{cfr} 20.1208(a) (embryo/fetus, whole pregnancy)")
         + _limit(PUBLIC, EFFECTIVE, YEAR, 1, f"{cfr} 20.1301(a)(1)")
     )
-    return LimitSetSpec("cfr10_20", "US 10 CFR Part 20", _with_levels(rules, 50))
+    return LimitSetSpec("cfr10_20", "US 10 CFR Part 20", _with_levels(rules, 50), whole_pregnancy=True)
 
 
 def _irr17() -> LimitSetSpec:

@@ -18,6 +18,9 @@ class PregnancyDeclaration(IdMixin, Base):
 
     person_id: Mapped[int] = mapped_column(sa.ForeignKey("person.id"), index=True)
     declared_on: Mapped[date]
+    # Estimated date of conception (optional, as confidential as the declaration) and expected end.
+    conception_on: Mapped[date | None]
+    expected_end_on: Mapped[date | None]
     ended_on: Mapped[date | None]
     end_reason: Mapped[str | None] = mapped_column(sa.String(32))
     recorded_by_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))
@@ -73,6 +76,8 @@ class LimitSet(IdMixin, Base):
     name: Mapped[str] = mapped_column(sa.String(120), unique=True)
     preset_key: Mapped[str | None] = mapped_column(sa.String(32))
     description: Mapped[str] = mapped_column(sa.Text, default="")
+    # The fetal rule covers the whole pregnancy (from conception), not only from the declaration.
+    whole_pregnancy: Mapped[bool] = mapped_column(default=False, server_default=sa.false())
     created_at: Mapped[datetime] = mapped_column(default=utcnow)
 
     rules: Mapped[list[LimitRule]] = relationship(

@@ -80,12 +80,13 @@ def test_record_versions_follow_the_chain(session, make_person, make_dose):
     assert [[r.id for r in chain] for chain in chains] == [[later.id], [third.id, second.id, first.id]]
 
 
-def test_fetal_months_keep_one_source_when_an_abdomen_dosimeter_arrives():
+def test_fetal_months_read_the_abdomen_dosimeter_only_from_when_it_was_worn():
     records = engine_records([
         _record(0.4, D(2026, 1, 1), D(2026, 1, 31)),
         _record(0.3, D(2026, 2, 1), D(2026, 2, 28), location="abdomen"),
     ])
     data = fetal_months(records, D(2026, 2, 28), Policies(), D(2026, 1, 1), None)
-    # the evaluation on 28 February reads the abdomen dosimeter for the whole window
-    np.testing.assert_allclose(data.dose, [0.0, 0.3])
+    # January: no abdomen dosimeter, whole body 0.4; February: the abdomen dosimeter's 0.3.
+    np.testing.assert_allclose(data.dose, [0.4, 0.3])
+    np.testing.assert_allclose(data.year_to_date, [0.4, 0.7])  # 0.4 + 0.3
     assert np.all(data.dose >= 0)

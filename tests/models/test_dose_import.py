@@ -166,3 +166,21 @@ def test_a_file_committed_meanwhile_by_someone_else_is_refused_cleanly(session, 
     session.flush()
     with pytest.raises(Invalid, match="just been imported by someone else"):
         commit_report(session, preview)
+
+
+def test_import_refuses_overlapping_periods_of_one_dosimeter_and_impossible_dates(
+        session, make_person, make_dosimeter):
+    ann = make_person("ann")
+    make_dosimeter(ann, serial="B-1")
+    rows = [
+        "ann,B-1,2026-01-01,2026-01-31,Hp(10),whole_body,0.2,mSv,measured,",
+        "ann,B-1,2026-01-01,2026-01-31,Hp(0.07),whole_body,0.2,mSv,measured,",  # the badge's other reading
+        "ann,B-1,2026-01-20,2026-02-19,Hp(10),whole_body,0.1,mSv,measured,",  # overlaps line 2
+        "ann,,1949-12-01,1949-12-31,Hp(10),whole_body,0.1,mSv,measured,",
+        "ann,,2026-03-01,2101-01-31,Hp(10),whole_body,0.1,mSv,measured,",
+    ]
+    preview = validate_report(session, report(rows), PRODUCT_LAYOUT, "service.csv")
+    # header is line 1: the rows are lines 2-6
+    assert [(r.line, sorted(r.errors)) for r in preview.bad_rows] == [
+        (4, ["wear_start"]), (5, ["wear_end", "wear_start"]), (6, ["wear_end"])]
+    assert "overlaps this wear period" in preview.bad_rows[0].errors["wear_start"]

@@ -127,3 +127,28 @@ def test_only_the_latest_version_can_be_amended(session, make_person, make_dose)
     with pytest.raises(Invalid) as caught:
         amend_dose_record(session, record, replace(entry, value=0.3), "Again.")
     assert "latest version" in caught.value.errors["reason"]
+
+
+@pytest.mark.parametrize("changes, today, field", [
+    ({"wear_start": date(1949, 12, 31)}, None, "wear_start"),       # before 1950
+    ({"wear_end": date(2101, 1, 1)}, None, "wear_end"),             # after 2100
+    ({}, date(2026, 1, 31), None),                                  # ends today: fine
+    ({}, date(2026, 1, 30), "wear_end"),                            # ends tomorrow in the lab
+])
+def test_wear_dates_that_cannot_be_right(changes, today, field):
+    errors = entry_errors(replace(BASE, **changes), today=today)
+    assert list(errors) == ([field] if field else [])
+
+
+def test_a_dosimeter_cannot_have_two_results_for_one_day(session, make_person, make_dosimeter):
+    ann = make_person("ann")
+    badge = make_dosimeter(ann)
+    january = replace(BASE, person_id=ann.id, dosimeter_id=badge.id)
+    first = add_dose_record(session, january)
+    # the same badge's Hp(0.07) for the same days is its other reading, not an overlap
+    add_dose_record(session, replace(january, quantity=Quantity.HP007))
+    with pytest.raises(Invalid) as refused:
+        add_dose_record(session, replace(january, wear_start=date(2026, 1, 15), wear_end=date(2026, 2, 14)))
+    assert "overlaps this wear period" in refused.value.errors["wear_start"]
+    # a correction of the record itself may change its days
+    amend_dose_record(session, first, replace(january, wear_end=date(2026, 1, 30)), "service corrected the dates")

@@ -20,7 +20,6 @@ from models.core.codes import (
     encode,
 )
 from models.exposure.engine import DoseRecords, Policies, compute_doses, person_index
-from models.exposure.periods import fixed_windows
 
 D = date
 NAN = float("nan")
@@ -157,6 +156,78 @@ def test_lens_substitution(source, person, expected, quantity, location):
     assert (totals.location[person, lens] == code(location)).all()
 
 
+# The issue's example: Hp(0.07) whole body 4 mSv in each of January, February and March, and an
+# Hp(3) eye dosimeter worn in March only (1 mSv). Lens year = 4 (Jan, Hp(0.07)) + 4 (Feb, Hp(0.07))
+# + 1 (Mar, Hp(3) worn every day, so March's Hp(0.07) does not count) = 9.0 mSv.
+EYE_FROM_MARCH = make(
+    (0, HP007, WB, D(2024, 1, 1), D(2024, 1, 31), 4.0),
+    (0, HP007, WB, D(2024, 2, 1), D(2024, 2, 29), 4.0),
+    (0, HP007, WB, D(2024, 3, 1), D(2024, 3, 31), 4.0),
+    (0, HP3, EYE, D(2024, 3, 1), D(2024, 3, 31), 1.0),
+    # person 1 starts the eye dosimeter on 15 March: 1-14 March (14 of 31 days) read Hp(0.07),
+    # 4.0 x 14 / 31 = 1.806..., and the Hp(3) 0.5 mSv covers 15-31 March.
+    (1, HP007, WB, D(2024, 3, 1), D(2024, 3, 31), 4.0),
+    (1, HP3, EYE, D(2024, 3, 15), D(2024, 3, 31), 0.5),
+)
+
+
+@pytest.mark.parametrize(
+    "person, period, expected",
+    [
+        (0, PeriodKind.YEAR, 9.0),
+        (0, PeriodKind.QUARTER, 9.0),
+        (0, PeriodKind.MONTH, 1.0),
+        (1, PeriodKind.MONTH, 4.0 * 14 / 31 + 0.5),
+    ],
+)
+def test_lens_source_is_decided_per_day(person, period, expected):
+    totals = compute_doses(EYE_FROM_MARCH, 2, D(2024, 3, 31))
+    assert dose(totals, person, Series.LENS, period) == pytest.approx(expected)
+    assert totals.quantity[person, code(Series.LENS)] == code(HP3)
+    assert not totals.stand_in[person, code(Series.LENS), code(period)]
+
+
+@pytest.mark.parametrize(
+    "lens_source, expected, quantity",
+    [
+        # Lens from Hp(10), but only Hp(0.07) was reported: the other whole-body quantity, flagged.
+        (LensSource.HP10, 2.0, HP007),
+        (LensSource.HP007, 2.0, HP007),
+    ],
+)
+def test_lens_falls_back_to_the_other_whole_body_quantity(lens_source, expected, quantity):
+    records = make((0, HP007, WB, D(2024, 1, 1), D(2024, 1, 31), 2.0))
+    totals = compute_doses(records, 1, D(2024, 1, 31), Policies(lens_source=lens_source))
+    at = (0, code(Series.LENS), code(PeriodKind.MONTH))
+    assert totals.dose[at] == pytest.approx(expected)
+    assert totals.quantity[0, code(Series.LENS)] == code(quantity)
+    assert totals.stand_in[at] == (lens_source is LensSource.HP10)
+    assert totals.missing[at] == 0
+
+
+def test_days_with_only_rings_are_missing_for_the_lens_not_zero():
+    # A ring in January, nothing on the body: the lens has no source at all that month.
+    records = make((0, HP007, LEFT, D(2024, 1, 1), D(2024, 1, 31), 3.0))
+    totals = compute_doses(records, 1, D(2024, 1, 31))
+    at = (0, code(Series.LENS), code(PeriodKind.MONTH))
+    assert totals.dose[at] == 0.0
+    assert totals.missing[at] == 1
+
+
+def test_fetal_dose_takes_whole_body_then_abdomen():
+    # The issue's example: declared 1 March; Hp(10) whole body 1.0 mSv in March (no abdomen
+    # dosimeter yet), then the abdomen dosimeter in April (0.4 mSv) beside whole body 0.9 mSv.
+    # Fetal dose = 1.0 (March, whole body) + 0.4 (April, abdomen) = 1.4 mSv.
+    records = make(
+        (0, HP10, WB, D(2024, 3, 1), D(2024, 3, 31), 1.0),
+        (0, HP10, WB, D(2024, 4, 1), D(2024, 4, 30), 0.9),
+        (0, HP10, ABDOMEN, D(2024, 4, 1), D(2024, 4, 30), 0.4),
+    )
+    declared = np.array(["2024-03-01"], dtype="datetime64[D]")
+    totals = compute_doses(records, 1, D(2024, 4, 30), pregnancy_start=declared)
+    assert dose(totals, 0, Series.FETUS, PeriodKind.PREGNANCY) == pytest.approx(1.4)
+
+
 HANDS = make(
     (0, HP007, LEFT, D(2024, 1, 1), D(2024, 1, 31), 2.0),
     (0, HP007, RIGHT, D(2024, 1, 1), D(2024, 1, 31), 5.0),
@@ -280,7 +351,10 @@ def test_invalid_input(rows, n_people):
 
 def test_no_records_and_no_people():
     assert compute_doses(make(), 0, D(2024, 1, 31)).dose.shape == (0, len(Series), len(PeriodKind))
-    assert (compute_doses(make(), 2, D(2024, 1, 31)).dose[:, :, :-1] == 0).all()
+    empty = compute_doses(make(), 2, D(2024, 1, 31)).dose[:, :, :-1]
+    assert (np.delete(empty, code(Series.FETUS), axis=1) == 0).all()
+    # without a declared pregnancy there is no fetal dose at all, not a zero
+    assert np.isnan(empty[:, code(Series.FETUS)]).all()
 
 
 def test_person_index():
@@ -315,49 +389,114 @@ def _records(rows):
     return make(*[_row(*r) for r in rows])
 
 
-def _reference(rows, on, proration):
-    """Slow per-record sums of the directly measured channels, for every fixed period kind."""
-    out = np.zeros((3, len(SOURCES), len(PeriodKind)))
-    for kind, (start, end) in fixed_windows(on, 2021).items():
-        hi = min(end, on)
-        for p, source, s, extra, value in rows:
-            first, last = BASE + timedelta(days=s), BASE + timedelta(days=s + extra)
-            if first > on:
-                continue
-            if proration is Proration.PRORATE_DAYS:
-                days = (min(last, hi) - max(first, start)).days + 1
-                share = max(days, 0) / (extra + 1)
-            else:
-                share = float(start <= last <= hi)
-            out[p, SOURCES.index(source), code(kind)] += value * share
-    return out
+def _years_earlier(day, years):
+    """The same date `years` earlier, 28 February for a 29 February (plain calendar arithmetic)."""
+    try:
+        return D(day.year - years, day.month, day.day)
+    except ValueError:
+        return D(day.year - years, 2, 28)
 
 
+def _reference_windows(on):
+    """Every fixed period containing `on`, written out from the calendar (first block year 2021)."""
+    quarter_month = 3 * ((on.month - 1) // 3) + 1
+    next_quarter = D(on.year + 1, 1, 1) if quarter_month == 10 else D(on.year, quarter_month + 3, 1)
+    next_month = D(on.year + 1, 1, 1) if on.month == 12 else D(on.year, on.month + 1, 1)
+    block = 2021 + 5 * ((on.year - 2021) // 5)
+    return {
+        PeriodKind.YEAR: (D(on.year, 1, 1), D(on.year, 12, 31)),
+        # the 12 calendar months up to `on`: from the day after the same date a year earlier
+        PeriodKind.ROLLING_12_MONTHS: (_years_earlier(on, 1) + timedelta(days=1), on),
+        PeriodKind.QUARTER: (D(on.year, quarter_month, 1), next_quarter - timedelta(days=1)),
+        PeriodKind.MONTH: (D(on.year, on.month, 1), next_month - timedelta(days=1)),
+        PeriodKind.FIVE_YEAR_BLOCK: (D(block, 1, 1), D(block + 4, 12, 31)),
+        PeriodKind.ROLLING_FIVE_YEARS: (_years_earlier(on, 5) + timedelta(days=1), on),
+    }
+
+
+# Channel positions in SOURCES of the directly measured series.
 DIRECT = {Series.EFFECTIVE: 0, Series.SKIN: 1, Series.LEFT_HAND: 3, Series.RIGHT_HAND: 4}
 
 
+def _reference(rows, on, proration, lens_source=LensSource.HP007, declared=None):
+    """Day by day, in plain Python: {(person, series, period): (dose, missing results)}.
+
+    Each day of a record's wear is given to a series when that record is the series' source on
+    that day: the dedicated dosimeter if one was worn, else the stand-in, else the other
+    whole-body quantity. A day's share (value / wear days) is counted on that day (prorate_days)
+    or on the record's last day (wear_end). Person 0 is pregnant from `declared`, if given.
+    """
+    stand_in = (HP007, WB) if lens_source == LensSource.HP007 else (HP10, WB)
+    ladders = {  # sources in order of preference, per derived series
+        Series.LENS: [(HP3, EYE), stand_in, ((HP10, WB) if stand_in == (HP007, WB) else (HP007, WB))],
+        Series.FETUS: [(HP10, ABDOMEN), (HP10, WB), (HP007, WB)],
+    }
+    direct = {Series.EFFECTIVE: (HP10, WB), Series.SKIN: (HP007, WB),
+              Series.LEFT_HAND: (HP007, LEFT), Series.RIGHT_HAND: (HP007, RIGHT)}
+    records = []
+    for p, source, s, extra, value in rows:
+        first = BASE + timedelta(days=s)
+        if first <= on:
+            records.append((p, source, first, first + timedelta(days=extra), value))
+    worn = {}  # (person, source) -> set of days worn
+    for p, source, first, last, _ in records:
+        days = worn.setdefault((p, source), set())
+        days.update(first + timedelta(days=k) for k in range((last - first).days + 1))
+    # Per person and series: the (day counted on, mSv) parts, and per record the days counted on
+    # which it was worn with no source of the series worn (a missing result).
+    parts, holes = {}, {}
+    for index, (p, source, first, last, value) in enumerate(records):
+        n_days = (last - first).days + 1
+        for k in range(n_days):
+            day = first + timedelta(days=k)
+            counted_on = day if proration is Proration.PRORATE_DAYS else last
+            for series in list(direct) + list(ladders):
+                if series in direct:
+                    chosen = direct[series]
+                else:
+                    chosen = next((src for src in ladders[series] if day in worn.get((p, src), ())), None)
+                    if chosen is None:
+                        holes.setdefault((p, series), {}).setdefault(index, []).append(counted_on)
+                if source == chosen:
+                    parts.setdefault((p, series), []).append((counted_on, value / n_days))
+    windows = _reference_windows(on)
+    if declared is not None:
+        windows[PeriodKind.PREGNANCY] = (declared, on)
+    out = {}
+    for kind, (start, end) in windows.items():
+        hi = min(end, on)
+        for p in range(3):
+            for series in list(direct) + list(ladders):
+                if series is Series.FETUS and (p != 0 or declared is None):
+                    continue  # no pregnancy, no fetal dose
+                if kind is PeriodKind.PREGNANCY and series is not Series.FETUS:
+                    continue
+                total = sum(amount for day, amount in parts.get((p, series), []) if start <= day <= hi)
+                missing = sum(any(start <= day <= hi for day in days)
+                              for days in holes.get((p, series), {}).values())
+                out[p, series, kind] = (total, missing)
+    return out
+
+
 @settings(max_examples=60, deadline=None, database=None)
-@given(record_rows, st.integers(0, 3 * 365 + 120), prorations)
-def test_matches_a_per_record_reference(rows, day, proration):
+@given(record_rows, st.integers(0, 3 * 365 + 120), prorations, st.sampled_from(list(LensSource)),
+       st.integers(0, 3 * 365 + 120))
+def test_matches_a_day_by_day_reference(rows, day, proration, lens_source, declared_day):
     on = BASE + timedelta(days=day)
-    totals = compute_doses(_records(rows), 3, on, Policies(proration=proration))
-    expected = _reference(rows, on, proration)
-    fixed = [code(k) for k in PeriodKind if k is not PeriodKind.PREGNANCY]
-    for series, channel in DIRECT.items():
-        np.testing.assert_allclose(
-            totals.dose[:, code(series), fixed], expected[:, channel, fixed], atol=1e-9
-        )
-    worn = {(p, source) for p, source, s, _, _ in rows if BASE + timedelta(days=s) <= on}
-    for p in range(3):
-        lens = 2 if (p, (HP3, EYE)) in worn else 1  # Hp(0.07) whole body stands in by default
-        fetal = 5 if (p, (HP10, ABDOMEN)) in worn else 0
-        derived = {
-            Series.LENS: expected[p, lens],
-            Series.FETUS: expected[p, fetal],
-            Series.WORST_HAND: np.maximum(expected[p, 3], expected[p, 4]),
-        }
-        for series, values in derived.items():
-            np.testing.assert_allclose(totals.dose[p, code(series), fixed], values[fixed], atol=1e-9)
+    declared = BASE + timedelta(days=declared_day)
+    declared = declared if declared <= on else None
+    start = np.array([declared or "NaT", "NaT", "NaT"], dtype="datetime64[D]")
+    totals = compute_doses(_records(rows), 3, on, Policies(proration=proration, lens_source=lens_source),
+                           pregnancy_start=start)
+    for (p, series, kind), (expected, missing) in _reference(rows, on, proration, lens_source,
+                                                             declared).items():
+        at = (p, code(series), code(kind))
+        assert totals.dose[at] == pytest.approx(expected, abs=1e-9), (p, series, kind)
+        if series in (Series.LENS, Series.FETUS):
+            assert totals.missing[at] == missing, (p, series, kind)
+    worst = totals.dose[:, code(Series.WORST_HAND)]
+    hands = np.maximum(totals.dose[:, code(Series.LEFT_HAND)], totals.dose[:, code(Series.RIGHT_HAND)])
+    np.testing.assert_allclose(worst, hands)
 
 
 def _year_end_doses(records, proration, ends):
@@ -407,7 +546,9 @@ def test_moving_a_record_inside_the_year_changes_nothing(
         moved = (person, *source, first, first + timedelta(days=extra), value)
         records = make(*[_row(*r) for r in rows], moved)
         totals = compute_doses(records, 3, D(2024, 12, 31), Policies(proration=proration))
-        return totals.dose[:, :, code(PeriodKind.YEAR)]
+        # The lens and the fetus read whichever dosimeter was worn on each day, so moving a record
+        # can change which records they read: only the directly measured series must not move.
+        return totals.dose[:, [code(s) for s in DIRECT], code(PeriodKind.YEAR)]
 
     np.testing.assert_allclose(year_dose(start), year_dose(new_start), atol=1e-9)
 

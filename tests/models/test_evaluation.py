@@ -6,7 +6,16 @@ import pytest
 
 from models.core.codes import Level, PeriodKind, Series, WorkerCategory, code, encode
 from models.exposure.engine import DoseRecords, compute_doses
-from models.exposure.evaluation import REPORTED, evaluate, level_codes, person_rows, rule_index, worst_levels
+from models.exposure.evaluation import (
+    NO_LIMIT,
+    REPORTED,
+    effective_limit_gaps,
+    evaluate,
+    level_codes,
+    person_rows,
+    rule_index,
+    worst_levels,
+)
 from models.exposure.presets import InvestigationLevel, LimitRuleSpec, LimitSetSpec, preset
 
 D = date
@@ -42,12 +51,13 @@ LOCAL = LimitSetSpec(
 )
 
 
-def evaluated(doses, on, start=D(2024, 1, 1), end=D(2024, 1, 31), limit_set=LOCAL, declared=None):
-    """Evaluation of adults with the records of `_whole_body`."""
+def evaluated(doses, on, start=D(2024, 1, 1), end=D(2024, 1, 31), limit_set=LOCAL, declared=None,
+              categories=None):
+    """Evaluation of adults (or the given categories) with the records of `_whole_body`."""
     records = _whole_body(doses, start, end)
     pregnancy = None if declared is None else np.array(declared, dtype="datetime64[D]")
     totals = compute_doses(records, len(doses), on, pregnancy_start=pregnancy)
-    return evaluate(totals, limit_set, ["adult_worker"] * len(doses))
+    return evaluate(totals, limit_set, categories or ["adult_worker"] * len(doses))
 
 
 def _whole_body(doses, start, end) -> DoseRecords:
@@ -100,11 +110,37 @@ def test_prorated_parts_exactly_at_a_level():
     assert row(evaluation, 0, EFF, QUARTER)["level"] == Level.LEVEL_1
 
 
-def test_no_rule_at_all():
+def test_no_rule_at_all_is_no_limit_never_below_level_one():
+    # Nothing was assessed against a rule: the row must not read as reassuring "below level I".
     result = row(evaluated([30.0], D(2024, 6, 30)), 0, EFF, PeriodKind.ROLLING_12_MONTHS)
     assert result["dose_msv"] == pytest.approx(30.0)
     assert result["limit_msv"] is result["fraction"] is result["clause"] is None
-    assert result["level"] == result["projected_level"] == Level.BELOW_1
+    assert result["level"] == result["projected_level"] == NO_LIMIT == "no_limit"
+
+
+@pytest.mark.parametrize(
+    "key, expected",
+    [
+        # ICRP 103 Table 6 has occupational and public limits only: no row for apprentices.
+        ("icrp103", ["trainee"]),
+        # 2013/59/Euratom Art. 9(2) workers, Art. 11(2) apprentices/students, Art. 12 public.
+        ("euratom2013", []),
+        # 10 CFR 20.1201 adults, 20.1207 minors, 20.1301 public.
+        ("cfr10_20", []),
+        # IRR17 Schedule 3: employees, trainees, other persons.
+        ("irr17", []),
+    ],
+)
+def test_categories_without_an_effective_limit(key, expected):
+    assert effective_limit_gaps(preset(key), ["adult_worker", "trainee", "public"]) == expected
+
+
+def test_a_trainee_under_icrp103_has_no_limit_rows():
+    # 140 mSv to one hand by February (the issue's example): ICRP 103 has no trainee rule, so the
+    # rows say "no limit in this set" rather than "below level I".
+    evaluation = evaluated([140.0], D(2024, 2, 29), D(2024, 1, 1), D(2024, 2, 29),
+                           limit_set=preset("icrp103"), categories=["trainee"])
+    assert row(evaluation, 0, EFF, YEAR)["level"] == "no_limit"
 
 
 @pytest.mark.parametrize(
@@ -174,6 +210,7 @@ KEYS = {
     "remaining_msv",
     "projected_level",
     "clause",
+    "stand_in",
 }
 
 

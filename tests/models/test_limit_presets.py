@@ -40,9 +40,12 @@ LIMITS = [
     ("euratom2013", A, HANDS, YEAR, 500, "Art. 9(3)(c)"),  # REFERENCE: Art. 9(3)(c)
     ("euratom2013", PR, FETUS, PREG, 1, "Art. 10(1)"),  # REFERENCE: Art. 10(1)
     ("euratom2013", TR, EFF, YEAR, 6, "Art. 11(2)"),  # REFERENCE: Art. 11(2)
-    ("euratom2013", TR, LENS, YEAR, 15, "Art. 11(2)"),  # REFERENCE: Art. 11(2)
-    ("euratom2013", TR, SKIN, YEAR, 150, "Art. 11(2)"),  # REFERENCE: Art. 11(2)
-    ("euratom2013", TR, HANDS, YEAR, 150, "Art. 11(2)"),  # REFERENCE: Art. 11(2)
+    # 2013/59/Euratom Art. 11(3): "(a) the equivalent dose limit for the lens of the eye shall be
+    # 15 mSv in a year; (b) ... for the skin shall be 150 mSv in a year, averaged over any area of
+    # 1 cm2 ...; (c) ... for the extremities shall be 150 mSv in a year" (REFERENCE.md, corrected).
+    ("euratom2013", TR, LENS, YEAR, 15, "Art. 11(3)(a)"),
+    ("euratom2013", TR, SKIN, YEAR, 150, "Art. 11(3)(b)"),
+    ("euratom2013", TR, HANDS, YEAR, 150, "Art. 11(3)(c)"),
     ("euratom2013", PU, EFF, YEAR, 1, "Art. 12"),  # REFERENCE: Art. 12
     ("euratom2013", PU, LENS, YEAR, 15, "Art. 12"),  # REFERENCE: Art. 12
     ("euratom2013", PU, SKIN, YEAR, 50, "Art. 12"),  # REFERENCE: Art. 12
@@ -128,7 +131,8 @@ def test_limit(key, category, series, period, limit, clause):
     rule = _rule(key, category, series, period)
     assert rule.limit_msv == limit
     assert clause in rule.clause
-    assert rule.level1 is None and rule.level2 is None
+    if category not in (PR, PU):  # fetal and public rules carry local-choice levels (below)
+        assert rule.level1 is None and rule.level2 is None
 
 
 @pytest.mark.parametrize("key, category, series, level1, level2", _each_hand(LEVELS))
@@ -201,3 +205,31 @@ def test_rule_thresholds():
 def test_invalid_rules(make):
     with pytest.raises(ValueError):
         make()
+
+
+FETAL_AND_PUBLIC = [
+    (key, rule.category, rule.series, rule.period)
+    for key in ("icrp103", "euratom2013", "cfr10_20", "irr17")
+    for rule in preset(key).rules
+    if rule.category in (PR, PU)
+]
+# The set's Hp(10) annual worker limit: ICRP 103 Table 6 50; 2013/59/Euratom Art. 9(2) 20;
+# 10 CFR 20.1201(a)(1)(i) 50; IRR17 Schedule 3 20 (REFERENCE.md).
+HP10_ANNUAL = {"icrp103": 50, "euratom2013": 20, "cfr10_20": 50, "irr17": 20}
+
+
+@pytest.mark.parametrize("key, category, series, period", FETAL_AND_PUBLIC)
+def test_every_fetal_and_public_rule_has_local_choice_levels(key, category, series, period):
+    rule = _rule(key, category, series, period)
+    # No published investigation level: the worker rules' quarterly fractions, e.g. for ICRP 103
+    # 1.25 / 50 = 2.5 % and 3.75 / 50 = 7.5 % of the limit; for 2013/59/Euratom 6.25 % / 18.75 %.
+    level1, level2, limit = rule.thresholds()
+    assert level1 == pytest.approx(limit * 1.25 / HP10_ANNUAL[key])
+    assert level2 == pytest.approx(limit * 3.75 / HP10_ANNUAL[key])
+    assert "local choice" in rule.clause
+
+
+def test_the_preset_fetal_and_public_rules_are_all_there():
+    # ICRP 103: fetus + 3 public; Euratom: fetus + 3 public (Art. 10, 12); 10 CFR: fetus + public
+    # effective (20.1208(a), 20.1301(a)(1)); IRR17: fetus + 3 other persons.
+    assert len(FETAL_AND_PUBLIC) == 4 + 4 + 2 + 4

@@ -15,8 +15,13 @@ NAT = np.datetime64("NaT")
     [
         (PeriodKind.YEAR, D(2024, 2, 29), 2021, (D(2024, 1, 1), D(2024, 12, 31))),
         (PeriodKind.YEAR, D(2025, 12, 31), 2021, (D(2025, 1, 1), D(2025, 12, 31))),
-        # 365 days ending on `on`, inclusive, whether or not a 29 February falls inside.
-        (PeriodKind.ROLLING_12_MONTHS, D(2024, 3, 1), 2021, (D(2023, 3, 3), D(2024, 3, 1))),
+        # The 12 calendar months up to `on`: from the day after the same date a year earlier.
+        (PeriodKind.ROLLING_12_MONTHS, D(2024, 3, 1), 2021, (D(2023, 3, 2), D(2024, 3, 1))),
+        # 29 Feb 2023 does not exist: 28 Feb 2023 + 1 day; 366 days.
+        (PeriodKind.ROLLING_12_MONTHS, D(2024, 2, 29), 2021, (D(2023, 3, 1), D(2024, 2, 29))),
+        # a year before 28 Feb 2025 is 28 Feb 2024: from 29 Feb 2024, 366 days.
+        (PeriodKind.ROLLING_12_MONTHS, D(2025, 2, 28), 2021, (D(2024, 2, 29), D(2025, 2, 28))),
+        (PeriodKind.ROLLING_12_MONTHS, D(2025, 3, 1), 2021, (D(2024, 3, 2), D(2025, 3, 1))),
         (PeriodKind.ROLLING_12_MONTHS, D(2025, 6, 30), 2021, (D(2024, 7, 1), D(2025, 6, 30))),
         (PeriodKind.QUARTER, D(2024, 1, 1), 2021, (D(2024, 1, 1), D(2024, 3, 31))),
         (PeriodKind.QUARTER, D(2024, 3, 31), 2021, (D(2024, 1, 1), D(2024, 3, 31))),
@@ -110,7 +115,8 @@ def test_pregnancy_window(declared, ended, expected_start, expected_end, elapsed
         (PeriodKind.YEAR, 101, 366),
         (PeriodKind.QUARTER, 10, 91),
         (PeriodKind.MONTH, 10, 30),
-        (PeriodKind.ROLLING_12_MONTHS, 365, 365),
+        # 11 Apr 2023 to 10 Apr 2024 holds 29 Feb 2024: 366 days
+        (PeriodKind.ROLLING_12_MONTHS, 366, 366),
         (PeriodKind.FIVE_YEAR_BLOCK, 3 * 365 + 101, 4 * 365 + 366),
         (PeriodKind.ROLLING_FIVE_YEARS, 1827, 1827),
     ],

@@ -315,3 +315,17 @@ def test_admin_audit_log_hides_dosimeters(make_person, login, make_dosimeter):
     make_dosimeter(wearer, serial="ABD-77", kind=DosimeterKind.ABDOMEN)
     page = login(admin).get("/audit/").data.decode()
     assert "ABD-77" not in page and "dosimeter" not in page
+
+
+def test_a_declaration_takes_the_optional_dates_and_names_a_bad_one(session, make_person, login, client):
+    ann = make_person("ann")
+    login(ann)
+    url = f"/doses/person/{ann.id}/pregnancy/declare"
+    wrong = client.post(url, data={"declared_on": "2026-01-10", "conception_on": "2026-01-20"})
+    assert wrong.status_code == 400
+    assert "The estimated conception must be on or before the declaration" in wrong.get_data(as_text=True)
+    assert session.scalar(sa.select(PregnancyDeclaration)) is None
+    assert client.post(url, data={"declared_on": "2026-01-10", "conception_on": "2025-12-01",
+                                  "expected_end_on": "2026-08-24"}).status_code == 302
+    declaration = session.scalar(sa.select(PregnancyDeclaration))
+    assert (declaration.conception_on, declaration.expected_end_on) == (date(2025, 12, 1), date(2026, 8, 24))

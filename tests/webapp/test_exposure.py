@@ -54,9 +54,10 @@ def test_show_json_splits_a_wear_period_across_the_new_year(app, make_person, ma
     assert next_year["projected_msv"] == pytest.approx(1.4 * 365 / 31)
     month = _row(rows, "Hp(10)", "whole_body", "month")
     assert month["limit_msv"] is None and month["fraction"] is None
+    assert month["level"] == "no_limit"  # ICRP 103 has no monthly rule: nothing assessed
     for row in rows:
         assert KEYS <= set(row)
-        assert row["level"] in {"below_1", "level_1", "level_2", "limit_reached"}
+        assert row["level"] in {"below_1", "level_1", "level_2", "limit_reached", "no_limit"}
     assert {r["period"] for r in rows} == {"year", "rolling_12_months", "quarter", "month",
                                            "five_year_block", "rolling_five_years"}
 
@@ -123,6 +124,8 @@ class TestReview:
         make_person("rso", roles=(Role.SAFETY_OFFICER,), email="rso@example.org")
         person = make_person("ada", name="Ada Example", email="ada@example.org")
         make_dose(person, value=1.5, **OCTOBER)
+        # the badge's Hp(0.07) reads nothing: the lens, which reads it, stays below its levels
+        make_dose(person, value=0.0, quantity="Hp(0.07)", **OCTOBER)
         runner = app.test_cli_runner()
         result = runner.invoke(args=["exposure", "review", "--on", "2026-11-30"])
         assert result.exit_code == 0, result.output
@@ -148,6 +151,8 @@ def crossing(session, make_person, make_dose, use_limit_set):
     use_limit_set("icrp103")
     person = make_person("ada", name="Ada Example")
     make_dose(person, value=1.5, **OCTOBER)
+    # the badge's Hp(0.07) reads nothing: the lens, which reads it, stays below its levels
+    make_dose(person, value=0.0, quantity="Hp(0.07)", **OCTOBER)
     (item,) = raise_investigations(session, evaluate_lab(session, ON))
     session.commit()
     return item
@@ -243,3 +248,37 @@ def test_the_home_page_reads_the_records_only_when_they_change(
     make_dose(person, value=1.0, **OCTOBER)
     client.get("/")
     assert len(calls) == 2
+
+
+def test_the_attention_list_follows_the_review(session, monkeypatch, make_person, make_dose, use_limit_set, app):
+    from models.exposure.investigation_ops import raise_investigations, sign_off
+    from models.exposure.lab_ops import evaluate_lab
+
+    monkeypatch.setattr("webapp.exposure.views.lab_today", lambda: ON)
+    use_limit_set("icrp103")
+    officer = make_person("rso", roles=(Role.SAFETY_OFFICER,))
+    ada = make_person("ada", name="Ada Example")
+    # Hp(10) 1.5 mSv and Hp(0.07) 2.0 mSv in October: the effective dose and the lens (read from
+    # Hp(0.07)) are both past the quarterly level I of 1.25 mSv (common practice; lens 1.25 x 50 / 50).
+    make_dose(ada, value=1.5, **OCTOBER)
+    make_dose(ada, value=2.0, quantity="Hp(0.07)", **OCTOBER)
+
+    def lines():
+        with app.test_request_context():
+            return [line for line in attention.collect()
+                    if line.text.startswith("Ada Example") and line.label != "projected"]
+
+    assert sorted((line.label, line.text.split(":")[1].strip()) for line in lines()) == [
+        ("level I", "Hp(10) whole body, quarter"), ("level I", "lens from Hp(0.07) whole body, quarter")]
+    for item in raise_investigations(session, evaluate_lab(session, ON)):
+        item.findings, item.actions = "Badge left near the tube.", "Badge rack moved."
+        sign_off(session, item, officer)
+    session.commit()
+    assert {line.label for line in lines()} == {"reviewed"}
+    # 2.5 mSv more Hp(10) in November: 4.0 in the quarter, past level II (3.75): a new line.
+    make_dose(ada, value=2.5, wear_start=date(2026, 11, 1), wear_end=date(2026, 11, 14))
+    # the badge's Hp(0.07) reads nothing in November, so the lens stays at 2.0 (reviewed)
+    make_dose(ada, value=0.0, quantity="Hp(0.07)", wear_start=date(2026, 11, 1), wear_end=date(2026, 11, 14))
+    labels = {line.text.split(":")[1].strip(): line.label for line in lines()}
+    assert labels["Hp(10) whole body, quarter"] == "level II"
+    assert labels["lens from Hp(0.07) whole body, quarter"] == "reviewed"

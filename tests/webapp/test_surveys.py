@@ -302,3 +302,17 @@ def test_instrument_page_shows_its_levels_with_the_labs_sources(rso, login, make
     # The default levels, 2.5 and 25 uSv/h at 5 cm; under UK IRR17 the logbook holds no source for them.
     assert "Outer surface 2.5 (set by your local rules" in page and "Tube housing 25 (set by your" in page
     assert "227a" not in page.split("Action levels")[1].split("</p>")[0]
+def test_a_survey_asked_for_twice_for_one_instrument_is_one_attention_line(app, make_instrument):
+    from models.surveys.survey_ops import raise_survey_task
+    from models.surveys.tables import SurveyTrigger
+    from webapp.extensions import db
+    from webapp.slots import attention
+
+    instrument = make_instrument(name="P9")
+    raise_survey_task(db.session, instrument, SurveyTrigger.DOSE_RISE, "Dose rise: level I.")
+    raise_survey_task(db.session, instrument, SurveyTrigger.DOSE_RISE, "Dose rise: level II.")
+    db.session.commit()
+    with app.test_request_context():
+        lines = [line for line in attention.collect() if line.label == "survey needed"]
+    assert len(lines) == 1
+    assert "level I." in lines[0].text and "level II." in lines[0].text

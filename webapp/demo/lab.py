@@ -19,7 +19,7 @@ from models.core.codes import Location, Quantity, Result, WorkerCategory
 from models.core.due_dates import add_months, refresher_due
 from models.core.settings import lab_settings
 from models.doses.tables import DoseRecord, DoseSource, Dosimeter, DosimeterKind, Hand
-from models.exposure.limit_set_ops import install_preset
+from models.exposure.limit_set_ops import choose_limit_set, install_preset
 from models.exposure.tables import PregnancyDeclaration
 from models.incidents.tables import Incident, IncidentNote, IncidentType
 from models.instruments.instrument_ops import mark_commissioned, save_instrument, set_out_of_service
@@ -323,8 +323,8 @@ def _settings(lab: _Lab) -> None:
     settings.lab_name = LAB_NAME
     settings.timezone = LAB_ZONE
     settings.safety_officer_email = f"{SAFETY_OFFICER}@example.org"
-    settings.limit_set_id = install_preset(lab.session, LIMIT_PRESET).id
-    lab.session.flush()
+    # The demo's lab has made its choice: a set installed by default is replaced and unflagged.
+    choose_limit_set(lab.session, settings, install_preset(lab.session, LIMIT_PRESET))
 
 
 def _people(lab: _Lab) -> None:

@@ -117,6 +117,10 @@ class DeclareForm(LogbookForm):
 
     declared_on = DateField("Date of the declaration", validators=[
         InputRequired("Enter the date of the declaration.")])
+    conception_on = DateField("Estimated date of conception", validators=[Optional()],
+                              description="Optional; as confidential as the declaration.")
+    expected_end_on = DateField("Expected end of the pregnancy", validators=[Optional()],
+                                description="Optional; the fetal dose is projected to this date.")
 
 
 class EndForm(LogbookForm):

@@ -93,7 +93,8 @@ def pregnancy_change(person_id: int, action: str):
     def change(f) -> list[Investigation]:
         if action == "declare":
             declare(db.session, person_id, f.declared_on.data, today=lab_today(),
-                    recorded_by_id=current_user.id)
+                    recorded_by_id=current_user.id, conception_on=f.conception_on.data,
+                    expected_end_on=f.expected_end_on.data)
         else:
             current = open_declaration(db.session, person_id)
             if current is None:

@@ -6,7 +6,7 @@ from datetime import date
 
 import click
 
-from models.core.codes import LensSource, Level, MrdPolicy, PeriodKind, Proration, Series, code
+from models.core.codes import LensSource, MrdPolicy, PeriodKind, Proration, Series, code
 from models.core.labels import (
     LENS_LABELS,
     LEVEL_LABELS,
@@ -58,6 +58,7 @@ def evaluation_rows(lab: LabEvaluation, person_id: int) -> list[dict]:
     rows = person_rows(lab.evaluation, row)
     missing = lab.totals.missing
     for item in rows:
+        item["limit_set"] = lab.evaluation.limit_set.name
         item["missing_results"] = int(
             missing[row, code(Series(item["series"])), code(PeriodKind(item["period"]))])
     return rows
@@ -91,7 +92,7 @@ def _table(rows: list[dict], unit: str) -> str:
         (SERIES_LABELS[r["series"]], r["quantity"], LOCATION_LABELS[r["location"]], PERIOD_LABELS[r["period"]], r["start"],
          r["end"], amount(r["dose_msv"]), amount(r["limit_msv"]),
          "-" if r["fraction"] is None else f"{100 * r['fraction']:.1f} %",
-         amount(r["remaining_msv"]), LEVEL_LABELS[Level(r["level"])], amount(r["projected_msv"]),
+         amount(r["remaining_msv"]), LEVEL_LABELS[r["level"]], amount(r["projected_msv"]),
          str(r["missing_results"]) if r["missing_results"] else "")
         for r in rows
     ]

@@ -22,4 +22,5 @@ LEVEL_CSS = {
     Level.LEVEL_1: "state-warn",
     Level.LEVEL_2: "state-bad",
     Level.LIMIT_REACHED: "state-bad",
+    "no_limit": "state-warn",
 }

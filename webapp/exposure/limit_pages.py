@@ -21,6 +21,7 @@ from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.exposure import bp, labels
 from webapp.exposure.forms import ChooseSetForm, CopyForm, PoliciesForm, ReasonForm, RuleForm
+from webapp.exposure.notify import review_dose_levels
 from webapp.extensions import db
 from webapp.formatting import settings
 from webapp.forms import error_text, validate_with
@@ -78,6 +79,7 @@ def limits_choose():
     if not validate_with(form, choose):
         return _index(choose=form, status=400)
     db.session.commit()
+    review_dose_levels()  # a new set can put someone at a level at once
     flash(f"'{settings().limit_set.name}' is now the limit set in force.", "info")
     return redirect(url_for("exposure.limits"))
 
@@ -97,6 +99,7 @@ def limits_policies():
     if not validate_with(form, apply):
         return _index(policies=form, status=400)
     db.session.commit()
+    review_dose_levels()  # so may a new way of counting
     flash("Counting policies saved; every figure now follows them.", "info")
     return redirect(url_for("exposure.limits"))
 

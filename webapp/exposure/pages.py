@@ -15,7 +15,7 @@ from models.core.units import from_msv
 from models.doses.tables import DoseRecord
 from models.doses.version_ops import record_versions
 from models.exposure.chart import engine_records, fetal_months, monthly_dose
-from models.exposure.evaluation import person_rows
+from models.exposure.evaluation import NO_LIMIT, person_rows
 from models.exposure.lab_ops import cached_lab_evaluation, policies_of, pregnancy_windows
 from models.exposure.overview import COLUMNS, MAIN_SERIES, OVERVIEW_PERIODS, csv_table, overview_rows, sort_rows
 from models.people.tables import Person, Role
@@ -117,7 +117,8 @@ def person(person_id: int):
     fetal = None
     fetal_row = next((r for r in rows if r["series"] == Series.FETUS), None)
     if fetal_row is not None:
-        start, end = pregnancy_windows(db.session, np.array([person_id]), on)
+        start, end = pregnancy_windows(db.session, np.array([person_id]), on,
+                                       lab.evaluation.limit_set.whole_pregnancy)
         ended = None if np.isnat(end[0]) else end[0].astype(date)
         fetal = fetal_months(engine_records([c[0] for c in chains]), on,
                              policies_of(settings()), start[0].astype(date), ended)
@@ -127,9 +128,10 @@ def person(person_id: int):
         rows=rows, chains=chains, fetal=fetal, fetal_row=fetal_row, labels=labels,
         compact=compact_table(rows), chart_choices=chart_series(rows),
         chart_series=_chosen_series(rows),
-        at_level=[r for r in rows if r["level"] != Level.BELOW_1],
+        at_level=[r for r in rows if r["level"] not in (Level.BELOW_1, NO_LIMIT)],
         projected=[r for r in rows if r["clause"] and r["projected_level"] != r["level"]],
         lab=lab_settings, limit_set_name=lab.evaluation.limit_set.name,
+        whole_pregnancy=lab.evaluation.limit_set.whole_pregnancy,
         is_today=on == lab_today(), Series=Series, PeriodKind=PeriodKind)
 
 
@@ -164,7 +166,8 @@ def gauges(viewer: Person) -> dict:
     for series in GAUGE_SERIES:
         own = [r for r in rows if r["series"] == series]
         year = next((r for r in own if r["period"] == PeriodKind.YEAR), None)
-        worst = max(own, key=lambda r: (code(Level(r["level"])), r["fraction"] or 0.0), default=None)
+        assessed = [r for r in own if r["level"] != NO_LIMIT]
+        worst = max(assessed, key=lambda r: (code(Level(r["level"])), r["fraction"] or 0.0), default=year)
         if year is not None:
             shown.append({"series": series, "year": year, "worst": worst})
     return {"gauges": shown, "labels": labels}

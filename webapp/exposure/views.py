@@ -7,18 +7,20 @@ from flask import abort, flash, redirect, render_template, url_for
 from flask_login import current_user
 
 from models.core.codes import Level, Location, PeriodKind, Quantity, Series, code, decode
-from models.core.labels import LEVEL_LABELS, dose_row_label
-from models.exposure.evaluation import worst_levels
+from models.core.labels import LEVEL_LABELS, shared_row_label
+from models.exposure.evaluation import effective_limit_gaps, worst_levels
 from models.exposure.investigation_ops import (
+    crossings,
     investigation_label,
     open_investigations,
     record_review,
+    reviewed,
     sign_off,
     validate_review,
 )
 from models.exposure.lab_ops import cached_lab_evaluation
 from models.exposure.tables import Investigation
-from models.people.tables import Person, Role
+from models.people.tables import CATEGORY_LABELS, Person, Role
 from models.reports.context_ops import investigation_context
 from webapp.access import roles_required
 from webapp.exposure import bp
@@ -31,6 +33,7 @@ from webapp.slots import Attention, Severity, attention, navigation
 navigation.add("Investigations", "exposure.investigations", {Role.SAFETY_OFFICER}, order=60)
 
 # What a projection reaches, in words that read after "projected to reach".
+LEVEL_ORDER = list(Level)
 REACH = {code(Level.LEVEL_1): "level I", code(Level.LEVEL_2): "level II",
          code(Level.LIMIT_REACHED): "the limit"}
 LEVEL_SEVERITY = {
@@ -75,7 +78,9 @@ def investigation(investigation_id: int):
 
 @attention.add(order=60)
 def dose_levels() -> list[Attention]:
-    """People at a level or a limit, or projected to cross one, from the cached evaluation."""
+    """Every series at a level or a limit (its worst period), and projected crossings, from the cached
+    evaluation; a crossing whose investigation is signed off shows as reviewed until the next
+    level or window."""
     lab = cached_lab_evaluation(db.session, lab_today())
     evaluation = lab.evaluation
     worst = worst_levels(evaluation)
@@ -84,24 +89,32 @@ def dose_levels() -> list[Attention]:
         return []
     names = dict(db.session.execute(sa.select(Person.id, Person.name).where(
         Person.id.in_(lab.person_ids[people].tolist()))).all())
+    found = [c for c in crossings(lab) if c.person_id in names]
+    done = reviewed(db.session, found)
+    # One line per person and series: the crossing at the highest level (the first one kept).
+    per_series: dict[tuple, tuple] = {}
+    for crossing, is_reviewed in sorted(zip(found, done), key=lambda x: -LEVEL_ORDER.index(x[0].level)):
+        per_series.setdefault((crossing.person_id, crossing.series), (crossing, is_reviewed))
     lines = []
-    for p, (s_proj, t_proj) in zip(people, _projected_rows(evaluation, people)):
-        level = int(worst.level[p])
-        name = names[int(lab.person_ids[p])]
-        reach = s_proj >= 0 and int(evaluation.projected_level[p, s_proj, t_proj])
-        if level:
-            row = _row_text(lab, p, worst.series[p], worst.period[p])
-            text = f"{name}: {row}, {LEVEL_LABELS[decode(Level, [level])[0]]}"
-            if reach > level:
-                text += (f"; {_row_label(lab, p, s_proj, t_proj)} projected to reach "
-                         f"{REACH[reach]} by its end")
-            severity, label = LEVEL_SEVERITY[level], LEVEL_LABELS[decode(Level, [level])[0]]
+    for crossing, is_reviewed in per_series.values():
+        name = names[crossing.person_id]
+        text = (f"{name}: {shared_row_label(crossing.series, crossing.quantity, crossing.location, crossing.period)}"
+                f": {dose(crossing.dose_msv)}, {LEVEL_LABELS[crossing.level]}")
+        url = url_for("exposure.person", person_id=crossing.person_id)
+        if is_reviewed:
+            lines.append(Attention(Severity.REVIEWED, text + " (investigation signed off)", url, "reviewed"))
         else:
-            text = (f"{name}: {_row_text(lab, p, s_proj, t_proj)}, projected to reach "
-                    f"{REACH[reach]} by its end")
-            severity, label = Severity.PROJECTED, "projected"
-        lines.append(Attention(severity, text, url_for("exposure.person", person_id=int(lab.person_ids[p])),
-                               label))
+            lines.append(Attention(LEVEL_SEVERITY[code(crossing.level)], text, url,
+                                   LEVEL_LABELS[crossing.level]))
+    for p, (s_proj, t_proj) in zip(people, _projected_rows(evaluation, people)):
+        reach = s_proj >= 0 and int(evaluation.projected_level[p, s_proj, t_proj])
+        if not reach:
+            continue
+        name = names[int(lab.person_ids[p])]
+        lines.append(Attention(Severity.PROJECTED,
+                               f"{name}: {_row_text(lab, p, s_proj, t_proj)}, projected to reach "
+                               f"{REACH[reach]} by its end",
+                               url_for("exposure.person", person_id=int(lab.person_ids[p])), "projected"))
     return lines
 
 
@@ -119,7 +132,7 @@ def _projected_rows(evaluation, people: np.ndarray) -> list[tuple[int, int]]:
 def _row_label(lab, p: int, s: int, t: int) -> str:
     """'Hp(10) whole body, calendar quarter' for one row of the arrays."""
     totals = lab.totals
-    return dose_row_label(decode(Series, [s])[0], decode(Quantity, [totals.quantity[p, s]])[0],
+    return shared_row_label(decode(Series, [s])[0], decode(Quantity, [totals.quantity[p, s]])[0],
                           decode(Location, [totals.location[p, s, t]])[0],
                           decode(PeriodKind, [t])[0])
 
@@ -127,6 +140,33 @@ def _row_label(lab, p: int, s: int, t: int) -> str:
 def _row_text(lab, p: int, s: int, t: int) -> str:
     """'Hp(10) whole body, quarter: 1.600 mSv' for one row of the arrays."""
     return f"{_row_label(lab, p, s, t)}: {dose(float(lab.totals.dose[p, s, t]))}"
+
+
+@attention.add(order=58)
+def limit_set_state() -> list[Attention]:
+    """Fail closed: no set in force, a set installed by default, people without an effective limit."""
+    lab_settings = settings()
+    where = url_for("exposure.limits")
+    if lab_settings.limit_set is None:
+        return [Attention(Severity.LIMIT_SET, "No limit set is in force: no dose is assessed against "
+                          "any limit. Choose a limit set.", where, "no limit set")]
+    name = lab_settings.limit_set.name
+    lines = []
+    if lab_settings.limit_set_by_default:
+        lines.append(Attention(
+            Severity.LIMIT_SET, f"The limit set in force, {name}, was installed by default when the "
+            "database was created and nobody has confirmed it: confirm it or choose the set that "
+            "applies to this lab.", where, "installed by default"))
+    people = db.session.execute(sa.select(Person.name, Person.category).where(Person.active)
+                                .order_by(Person.name)).all()
+    limit_set = cached_lab_evaluation(db.session, lab_today()).evaluation.limit_set
+    for category in effective_limit_gaps(limit_set, [c for _, c in people]):
+        names = ", ".join(n for n, c in people if c == category)
+        lines.append(Attention(
+            Severity.LIMIT_SET, f"{name} has no effective-dose limit for {CATEGORY_LABELS[category].lower()} "
+            f"({names}): their doses are not assessed. Choose another limit set, or copy this one "
+            "and add the rule.", where, "no limit"))
+    return lines
 
 
 @attention.add(order=61)

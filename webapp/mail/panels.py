@@ -16,7 +16,7 @@ def undelivered_panel(_person: Person) -> dict:
     return {"count": count, "messages": oldest}
 
 
-@attention.add
+@attention.add(order=70)
 def _undelivered_line() -> list[Attention]:
     """One line while alerts or reminders wait to be sent."""
     count, _ = undelivered(db.session, limit=0)

@@ -1,4 +1,4 @@
-"""`flask people add` and `flask people set-password`: accounts from scripts, the first admin included."""
+"""`flask people add`, `set-password` and `pregnancy`: accounts and written declarations from scripts."""
 from __future__ import annotations
 
 import sys
@@ -7,10 +7,15 @@ import click
 
 from models.core.codes import WorkerCategory
 from models.core.errors import Invalid
+from models.exposure.investigation_ops import review_after_dose_change
+from models.exposure.pregnancy_ops import WITHDRAWN, declare, end_declaration, open_declaration
 from models.people.account_ops import set_password
 from models.people.person_ops import add_person, find_person
 from models.people.tables import PERSON_CATEGORIES, Role
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
+from webapp.formatting import lab_today
+from webapp.mail import deliver_queued
 from webapp.passwords import hash_password, password_problem
 from webapp.people import bp
 
@@ -58,3 +63,40 @@ def _read_password(*about_person: str | None) -> str:
     if problem := password_problem(password, *(p or "" for p in about_person)):
         raise click.ClickException(f"password: {problem}")
     return hash_password(password)
+DATE = click.DateTime(formats=["%Y-%m-%d"])
+
+
+@bp.cli.command("pregnancy")
+@click.argument("login")
+@click.option("--declared", type=DATE, default=None, help="Date of the written declaration, YYYY-MM-DD.")
+@click.option("--conception", type=DATE, default=None, help="Estimated date of conception (optional).")
+@click.option("--expected-end", type=DATE, default=None, help="Expected end of the pregnancy (optional).")
+@click.option("--withdrawn", type=DATE, default=None, help="Date the declaration was withdrawn.")
+def pregnancy(login, declared, conception, expected_end, withdrawn):
+    """Record a pregnancy declaration the safety officer received in writing, or its withdrawal."""
+    person = find_person(db.session, login)
+    if person is None:
+        raise click.ClickException(f"login: No person has the login '{login}'.")
+    if (declared is None) == (withdrawn is None):
+        raise click.ClickException("Give either --declared DATE or --withdrawn DATE.")
+    day = lab_today()
+    try:
+        if declared is not None:
+            declare(db.session, person.id, declared.date(), today=day,
+                    conception_on=conception and conception.date(),
+                    expected_end_on=expected_end and expected_end.date())
+            done = f"Declaration of {declared.date()} recorded for {login}."
+        else:
+            in_force = open_declaration(db.session, person.id)
+            if in_force is None:
+                raise Invalid.one("withdrawn", f"{login} has no declaration in force.")
+            end_declaration(db.session, in_force, withdrawn.date(), WITHDRAWN, today=day)
+            done = f"Declaration of {in_force.declared_on} withdrawn on {withdrawn.date()}."
+    except Invalid as error:
+        db.session.rollback()
+        raise click.ClickException(str(error)) from error
+    # A declaration is a dose input: crossings it reveals are raised now, as after a dose record.
+    tell_about(review_after_dose_change(db.session, day))
+    db.session.commit()
+    deliver_queued()
+    click.echo(done)

@@ -105,10 +105,15 @@ def _survey_lines() -> list[Attention]:
                        f"Latest survey of {s.instrument.name} failed ({local(s.performed_at)}).",
                        url_for("surveys.survey", survey_id=s.id), "survey failed")
              for s in latest_failed_surveys(db.session)]
-    lines += [Attention(Severity.OVERDUE, f"Survey of {t.instrument.name} needed: {t.reason}",
-                        url_for("surveys.new_survey", instrument_id=t.instrument_id,
-                                trigger=t.trigger.value), "survey needed")
-              for t in open_survey_tasks(db.session)]
+    # One survey answers every request for its instrument: one line each, with all the reasons.
+    asked: dict[int, list] = {}
+    for task in open_survey_tasks(db.session):
+        asked.setdefault(task.instrument_id, []).append(task)
+    lines += [Attention(Severity.OVERDUE, f"Survey of {tasks[0].instrument.name} needed: "
+                        + "; ".join(dict.fromkeys(t.reason for t in tasks)),
+                        url_for("surveys.new_survey", instrument_id=instrument_id,
+                                trigger=tasks[0].trigger.value), "survey needed")
+              for instrument_id, tasks in asked.items()]
     return lines
 
 
