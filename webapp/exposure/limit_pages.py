@@ -7,6 +7,7 @@ from wtforms import SelectChoice
 
 from models.audit import audit_ops
 from models.exposure import presets
+from models.exposure.investigation_ops import review_after_dose_change
 from models.exposure.limit_set_ops import (
     choose_limit_set,
     copy_limit_set,
@@ -21,9 +22,9 @@ from models.people.tables import Role
 from webapp.access import roles_required
 from webapp.exposure import bp, labels
 from webapp.exposure.forms import ChooseSetForm, CopyForm, PoliciesForm, ReasonForm, RuleForm
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
-from webapp.formatting import settings
+from webapp.formatting import lab_today, settings
 from webapp.forms import error_text, validate_with
 from webapp.slots import settings_sections
 
@@ -75,11 +76,12 @@ def limits_choose():
         chosen = db.session.get(LimitSet, f.limit_set_id.data) if f.limit_set_id.data else None
         with audit_ops.reason(db.session, f.reason.data):
             choose_limit_set(db.session, settings(), chosen)
+        return review_after_dose_change(db.session, lab_today())  # a new set can put someone at a level
 
-    if not validate_with(form, choose):
+    if not (chosen := validate_with(form, choose)):
         return _index(choose=form, status=400)
+    tell_about(chosen.value)
     db.session.commit()
-    review_dose_levels()  # a new set can put someone at a level at once
     flash(f"'{settings().limit_set.name}' is now the limit set in force.", "info")
     return redirect(url_for("exposure.limits"))
 
@@ -95,11 +97,12 @@ def limits_policies():
         with audit_ops.reason(db.session, f.reason.data):
             set_policies(db.session, settings(), {name: f[name].data for name in (
                 "proration", "mrd_policy", "lens_source", "five_year_first_year")})
+        return review_after_dose_change(db.session, lab_today())  # so may a new way of counting
 
-    if not validate_with(form, apply):
+    if not (applied := validate_with(form, apply)):
         return _index(policies=form, status=400)
+    tell_about(applied.value)
     db.session.commit()
-    review_dose_levels()  # so may a new way of counting
     flash("Counting policies saved; every figure now follows them.", "info")
     return redirect(url_for("exposure.limits"))
 

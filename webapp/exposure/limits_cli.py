@@ -12,10 +12,13 @@ from models.core.codes import LensSource, MrdPolicy, Proration
 from models.core.errors import Invalid
 from models.core.settings import lab_settings
 from models.exposure import presets
+from models.exposure.investigation_ops import review_after_dose_change
 from models.exposure.limit_set_ops import choose_limit_set, install_default, install_preset, set_policies
 from models.exposure.tables import LimitSet
-from webapp.exposure.notify import review_dose_levels
+from webapp.exposure.notify import tell_about
 from webapp.extensions import db
+from webapp.formatting import lab_today
+from webapp.mail import deliver_queued
 
 limits = click.Group("limits", help="The limit set in force: list the sets, choose one.")
 
@@ -66,8 +69,10 @@ def use(key: str, reason: str):
     except Invalid as error:
         db.session.rollback()
         raise _fail(error) from error
+    raised = review_after_dose_change(db.session, lab_today())
+    tell_about(raised)
     db.session.commit()
-    raised = review_dose_levels()
+    deliver_queued()
     click.echo(f"'{chosen.name}' is now the limit set in force; {len(raised)} new investigation(s) raised.")
 
 
@@ -126,7 +131,9 @@ def policies(proration, mrd, lens_source, reason):
     except Invalid as error:
         db.session.rollback()
         raise _fail(error) from error
+    raised = review_after_dose_change(db.session, lab_today())
+    tell_about(raised)
     db.session.commit()
-    raised = review_dose_levels()
+    deliver_queued()
     click.echo(f"{len(raised)} new investigation(s) raised. Policies: proration {settings.proration}, MRD {settings.mrd_policy}, "
                f"lens source {settings.lens_source}.")
