@@ -25,8 +25,7 @@ def upgrade():
     # Instruments already in the logbook were in use before commissioning was recorded.
     op.execute("UPDATE instrument SET commissioned_at = created_at")
     # 0017 to 0019 changed rows and added columns: the trail records them as found.
-    record_baseline(op.get_bind(), "Recorded as found after authorisation rules, session dosimeters "
-                                   "and commissioning were added.")
+    record_baseline(op.get_bind(), "Recorded as found after migrations 0017 to 0019.")
 
 
 def downgrade():

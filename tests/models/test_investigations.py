@@ -168,11 +168,14 @@ def test_review_after_a_dose_change_returns_what_it_raised_and_asks_for_a_survey
     make_dose(person, value=1.5, **NOVEMBER)
     raised = review_after_dose_change(session, ON)
     session.commit()
-    # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md, investigation levels)
-    assert [(i.person_id, i.period, i.period_start, i.level) for i in raised] == [
-        (person.id, "quarter", date(2026, 10, 1), "level_1")]
+    # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md, investigation levels).
+    # The lens has no Hp(0.07) to stand in for Hp(3), so it reads the other whole-body quantity,
+    # Hp(10): 1.5 mSv against the lens's 20 mSv/y scaled to the same 1.25 mSv quarterly level I.
+    assert sorted((i.series, i.person_id, i.period, i.period_start, i.level) for i in raised) == [
+        ("effective", person.id, "quarter", date(2026, 10, 1), "level_1"),
+        ("lens", person.id, "quarter", date(2026, 10, 1), "level_1")]
     stored = session.scalars(sa.select(Investigation)).all()
-    assert [i.id for i in stored] == [raised[0].id]
+    assert sorted(i.id for i in stored) == sorted(i.id for i in raised)
     tasks = session.scalars(sa.select(SurveyTask)).all()
     assert [(t.instrument_id, t.trigger) for t in tasks] == [(instrument.id, "dose_rise")]
     # Nothing new since: the next review raises nothing and asks for no second survey.

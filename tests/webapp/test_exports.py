@@ -95,7 +95,8 @@ def test_the_command_writes_the_list(app, make_person, make_dose, tmp_path):
                                                 "--to", "2026-10-31", "--out", str(out)])
     assert result.exit_code == 0, result.output
     assert "(1 rows)" in result.output
-    rows = list(csv.reader(out.open(encoding="utf-8")))
+    with out.open(encoding="utf-8") as handle:
+        rows = list(csv.reader(handle))
     assert rows[1][1] == "ada" and rows[1][8] == "0.25"
     result = app.test_cli_runner().invoke(args=["export", "dose_records", "--from", "2026-11-01",
                                                 "--to", "2026-10-31", "--out", str(out)])

@@ -269,7 +269,7 @@ def test_the_attention_list_follows_the_review(session, monkeypatch, make_person
                     if line.text.startswith("Ada Example") and line.label != "projected"]
 
     assert sorted((line.label, line.text.split(":")[1].strip()) for line in lines()) == [
-        ("level I", "Hp(10) whole body, quarter"), ("level I", "lens from Hp(0.07) whole body, quarter")]
+        ("level I", "Hp(10) whole body, calendar quarter"), ("level I", "lens from Hp(0.07) whole body, calendar quarter")]
     for item in raise_investigations(session, evaluate_lab(session, ON)):
         item.findings, item.actions = "Badge left near the tube.", "Badge rack moved."
         sign_off(session, item, officer)
@@ -280,5 +280,5 @@ def test_the_attention_list_follows_the_review(session, monkeypatch, make_person
     # the badge's Hp(0.07) reads nothing in November, so the lens stays at 2.0 (reviewed)
     make_dose(ada, value=0.0, quantity="Hp(0.07)", wear_start=date(2026, 11, 1), wear_end=date(2026, 11, 14))
     labels = {line.text.split(":")[1].strip(): line.label for line in lines()}
-    assert labels["Hp(10) whole body, quarter"] == "level II"
-    assert labels["lens from Hp(0.07) whole body, quarter"] == "reviewed"
+    assert labels["Hp(10) whole body, calendar quarter"] == "level II"
+    assert labels["lens from Hp(0.07) whole body, calendar quarter"] == "reviewed"

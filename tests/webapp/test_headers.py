@@ -29,6 +29,7 @@ def test_every_kind_of_response_carries_the_headers(make_person, login, client):
                      operator.get("/no-such-page"), client.get("/api/v1/sessions"),
                      client.get("/api/v1/openapi.json")):
         _assert_security_headers(response)
+        response.close()  # the static file is streamed from an open file
     assert "Strict-Transport-Security" not in operator.get("/").headers
 
 
@@ -38,7 +39,8 @@ def test_personal_pages_are_not_cached_and_static_files_are(make_person, login, 
         response = operator.get(url, follow_redirects=True)
         assert response.status_code == 200, url
         assert response.headers["Cache-Control"] == "no-store", url
-    assert "no-store" not in client.get("/static/logbook.css").headers.get("Cache-Control", "")
+    with client.get("/static/logbook.css") as static:
+        assert "no-store" not in static.headers.get("Cache-Control", "")
 
 
 @pytest.mark.parametrize("app_config", [{"SESSION_COOKIE_SECURE": True}])

@@ -94,7 +94,7 @@ def test_changing_the_set_raises_investigations_at_once(app, make_person, make_d
 
     from models.exposure.tables import Investigation
 
-    monkeypatch.setattr("webapp.exposure.notify.lab_today", lambda: date(2026, 11, 15))
+    monkeypatch.setattr("webapp.exposure.limits_cli.lab_today", lambda: date(2026, 11, 15))
     ada = make_person("ada")
     # 1.5 mSv Hp(10) and a nil Hp(0.07) in October; no limit set yet, so nothing is raised.
     october = {"wear_start": date(2026, 10, 1), "wear_end": date(2026, 10, 31)}

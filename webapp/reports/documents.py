@@ -4,7 +4,7 @@ from __future__ import annotations
 from datetime import date, timedelta
 
 from models.core.base import utcnow
-from models.core.codes import Level, PeriodKind, Series
+from models.core.codes import PeriodKind, Series
 from models.core.due_dates import calibration_due
 from models.core.labels import LENS_LABELS, MRD_LABELS, PRORATION_LABELS
 from models.core.settings import LabSettings
@@ -71,7 +71,7 @@ def person_statement(person: Person, year: int, made_by: str, now_text: str) -> 
           r["start"], r["end"],
           _msv(r["dose_msv"]), _msv(r["limit_msv"], 1),
           "—" if r["fraction"] is None else f"{100 * r['fraction']:.1f}",
-          capfirst(labels.LEVEL.get(Level(r["level"]), r["level"])), r["missing"] or "")
+          capfirst(labels.LEVEL.get(r["level"], r["level"])), r["missing"] or "")
          for r in rows],
         widths=(34, 26, 18, 18, 16, 16, 14, 22, 14), empty="No dose records and no limits apply.")
     chains = [c for c in record_versions(db.session, person.id) if any(_in_year(r, year) for r in c)]

@@ -62,8 +62,8 @@ def _offer_dosimeters(form, person: Person) -> None:
 
 def _offer_supervisors(form, people: list[Person], person: Person) -> None:
     """Offer the given people, less the operator, as the session's supervisor."""
-    form.supervisor_id.choices = [("", "—")] + [
-        (str(p.id), p.name) for p in people if p.id != person.id]
+    form.supervisor_id.choices = [SelectChoice("", "—")] + [
+        SelectChoice(str(p.id), p.name) for p in people if p.id != person.id]
 
 
 def _independent_users() -> list[Person]:

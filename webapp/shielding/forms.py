@@ -4,7 +4,7 @@ from __future__ import annotations
 import math
 
 from werkzeug.datastructures import MultiDict
-from wtforms import FloatField, SelectField, SelectMultipleField
+from wtforms import FloatField, SelectChoice, SelectField, SelectMultipleField
 from wtforms.validators import InputRequired, NumberRange, Optional, ValidationError
 from wtforms.widgets import CheckboxInput, ListWidget
 
@@ -39,12 +39,12 @@ class EstimateForm(LogbookForm):
     class Meta:
         csrf = False  # read-only page, sent with GET
 
-    anode = SelectField("Anode", choices=[(a, a) for a in SUPPORTED_ANODES])
+    anode = SelectField("Anode", choices=[SelectChoice(a, a) for a in SUPPORTED_ANODES])
     kv = Number("Tube voltage (kV)", [InputRequired(NUMBER), NumberRange(min=MIN_KV, max=MAX_KV,
                 message=f"Between {MIN_KV:g} and {MAX_KV:g} kV (the model's range).")])
     reading = Number("Net reading", [InputRequired(NUMBER), NumberRange(min=0, max=1e7,
                          message="Zero or more, at most 10,000,000.")])
-    unit = SelectField("Unit", choices=[(u.code, u.label) for u in RATE_UNITS.values()])
+    unit = SelectField("Unit", choices=[SelectChoice(u.code, u.label) for u in RATE_UNITS.values()])
     distance_cm = Number("Read at (cm)", [InputRequired(NUMBER), NumberRange(min=0.1, max=1e5,
                              message="Between 0.1 cm and 1 km.")], default=5.0)
     target_usv_h = Number("Target (µSv/h)", [InputRequired(NUMBER), NumberRange(min=1e-6, max=1e7,
@@ -60,7 +60,7 @@ class EstimateForm(LogbookForm):
     at_cm = Number("Another distance (cm)", [Optional(), NumberRange(min=0.1, max=1e5,
                        message="Between 0.1 cm and 1 km.")],
                        description="The rate there by the inverse square law, an approximation.")
-    materials = SelectMultipleField("Materials", choices=[(m.key, m.label) for m in MATERIALS.values()],
+    materials = SelectMultipleField("Materials", choices=[SelectChoice(m.key, m.label) for m in MATERIALS.values()],
                                     default=list(MATERIALS), option_widget=CheckboxInput(),
                                     widget=ListWidget(prefix_label=False))
 
