@@ -19,7 +19,7 @@ DEMO_DAY = date(2026, 11, 30)
 # Printable width at 96 px per inch: A4 is 210 mm and Letter 215.9 mm wide, less 2 x 15 mm margins.
 PRINTABLE_PX = {"A4": round((210 - 30) / 25.4 * 96), "Letter": round((215.9 - 30) / 25.4 * 96)}
 # Pages a printout may take: the exposure page and an investigation are read at a desk, so a few.
-MAX_PAGES = {"exposure": 7, "people": 3, "authorised": 2, "due": 4, "investigation": 3}
+MAX_PAGES = {"exposure": 4, "people": 3, "authorised": 2, "due": 4, "investigation": 3}
 
 
 @pytest.fixture
