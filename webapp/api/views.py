@@ -142,18 +142,24 @@ def _operator(body: dict) -> Person | None:
     return find_person(db.session, login.strip()) if isinstance(login, str) else None
 
 
-def _validated(body: dict, validate) -> tuple[Person, dict]:
-    """Read the body and run the session rules on it; every problem is reported together."""
+def _written(body: dict, validate, write) -> InstrumentSession:
+    """Read the body and write the session, the session rules running once; every problem together.
+
+    With a field the body could not give, `validate` collects the rules' errors beside it (nothing
+    is written); otherwise `write` checks the rules itself under the write lock and writes.
+    """
     operator = _operator(body)
     values, errors = _values(body, operator)
-    errors = {**errors_of(lambda: validate(operator, values)), **errors}
-    if errors:
+    try:
+        if errors:
+            raise Invalid({**errors_of(lambda: validate(operator, values)), **errors})
+        set_actor(db.session, operator.id if operator else None)
+        return write(operator, values)
+    except Invalid as error:
         # The form calls this field dosimeter_id; the API names dosimeters by serial.
-        if "dosimeter_id" in errors:
-            errors["dosimeter"] = errors.pop("dosimeter_id")
-        raise Invalid(errors)
-    set_actor(db.session, operator.id)
-    return operator, values
+        if "dosimeter_id" in error.errors:
+            error.errors["dosimeter"] = error.errors.pop("dosimeter_id")
+        raise
 
 
 def as_json(entry: InstrumentSession) -> dict:
@@ -212,8 +218,8 @@ def _answer(payload: dict, status: int):
 def open_():
     """Open a session on the token's instrument."""
     instrument, body = g.instrument, _body()
-    operator, values = _validated(body, lambda op, v: validate_opening(db.session, instrument, op, v))
-    entry = open_session(db.session, instrument, operator, values, source=EntrySource.API)
+    entry = _written(body, lambda op, v: validate_opening(db.session, instrument, op, v),
+                     lambda op, v: open_session(db.session, instrument, op, v, source=EntrySource.API))
     return _answer(as_json(entry), 201)
 
 
@@ -222,8 +228,8 @@ def open_():
 def finished():
     """Log a session that already ended."""
     instrument, body = g.instrument, _body()
-    operator, values = _validated(body, lambda op, v: validate_finished(db.session, instrument, op, v))
-    entry = log_finished_session(db.session, instrument, operator, values, source=EntrySource.API)
+    entry = _written(body, lambda op, v: validate_finished(db.session, instrument, op, v),
+                     lambda op, v: log_finished_session(db.session, instrument, op, v, source=EntrySource.API))
     return _answer(as_json(entry), 201)
 
 
