@@ -8,11 +8,13 @@ the whole batch (the file's SHA-256, the row count and a digest over the rows in
 from __future__ import annotations
 
 import csv
+import gc
 import hashlib
 import io
 import itertools
 import math
 from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import date, datetime
 
@@ -384,10 +386,11 @@ def import_report(session: Session, data: bytes, layout: Layout, filename: str, 
     try:
         batch = _new_batch(session, preview, _count_rows(data), imported_by_id)
         writer = _Writer(session, batch)
-        for chunk in _chunks(data, layout, _Checker(session, layout)):
-            preview.keep(chunk)
-            if not preview.bad_count:
-                writer.write(chunk)
+        with _no_cycle_collection():
+            for chunk in _chunks(data, layout, _Checker(session, layout)):
+                preview.keep(chunk)
+                if not preview.bad_count:
+                    writer.write(chunk)
     except Invalid as error:
         preview.file_errors = list(error.errors.values())
         raise Refused(preview) from error
@@ -396,6 +399,19 @@ def import_report(session: Session, data: bytes, layout: Layout, filename: str, 
     writer.finish(preview.sha256)
     preview.batch = batch
     return preview
+
+
+@contextmanager
+def _no_cycle_collection() -> Iterator[None]:
+    """Pause Python's cycle collector: a chunk makes ~100,000 short-lived acyclic objects, and the
+    collector's repeated passes over them cost a quarter of the import; memory stays bounded."""
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
 
 
 def _count_rows(data: bytes) -> int:
