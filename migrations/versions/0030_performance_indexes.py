@@ -1,4 +1,4 @@
-"""partial indexes over the sessions not ended yet, for open sessions and busy instruments
+"""partial indexes over the sessions not ended yet (open sessions, busy instruments); dose records by person and wear start (imports)
 
 Revision ID: 0030
 Revises: 0021
@@ -19,8 +19,10 @@ def upgrade():
     for column in COLUMNS:
         op.create_index(f"ix_instrument_session_open_{column}", "instrument_session", [column],
                         sqlite_where=sa.text("ended_at IS NULL"), postgresql_where=sa.text("ended_at IS NULL"))
+    op.create_index("ix_dose_record_person_id_wear_start", "dose_record", ["person_id", "wear_start"])
 
 
 def downgrade():
+    op.drop_index("ix_dose_record_person_id_wear_start", table_name="dose_record")
     for column in COLUMNS:
         op.drop_index(f"ix_instrument_session_open_{column}", table_name="instrument_session")
