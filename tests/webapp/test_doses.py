@@ -314,3 +314,15 @@ def test_admin_audit_log_hides_dosimeters(make_person, login, make_dosimeter):
     make_dosimeter(wearer, serial="ABD-77", kind=DosimeterKind.ABDOMEN)
     page = login(admin).get("/audit/").data.decode()
     assert "ABD-77" not in page and "dosimeter" not in page
+
+
+def test_the_audit_page_shows_an_import_as_one_batch_event(session, make_person, login):
+    make_person("ann")
+    client = login(make_person("rso", roles=OFFICER))
+    rows = ["ann,,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,",
+            "ann,,2026-02-01,2026-02-28,Hp(10),whole_body,0.2,mSv,measured,"]
+    done = commit_from(client, upload(client, report(rows)).get_data(as_text=True))
+    assert "Imported 2 dose records" in done.get_data(as_text=True)
+    page = client.get("/audit/").get_data(as_text=True)
+    assert page.count("bulk_create") == 1 and "dose record (a batch of rows)" in page
+    assert f"file_sha256: {sha(report(rows))}" in page and "rows: 2" in page
