@@ -17,7 +17,7 @@ $(VENV)/.installed: pyproject.toml | $(BIN)/python
 	touch $@
 
 $(VENV)/.installed-test: pyproject.toml $(VENV)/.installed
-	$(BIN)/pip install --quiet -e '.[test]'
+	$(BIN)/pip install --quiet -e '.[test,bench]'
 	touch $@
 
 install: $(VENV)/.installed
@@ -38,7 +38,7 @@ test: install-test
 	$(BIN)/python -m pytest -q
 
 ## Print the performance table (issue-sized synthetic lab; see README).
-bench: install
+bench: install-test
 	$(BIN)/python -m bench
 
 ## Build the installable wheel into dist/ (the app, its domain and its migrations).

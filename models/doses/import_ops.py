@@ -1,14 +1,21 @@
 """Import of a dosimetry report as CSV: read, map columns, check every row, then add all or none.
 
-The same checks serve the browser and `flask doses import`. Lookups (people, dosimeters, the
-current records' keys) are loaded once per file, never per row.
+The same checks serve the browser and `flask doses import`. The file is read a chunk at a time;
+look-ups (people, dosimeters, the current records' keys) are one query per chunk, never per row.
+Rows are written with one executemany per chunk and recorded in the audit trail by one event for
+the whole batch (the file's SHA-256, the row count and a digest over the rows in order).
 """
 from __future__ import annotations
 
+import codecs
 import csv
+import gc
 import hashlib
 import io
+import itertools
 import math
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import date, datetime
 
@@ -16,23 +23,25 @@ import sqlalchemy as sa
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, joinedload
 
+from models.audit.audit_ops import RowsDigest, append_events, bulk_columns, bulk_event
 from models.core.base import taken, utcnow
 from models.core.bounds import DATE_MESSAGE, date_in_range
 from models.core.codes import Location, Quantity, Result
+from models.core.database import hold_write_lock
 from models.core.errors import Invalid
 from models.core.settings import lab_date
 from models.core.units import DOSE_UNITS
 from models.doses.record_ops import (
     DoseEntry,
+    current_keys_among,
     dosimeter_periods,
     duplicate_message,
     entry_errors,
-    existing_current_keys,
     overlap_message,
-    record_from,
+    record_values,
     unit_of,
 )
-from models.doses.tables import Dosimeter, ImportBatch, ImportMapping
+from models.doses.tables import DoseRecord, Dosimeter, ImportBatch, ImportMapping
 from models.people.tables import Person
 
 # The logbook's fields, in the order of the product's own CSV layout.
@@ -45,9 +54,13 @@ FIELD_LABELS = {
 }
 REQUIRED = ("wear_start", "wear_end", "quantity", "location")
 ISO_DATE = "ISO 8601"
+DUPLICATE = "duplicate"
+# Rows read, checked and written at a time: memory follows the chunk, not the file.
+CHUNK = 5000
+# Rows and bad rows a preview keeps to show: counts and the first problems, never every row's HTML.
+SHOWN = 50
 # A monthly report of a large lab has a few thousand rows; this bounds the memory a file can take.
 MAX_ROWS = 50_000
-DUPLICATE = "duplicate"
 
 
 @dataclass(frozen=True)
@@ -125,12 +138,21 @@ def _date_format_works(fmt: str) -> bool:
         return False
 
 
-def read_csv(data: bytes) -> tuple[list[str], list[tuple[int, list[str]]]]:
-    """The header and the non-blank rows (with their line numbers) of a CSV file.
+def _reader(data: bytes) -> tuple[list[str], Iterator[tuple[int, list[str]]]]:
+    """The header and a stream of the non-blank rows (with their line numbers) of a CSV file.
 
-    Rows are read one at a time from the bytes, never as one decoded copy, and a file with more
+    Rows are decoded one at a time from the bytes, never as one decoded copy, and a file with more
     than MAX_ROWS rows is refused as soon as the row after the last allowed one is read.
     """
+    not_utf8 = "The file is not UTF-8 text: save it as CSV (UTF-8)."
+    # Checked whole before any column is read, a megabyte at a time, keeping none of the text.
+    decoder = codecs.getincrementaldecoder("utf-8-sig")()
+    try:
+        for start in range(0, len(data), 1 << 20):
+            decoder.decode(data[start:start + (1 << 20)])
+        decoder.decode(b"", final=True)
+    except UnicodeDecodeError as error:
+        raise Invalid.one("file", not_utf8) from error
     text = io.TextIOWrapper(io.BytesIO(data), encoding="utf-8-sig", newline="")
     try:
         first = text.readline()
@@ -141,20 +163,35 @@ def read_csv(data: bytes) -> tuple[list[str], list[tuple[int, list[str]]]]:
         text.seek(0)
         reader = csv.reader(text, dialect)
         header = [h.strip() for h in next(reader)]
-        rows = []
-        for row in reader:
-            if any(cell.strip() for cell in row):
-                rows.append((reader.line_num, row))
-                if len(rows) > MAX_ROWS:
-                    raise Invalid.one("file", f"The file has more than {MAX_ROWS:,} rows: split it into "
-                                              "smaller reports.")
     except UnicodeDecodeError as error:
-        raise Invalid.one("file", "The file is not UTF-8 text: save it as CSV (UTF-8).") from error
+        raise Invalid.one("file", not_utf8) from error
     except StopIteration:
         raise Invalid.one("file", "The file is empty.") from None
     except csv.Error as error:
         raise Invalid.one("file", f"The file is not readable as CSV: {error}.") from error
-    return header, rows
+
+    def rows() -> Iterator[tuple[int, list[str]]]:
+        """Non-blank rows; an unreadable row or one past MAX_ROWS is a file error."""
+        count = 0
+        try:
+            for row in reader:
+                if any(cell.strip() for cell in row):
+                    count += 1
+                    if count > MAX_ROWS:
+                        raise Invalid.one("file", f"The file has more than {MAX_ROWS:,} rows: split it "
+                                                  "into smaller reports.")
+                    yield reader.line_num, row
+        except UnicodeDecodeError as error:
+            raise Invalid.one("file", not_utf8) from error
+        except csv.Error as error:
+            raise Invalid.one("file", f"The file is not readable as CSV: {error}.") from error
+    return header, rows()
+
+
+def read_csv(data: bytes) -> tuple[list[str], list[tuple[int, list[str]]]]:
+    """The header and the non-blank rows (with their line numbers) of a CSV file."""
+    header, rows = _reader(data)
+    return header, list(rows)
 
 
 @dataclass
@@ -171,27 +208,39 @@ class Row:
 
 @dataclass
 class Preview:
-    """A checked report: every row with its errors, and whether the same file was imported before."""
+    """A checked report: counts, the first rows and the first bad rows, and any earlier import.
+
+    Only the first SHOWN rows and bad rows are kept, so checking a large file needs memory for a
+    chunk, not for the file.
+    """
 
     filename: str
     sha256: str
     layout: Layout
+    data: bytes = field(default=b"", repr=False)
     rows: list[Row] = field(default_factory=list)
+    bad_rows: list[Row] = field(default_factory=list)
+    row_count: int = 0
+    bad_count: int = 0
     file_errors: list[str] = field(default_factory=list)
     earlier: ImportBatch | None = None
-
-    @property
-    def bad_rows(self) -> list[Row]:
-        """The rows with at least one error."""
-        return [r for r in self.rows if r.errors]
+    batch: ImportBatch | None = None
 
     @property
     def ready(self) -> bool:
         """True when committing would add every row."""
-        return not self.file_errors and not self.bad_rows and self.earlier is None and bool(self.rows)
+        return not self.file_errors and not self.bad_count and self.earlier is None and bool(self.row_count)
+
+    def keep(self, rows: list[Row]) -> None:
+        """Count a checked chunk, keeping the first rows and bad rows for the page."""
+        self.row_count += len(rows)
+        self.rows += rows[:SHOWN - len(self.rows)]
+        bad = [r for r in rows if r.errors]
+        self.bad_count += len(bad)
+        self.bad_rows += bad[:SHOWN - len(self.bad_rows)]
 
     def problems(self) -> list[str]:
-        """Every file and row error as one line each, in the file's order."""
+        """Every file error and the errors of the first bad rows, as one line each."""
         lines = list(self.file_errors)
         for row in self.bad_rows:
             lines += [f"Line {row.line}: {FIELD_LABELS.get(f, 'Row')}: {m}" if f != DUPLICATE
@@ -201,28 +250,34 @@ class Preview:
 
 def validate_report(session: Session, data: bytes, layout: Layout, filename: str) -> Preview:
     """Read and check a whole report without writing anything."""
-    sha = hashlib.sha256(data).hexdigest()
-    preview = Preview(filename, sha, layout)
+    preview = Preview(filename, hashlib.sha256(data).hexdigest(), layout, data)
     preview.earlier = session.scalar(
-        sa.select(ImportBatch).where(ImportBatch.sha256 == sha).order_by(ImportBatch.id))
+        sa.select(ImportBatch).where(ImportBatch.sha256 == preview.sha256).order_by(ImportBatch.id))
     try:
-        header, raw_rows = read_csv(data)
+        for chunk in _chunks(data, layout, _Checker(session, layout)):
+            preview.keep(chunk)
     except Invalid as error:
         preview.file_errors = list(error.errors.values())
+        preview.rows, preview.bad_rows, preview.row_count, preview.bad_count = [], [], 0, 0
         return preview
+    if not preview.row_count:
+        preview.file_errors = ["The file has a header but no rows."]
+    return preview
+
+
+def _chunks(data: bytes, layout: Layout, checker: _Checker) -> Iterator[list[Row]]:
+    """The report's rows, CHUNK at a time, each chunk checked; Invalid for an unreadable file."""
+    header, raw_rows = _reader(data)
     missing = [f"The file has no column '{column}' (for {FIELD_LABELS[f].lower()})."
                for f, column in layout.columns.items() if column not in header]
     if missing:
-        preview.file_errors = missing
-        return preview
-    if not raw_rows:
-        preview.file_errors = ["The file has a header but no rows."]
-        return preview
-    position = {f: header.index(column) for f, column in layout.columns.items()}
-    preview.rows = [Row(line, {f: (cells[i].strip() if i < len(cells) else "") for f, i in position.items()})
-                    for line, cells in raw_rows]
-    _validate_rows(session, preview.rows, layout)
-    return preview
+        raise Invalid({f"column{i}": message for i, message in enumerate(missing)})
+    position = [(f, header.index(column)) for f, column in layout.columns.items()]
+    while raw := list(itertools.islice(raw_rows, CHUNK)):
+        rows = [Row(line, {f: (cells[i].strip() if i < len(cells) else "") for f, i in position})
+                for line, cells in raw]
+        checker.check(rows)
+        yield rows
 
 
 _QUANTITIES = {q.value.lower(): q for q in Quantity}
@@ -235,38 +290,54 @@ def _code(text: str) -> str:
     return text.strip().lower().replace(" ", "_").replace("-", "_")
 
 
-def _validate_rows(session: Session, rows: list[Row], layout: Layout) -> None:
-    """Fill in each row's entry and errors; lookups are loaded once for the whole file."""
-    logins = {r.cells.get("person") for r in rows} - {None, ""}
-    serials = {r.cells.get("dosimeter") for r in rows} - {None, ""}
-    people = {p.login: p for p in session.scalars(sa.select(Person).where(Person.login.in_(logins)))} \
-        if logins else {}
-    dosimeters = {d.serial: d for d in session.scalars(
-        sa.select(Dosimeter).where(Dosimeter.serial.in_(serials)).options(joinedload(Dosimeter.wearer)))} \
-        if serials else {}
-    today = lab_date(session, utcnow())
-    for row in rows:
-        _parse_row(row, layout, people, dosimeters, today)
-    existing = existing_current_keys(session, {r.entry.person_id for r in rows if r.entry} - {None})
-    periods = dosimeter_periods(session, {r.entry.dosimeter_id for r in rows if r.entry})
-    first_line: dict[tuple, int] = {}
-    for row in rows:
-        if row.entry is None or row.errors:
-            continue
-        key = row.entry.key
-        overlap = overlap_message(row.entry, periods) if row.entry.dosimeter_id else None
-        if key in existing:
-            row.errors[DUPLICATE] = duplicate_message(existing[key])
-        elif key in first_line:
-            row.errors[DUPLICATE] = (f"Repeats line {first_line[key]} of this file (same person, "
-                                     "quantity, location and wear period).")
-        elif overlap:
-            row.errors["wear_start"] = overlap
-        else:
-            first_line[key] = row.line
-            if row.entry.dosimeter_id:  # later lines may not overlap this one either (id 0: a line)
-                periods.setdefault((row.entry.dosimeter_id, row.entry.quantity), []).append(
-                    (row.entry.wear_start, row.entry.wear_end, 0))
+class _Checker:
+    """Checks a report chunk by chunk: set-based look-ups per chunk, repeats across the whole file."""
+
+    def __init__(self, session: Session, layout: Layout) -> None:
+        self.session, self.layout = session, layout
+        self.people: dict[str, Person] = {}
+        self.dosimeters: dict[str, Dosimeter] = {}
+        self.first_line: dict[tuple, int] = {}
+        self.today = lab_date(session, utcnow())
+        # Each dosimeter's wear periods so far, the file's earlier lines included (record id 0).
+        self.periods: dict[tuple, list[tuple[date, date, int]]] = {}
+
+    def check(self, rows: list[Row]) -> None:
+        """Fill in each row's entry and errors."""
+        self._load(rows)
+        for row in rows:
+            _parse_row(row, self.layout, self.people, self.dosimeters, self.today)
+        good = [r for r in rows if r.entry is not None and not r.errors]
+        existing = current_keys_among(self.session, {r.entry.key for r in good})
+        for row in good:
+            key = row.entry.key
+            overlap = overlap_message(row.entry, self.periods) if row.entry.dosimeter_id else None
+            if key in existing:
+                row.errors[DUPLICATE] = duplicate_message(existing[key])
+            elif key in self.first_line:
+                row.errors[DUPLICATE] = (f"Repeats line {self.first_line[key]} of this file (same "
+                                         "person, quantity, location and wear period).")
+            elif overlap:
+                row.errors["wear_start"] = overlap
+            else:
+                self.first_line[key] = row.line
+                if row.entry.dosimeter_id:  # later lines may not overlap this one either
+                    self.periods.setdefault((row.entry.dosimeter_id, row.entry.quantity), []).append(
+                        (row.entry.wear_start, row.entry.wear_end, 0))
+
+    def _load(self, rows: list[Row]) -> None:
+        """Look up the chunk's people and dosimeters not seen before, one query each."""
+        logins = {r.cells.get("person") for r in rows} - {None, ""} - self.people.keys()
+        serials = {r.cells.get("dosimeter") for r in rows} - {None, ""} - self.dosimeters.keys()
+        if logins:
+            self.people.update((p.login, p) for p in self.session.scalars(
+                sa.select(Person).where(Person.login.in_(logins))))
+        if serials:
+            found = list(self.session.scalars(sa.select(Dosimeter).where(Dosimeter.serial.in_(serials))
+                                              .options(joinedload(Dosimeter.wearer))))
+            self.dosimeters.update((d.serial, d) for d in found)
+            for key, periods in dosimeter_periods(self.session, {d.id for d in found}).items():
+                self.periods.setdefault(key, []).extend(periods)
 
 
 def _parse_row(row: Row, layout: Layout, people: dict, dosimeters: dict, today: date) -> None:
@@ -330,28 +401,121 @@ def _parse_row(row: Row, layout: Layout, people: dict, dosimeters: dict, today: 
     row.errors.update({f: m for f, m in semantic.items() if f not in errors})
 
 
+class Refused(Invalid):
+    """A report refused because a row or the file has an error; `preview` tells which."""
+
+    def __init__(self, preview: Preview) -> None:
+        what = (f"{preview.bad_count} of {preview.row_count} rows have errors" if preview.row_count
+                else "The file cannot be read as a report")
+        super().__init__({"file": f"{what}; nothing was imported."})
+        self.preview = preview
+
+
+def import_report(session: Session, data: bytes, layout: Layout, filename: str, *,
+                  imported_by_id: int | None = None) -> Preview:
+    """Check and add a whole report in one pass, chunk by chunk; `preview.batch` is what was added.
+
+    Nothing is added when the same file was imported before (`preview.earlier`). When any row has
+    an error, raises Refused after checking every row; the caller rolls back what was written.
+    Each chunk is checked and written under the database's write lock, so a record added by
+    someone else cannot slip in between a row's check and its write.
+    """
+    hold_write_lock(session)
+    preview = Preview(filename, hashlib.sha256(data).hexdigest(), layout, data)
+    preview.earlier = session.scalar(
+        sa.select(ImportBatch).where(ImportBatch.sha256 == preview.sha256).order_by(ImportBatch.id))
+    if preview.earlier is not None:
+        return preview
+    try:
+        batch = _new_batch(session, preview, _count_rows(data), imported_by_id)
+        writer = _Writer(session, batch)
+        with _no_cycle_collection():
+            for chunk in _chunks(data, layout, _Checker(session, layout)):
+                preview.keep(chunk)
+                if not preview.bad_count:
+                    writer.write(chunk)
+    except Invalid as error:
+        preview.file_errors = list(error.errors.values())
+        raise Refused(preview) from error
+    if preview.bad_count or not preview.row_count:
+        raise Refused(preview)
+    writer.finish(preview.sha256)
+    preview.batch = batch
+    return preview
+
+
+@contextmanager
+def _no_cycle_collection() -> Iterator[None]:
+    """Pause Python's cycle collector: a chunk makes ~100,000 short-lived acyclic objects, and the
+    collector's repeated passes over them cost a quarter of the import; memory stays bounded."""
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
+def _count_rows(data: bytes) -> int:
+    """The report's non-blank rows, counted before any is written (the batch records how many)."""
+    return sum(1 for _ in _reader(data)[1])
+
+
+def _new_batch(session: Session, preview: Preview, rows: int, imported_by_id: int | None) -> ImportBatch:
+    """The batch the rows are added under; refused when the same file went in a moment ago."""
+    batch = ImportBatch(filename=preview.filename, sha256=preview.sha256, mapping_name=preview.layout.name,
+                        row_count=rows, imported_by_id=imported_by_id)
+    session.add(batch)
+    try:
+        session.flush()
+    except IntegrityError as error:
+        raise Invalid.one("file", "This file has just been imported by someone else; nothing "
+                                  "was added.") from error
+    return batch
+
+
+class _Writer:
+    """Writes checked chunks with one executemany each and records the batch as one audit event."""
+
+    def __init__(self, session: Session, batch: ImportBatch) -> None:
+        self.session, self.batch = session, batch
+        self.table = DoseRecord.__table__
+        self.digest = RowsDigest(bulk_columns(self.table))
+        self.extra = {"import_batch_id": batch.id, "created_by_id": batch.imported_by_id,
+                      "created_at": utcnow(), "supersedes_id": None, "version": 1, "reason": None,
+                      "incident_id": None}
+
+    def write(self, rows: list[Row]) -> None:
+        """Add one chunk of checked rows."""
+        values = [record_values(r.entry, **self.extra) for r in rows]
+        for row in values:
+            self.digest.add(row)
+        self.session.connection().execute(sa.insert(self.table), values)
+
+    def finish(self, file_sha256: str) -> None:
+        """Append the batch's audit event: the file's hash, the row count and the rows' digest."""
+        if self.digest.count != self.batch.row_count:
+            raise Invalid.one("file", "The file changed while it was read; nothing was imported.")
+        event = bulk_event(self.table, "import_batch_id", self.batch.id, self.digest, file_sha256=file_sha256)
+        append_events(self.session.connection(), [event], self.session.info.get("actor_id"),
+                      self.session.info.get("audit_reason"))
+
+
 def commit_report(session: Session, preview: Preview, *, imported_by_id: int | None = None) -> ImportBatch | None:
     """Add every row of a checked report as one batch; None when this file was imported before.
 
     Refuses the whole file when any row has an error, so a report goes in completely or not at all.
+    The rows are checked again as they are written (a record added since the preview makes its row
+    a repeat); on a refusal the caller rolls back.
     """
     if preview.earlier is not None:
         return None
-    if preview.file_errors or not preview.rows:
+    if preview.file_errors or not preview.row_count:
         raise Invalid.one("file", "The file cannot be read as a report; nothing was imported.")
-    if preview.bad_rows:
-        raise Invalid.one("file", f"{len(preview.bad_rows)} of {len(preview.rows)} rows have errors; "
-                                  "nothing was imported.")
-    batch = ImportBatch(filename=preview.filename, sha256=preview.sha256,
-                        mapping_name=preview.layout.name, row_count=len(preview.rows),
-                        imported_by_id=imported_by_id)
-    session.add(batch)
-    try:
-        session.flush()
-    except IntegrityError as error:  # the same file committed by someone else a moment ago
-        raise Invalid.one("file", "This file has just been imported by someone else; nothing "
-                                  "was added.") from error
-    session.add_all(record_from(row.entry, import_batch_id=batch.id, created_by_id=imported_by_id)
-                    for row in preview.rows)
-    session.flush()
-    return batch
+    if preview.bad_count:
+        raise Refused(preview)
+    done = import_report(session, preview.data, preview.layout, preview.filename, imported_by_id=imported_by_id)
+    if done.earlier is not None:
+        raise Invalid.one("file", "This file has just been imported by someone else; nothing was added.")
+    return done.batch

@@ -162,6 +162,22 @@ def existing_current_keys(session: Session, person_ids) -> dict[tuple, int]:
     return {tuple(row[:5]): row[5] for row in rows}
 
 
+def current_keys_among(session: Session, keys: set[tuple]) -> dict[tuple, int]:
+    """Key -> id of the current record, for those of these keys that have one.
+
+    One query for a whole chunk of keys: narrowed by person and both ends of the wear period.
+    """
+    if not keys:
+        return {}
+    people, starts, ends = ({k[i] for k in keys} for i in (0, 3, 4))
+    rows = session.execute(
+        sa.select(DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location,
+                  DoseRecord.wear_start, DoseRecord.wear_end, DoseRecord.id)
+        .where(is_current(), DoseRecord.person_id.in_(people), DoseRecord.wear_start.in_(starts),
+               DoseRecord.wear_end.in_(ends)))
+    return {key: row[5] for row in rows if (key := tuple(row[:5])) in keys}
+
+
 def duplicate_message(record_id: int) -> str:
     """Why a record repeating a current one is refused."""
     return (f"A current record (#{record_id}) already exists for this person, quantity, location "
@@ -214,16 +230,21 @@ def validate_entry(session: Session, entry: DoseEntry, *, replacing: DoseRecord 
         raise Invalid(errors)
 
 
-def record_from(entry: DoseEntry, **extra) -> DoseRecord:
-    """A new DoseRecord row for a checked entry, the value and MRD converted to mSv."""
+def record_values(entry: DoseEntry, **extra) -> dict:
+    """The column values of a new record for a checked entry, the value and MRD converted to mSv."""
     estimate = entry.source in ESTIMATES
-    return DoseRecord(
+    return dict(
         person_id=entry.person_id, dosimeter_id=entry.dosimeter_id, wear_start=entry.wear_start,
         wear_end=entry.wear_end, quantity=entry.quantity, location=entry.location,
         value_msv=to_msv(entry.value, entry.unit), result=entry.result,
         mrd_msv=to_msv(entry.mrd, entry.unit), source=entry.source,
         basis=(entry.basis or "").strip() or None if estimate else None,
         entered_unit=entry.unit, **extra)
+
+
+def record_from(entry: DoseEntry, **extra) -> DoseRecord:
+    """A new DoseRecord row for a checked entry, the value and MRD converted to mSv."""
+    return DoseRecord(**record_values(entry, **extra))
 
 
 def add_dose_record(session: Session, entry: DoseEntry, *, created_by_id: int | None = None,

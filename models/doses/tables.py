@@ -145,4 +145,6 @@ class DoseRecord(IdMixin, Base):
             "source = 'dosimetry_report' OR (basis IS NOT NULL AND length(trim(basis)) > 0)",
             name="estimate_has_basis",
         ),
+        # An import looks up a chunk's keys (people x wear starts) by seeks, not by each person's history.
+        sa.Index("ix_dose_record_person_id_wear_start", "person_id", "wear_start"),
     )

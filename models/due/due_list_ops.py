@@ -16,8 +16,8 @@ from sqlalchemy.orm import Session
 from models.checks.tables import SafetyCheck
 from models.core import due_dates
 from models.core.settings import lab_date, lab_settings
-from models.doses.dosimeter_ops import wear_period
-from models.doses.tables import Dosimeter
+from models.doses.dosimeter_ops import calendar_period, wear_period
+from models.doses.tables import Dosimeter, ExchangeCycle
 from models.instruments.tables import Authorisation, Instrument
 from models.people.tables import Person, Role
 from models.surveys.tables import BypassPermit, PermitStatus, Survey, SurveyMeter, SurveyTask
@@ -211,69 +211,101 @@ def instrument_items(session: Session, instruments: list[Instrument], h: Horizon
     return items
 
 
-def _authorisations(session: Session, person: Person | None):
-    """Authorisations not revoked, of active people on instruments in use."""
-    query = (sa.select(Authorisation).join(Authorisation.person).join(Authorisation.instrument)
+def _soon_end(h: Horizon) -> date:
+    """The last due date that is still pending (due soon) as seen on the horizon's today."""
+    return h.today + timedelta(days=h.soon_days)
+
+
+def _authorisations(person_id: int | None):
+    """Authorisations not revoked, of active people on instruments in use (a query, no rows)."""
+    query = (sa.select(Authorisation.id, Authorisation.person_id, Person.name, Authorisation.instrument_id,
+                       Instrument.name.label("instrument_name"), Authorisation.refresher_due)
+             .join(Person, Person.id == Authorisation.person_id)
+             .join(Instrument, Instrument.id == Authorisation.instrument_id)
              .where(Authorisation.revoked_at.is_(None), Person.active.is_(True),
                     Instrument.retired_at.is_(None)))
-    if person is not None:
-        query = query.where(Authorisation.person_id == person.id)
-    return session.scalars(query).all()
+    return query if person_id is None else query.where(Authorisation.person_id == person_id)
 
 
-def refresher_items(session: Session, person: Person | None, h: Horizon) -> list[DueItem]:
-    """Refresher training of one person, or of everyone."""
-    return [refresher_item(a.id, a.person_id, a.person.name, a.instrument_id, a.instrument.name,
-                           a.refresher_due, h.today, h.soon_days)
-            for a in _authorisations(session, person)]
+def refresher_items(session: Session, person: Person | None, h: Horizon,
+                    pending_only: bool = False) -> list[DueItem]:
+    """Refresher training of one person, or of everyone; pending_only keeps, in SQL, what is due soon or late."""
+    query = _authorisations(person.id if person else None)
+    if pending_only:
+        query = query.where(Authorisation.refresher_due <= _soon_end(h))
+    return [refresher_item(a.id, a.person_id, a.name, a.instrument_id, a.instrument_name, a.refresher_due,
+                           h.today, h.soon_days)
+            for a in session.execute(query)]
 
 
 def permit_items(session: Session, person: Person | None, h: Horizon) -> list[DueItem]:
     """Approved, unclosed bypass permits (the requester's, or all)."""
-    query = sa.select(BypassPermit).where(BypassPermit.status == PermitStatus.APPROVED,
-                                          BypassPermit.closed_at.is_(None))
+    query = (sa.select(BypassPermit.id, BypassPermit.requested_by_id, BypassPermit.instrument_id,
+                       Instrument.name, BypassPermit.window_start, BypassPermit.window_end)
+             .join(Instrument, Instrument.id == BypassPermit.instrument_id)
+             .where(BypassPermit.status == PermitStatus.APPROVED, BypassPermit.closed_at.is_(None)))
     if person is not None:
         query = query.where(BypassPermit.requested_by_id == person.id)
-    return [permit_item(p.id, p.requested_by_id, p.instrument_id, p.instrument.name,
-                        p.window_start, p.window_end, lab_date(session, p.window_end), h.now,
-                        h.today, h.soon_days)
-            for p in session.scalars(query)]
+    return [permit_item(p.id, p.requested_by_id, p.instrument_id, p.name, p.window_start, p.window_end,
+                        lab_date(session, p.window_end), h.now, h.today, h.soon_days)
+            for p in session.execute(query)]
 
 
-def dosimeter_items(session: Session, person: Person | None, h: Horizon) -> list[DueItem]:
-    """Exchanges of dosimeters still out (the wearer's, or all)."""
-    query = sa.select(Dosimeter).join(Dosimeter.wearer).where(Dosimeter.returned_on.is_(None),
-                                                              Person.active.is_(True))
+def dosimeter_items(session: Session, person: Person | None, h: Horizon,
+                    pending_only: bool = False) -> list[DueItem]:
+    """Exchanges of dosimeters still out (the wearer's, or all).
+
+    pending_only keeps, in SQL, the dosimeters whose exchange is due soon: a dosimeter issued by
+    today is exchanged at the end of its cycle's current calendar period, the same for every
+    dosimeter on that cycle, so whole cycles are in or out; one issued later is judged by itself.
+    """
+    query = (sa.select(Dosimeter.id, Dosimeter.wearer_id, Dosimeter.serial, Dosimeter.issued_on,
+                       Dosimeter.returned_on, Dosimeter.exchange_cycle)
+             .join(Person, Person.id == Dosimeter.wearer_id)
+             .where(Dosimeter.returned_on.is_(None), Person.active.is_(True)))
     if person is not None:
         query = query.where(Dosimeter.wearer_id == person.id)
+    if pending_only:
+        cycles = [c for c in ExchangeCycle if calendar_period(h.today, c)[1] <= _soon_end(h)]
+        query = query.where(sa.or_(Dosimeter.exchange_cycle.in_(cycles), Dosimeter.issued_on > h.today))
     return [dosimeter_item(d.id, d.wearer_id, d.serial, wear_period(d, max(h.today, d.issued_on))[1],
                            h.today, h.soon_days)
-            for d in session.scalars(query)]
+            for d in session.execute(query)]
 
 
 def meter_items(session: Session, h: Horizon) -> list[DueItem]:
     """Calibrations of survey meters in use."""
+    query = (sa.select(SurveyMeter.id, SurveyMeter.serial, SurveyMeter.calibrated_on,
+                       SurveyMeter.calibration_interval_months).where(SurveyMeter.retired_at.is_(None)))
     return [calibration_item(m.id, m.serial, m.calibrated_on, m.calibration_interval_months,
                              h.today, h.soon_days)
-            for m in session.scalars(sa.select(SurveyMeter).where(SurveyMeter.retired_at.is_(None)))]
+            for m in session.execute(query)]
 
 
-def lab_items(session: Session, now: datetime) -> list[DueItem]:
-    """Every dated task in the lab, latest first."""
+def _kept(items: list[DueItem], pending_only: bool) -> list[DueItem]:
+    """All items, or only the pending ones, latest first."""
+    return by_lateness(pending(items) if pending_only else items)
+
+
+def lab_items(session: Session, now: datetime, *, pending_only: bool = False) -> list[DueItem]:
+    """Every dated task in the lab, latest first (only those due soon or late with pending_only)."""
     h = horizon(session, now)
     instruments = list(session.scalars(sa.select(Instrument)))
-    return by_lateness(instrument_items(session, instruments, h) + meter_items(session, h)
-                       + refresher_items(session, None, h) + permit_items(session, None, h)
-                       + dosimeter_items(session, None, h))
+    return _kept(instrument_items(session, instruments, h) + meter_items(session, h)
+                 + refresher_items(session, None, h, pending_only) + permit_items(session, None, h)
+                 + dosimeter_items(session, None, h, pending_only), pending_only)
 
 
-def person_items(session: Session, person: Person, now: datetime) -> list[DueItem]:
+def person_items(session: Session, person: Person, now: datetime, *,
+                 pending_only: bool = False) -> list[DueItem]:
     """A person's own tasks: their instruments' checks and surveys, training, permits, dosimeters."""
     h = horizon(session, now)
-    instruments = list({a.instrument.id: a.instrument for a in _authorisations(session, person)}.values())
-    return by_lateness(instrument_items(session, instruments, h)
-                       + refresher_items(session, person, h) + permit_items(session, person, h)
-                       + dosimeter_items(session, person, h))
+    instruments = list(session.scalars(
+        sa.select(Instrument).where(Instrument.id.in_(
+            _authorisations(person.id).with_only_columns(Authorisation.instrument_id)))))
+    return _kept(instrument_items(session, instruments, h)
+                 + refresher_items(session, person, h, pending_only) + permit_items(session, person, h)
+                 + dosimeter_items(session, person, h, pending_only), pending_only)
 
 
 def calendar_items(session: Session, person: Person, now: datetime) -> list[DueItem]:

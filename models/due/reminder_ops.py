@@ -67,13 +67,14 @@ def plan_reminders(session: Session, now: datetime) -> list[Reminder]:
         sa.select(Person).where(Person.active.is_(True), Person.email.is_not(None))
         .order_by(Person.id))
     for person in people:
-        reminder = _reminder(session, person, person_items(session, person, now), "", [person.id])
+        reminder = _reminder(session, person, person_items(session, person, now, pending_only=True), "",
+                             [person.id])
         if reminder:
             reminders.append(reminder)
     officers = safety_officers(session)
     if officers:
         # One digest for the lab, noted against every safety officer so none gets it twice.
-        digest = _reminder(session, officers[0], lab_items(session, now), DIGEST,
+        digest = _reminder(session, officers[0], lab_items(session, now, pending_only=True), DIGEST,
                            [o.id for o in officers])
         if digest:
             reminders.append(digest)

@@ -70,6 +70,12 @@ def open_sessions_of(session: Session, person: Person) -> list[InstrumentSession
     ))
 
 
+def busy_instrument_ids(session: Session) -> set[int]:
+    """Instruments with a session not ended yet (read from the partial index of open sessions)."""
+    return set(session.scalars(sa.select(InstrumentSession.instrument_id)
+                               .where(InstrumentSession.ended_at.is_(None)).distinct()))
+
+
 def _overlapping(
     session: Session, instrument: Instrument, start: datetime, end: datetime | None,
     exclude_id: int | None,

@@ -66,6 +66,9 @@ class InstrumentSession(IdMixin, Base):
         # The lists page newest first by (start, id): a page costs the same at any table size.
         sa.Index("ix_instrument_session_started_at_id", "started_at", "id"),
         sa.Index("ix_instrument_session_instrument_id_started_at", "instrument_id", "started_at"),
+        # Only the sessions not ended yet, a handful among millions: open sessions and busy instruments.
+        *(sa.Index(f"ix_instrument_session_open_{column}", column, sqlite_where=sa.text("ended_at IS NULL"),
+                   postgresql_where=sa.text("ended_at IS NULL")) for column in ("instrument_id", "operator_id")),
     )
 
     @property

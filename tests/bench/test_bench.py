@@ -6,12 +6,13 @@ import pytest
 import sqlalchemy as sa
 
 from bench import synthetic, timing
-from bench.__main__ import run
+from bench.__main__ import main
 from models.core.codes import PeriodKind, Series, code
 from models.core.settings import lab_settings
 from models.doses.tables import DoseRecord
 from models.exposure.engine import compute_doses
 from models.exposure.lab_ops import policies_of, read_records
+from tests.conftest import free_port
 from webapp.extensions import db
 
 ON = date(2026, 11, 30)
@@ -76,12 +77,26 @@ def test_each_timing_runs(tiny):
     assert cold > 0 and warm > 0
 
 
-def test_the_command_prints_the_figures_and_ratios(tmp_path):
-    # 2,500 sessions: more than the 11 pages of 100 that the list timing walks through.
-    lines = list(run(str(tmp_path / "bench.sqlite"), 5, 1, 1, 2_500))
-    text = "\n".join(lines)
-    assert "Dose records in force: 192 = 12 x (2 x 5 whole body + 2 x 2 rings + 2 lens)" in text
-    for label in ("(a) engine", "(b) read", "(c) plain Python loop", "(d) safety officer's home",
-                  "engine / read =", "loop / engine =", "home page warm =", "(e) sessions list, newest page of 2,500",
-                  "(e) sessions list, 11th page", "sessions list = "):
-        assert label in text
+def test_the_quick_command_prints_every_line(tmp_path, capsys):
+    """`python -m bench --quick` end to end on SQLite: every line of the table is there."""
+    main(["--quick", "--databases", "sqlite", "--port", str(free_port()),
+          "--path", str(tmp_path / "bench.sqlite")])
+    text = capsys.readouterr().out
+    for label in ("engine: compute_doses", "read floor", "pandas, the same fixed windows",
+                  "bare JSON endpoint", "home page, warm p50", "home page, first after a dose change",
+                  "exposure page, warm p95", "sessions list, newest page of 3,000",
+                  "import of 2,000 rows", "peak resident memory", "raw executemany",
+                  "8 API loggers, sqlite: latency p99", "double bookings"):
+        assert label in text, label
+
+
+def test_the_pandas_job_gives_the_plain_loop_sums(tiny):
+    from bench import pandas_windows
+
+    settings = lab_settings(db.session)
+    rows = db.session.execute(timing.lab_ops._record_columns()).all()
+    by_loop = timing.plain_loop(rows, ON, settings.five_year_first_year)
+    by_pandas = pandas_windows.windows_sums(pandas_windows.frame(rows), ON, settings.five_year_first_year)
+    assert by_pandas.keys() == {(int(k[0]), str(k[1]), str(k[2]), k[3]) for k in by_loop}
+    for (person, quantity, location, kind), value in by_loop.items():
+        assert by_pandas[(int(person), str(quantity), str(location), kind)] == pytest.approx(value)

@@ -1,13 +1,20 @@
 """Import of a dosimetry report: every row checked, all rows or none, the same file only once."""
+import hashlib
 import time
 from datetime import date, timedelta
 
 import pytest
 import sqlalchemy as sa
 
+from models.audit.audit_ops import BULK_CREATE
+from models.audit.tables import AuditEvent
+from models.audit.verify_ops import row_problems, verify_chain
+from models.core.codes import Location, Quantity, Result
 from models.core.errors import Invalid
-from models.doses.import_ops import PRODUCT_LAYOUT, commit_report, layout_of, save_mapping, validate_report
-from models.doses.tables import DoseRecord, DosimeterKind, Hand
+from models.doses.import_ops import PRODUCT_LAYOUT, Refused, commit_report, layout_of, save_mapping, validate_report
+from models.doses.tables import DoseRecord, DoseSource, DosimeterKind, Hand, ImportBatch
+from models.people.tables import Person
+from tests.models.test_audit import insider
 
 HEADER = "person,dosimeter,wear_start,wear_end,quantity,location,value,unit,result,mrd\n"
 
@@ -62,7 +69,7 @@ def test_one_bad_row_among_a_thousand_blocks_the_file(session, make_person):
     assert commit_report(session, again) is None
     # The same rows in a file that differs by a byte are caught row by row.
     renamed = validate_report(session, data + b"\n", PRODUCT_LAYOUT, "copy.csv")
-    assert renamed.earlier is None and len(renamed.bad_rows) == 1000
+    assert renamed.earlier is None and renamed.bad_count == 1000 and len(renamed.bad_rows) == 50
     assert "already exists" in renamed.bad_rows[0].errors["duplicate"]
     assert count(session) == 1000
 
@@ -184,3 +191,99 @@ def test_import_refuses_overlapping_periods_of_one_dosimeter_and_impossible_date
     assert [(r.line, sorted(r.errors)) for r in preview.bad_rows] == [
         (4, ["wear_start"]), (5, ["wear_end", "wear_start"]), (6, ["wear_end"])]
     assert "overlaps this wear period" in preview.bad_rows[0].errors["wear_start"]
+def ten_thousand_rows(logins: list[str]) -> list[str]:
+    """10,000 monthly Hp(10) results: 50 people x 200 months from January 2000."""
+    rows = []
+    for i in range(10_000):
+        month = i // len(logins)
+        start = date(2000 + month // 12, month % 12 + 1, 1)
+        end = (start + timedelta(days=32)).replace(day=1) - timedelta(days=1)
+        rows.append(f"{logins[i % len(logins)]},,{start},{end},Hp(10),whole_body,0.05,mSv,measured,")
+    return rows
+
+
+def test_a_bad_row_in_the_middle_of_ten_thousand_adds_nothing(session, make_person):
+    """The bad row sits in the second chunk of 5,000: the first chunk must not stay written."""
+    rows = ten_thousand_rows([make_person(f"p{i}").login for i in range(50)])
+    good = validate_report(session, report(rows), PRODUCT_LAYOUT, "good.csv")
+    assert (good.row_count, good.bad_count, len(good.rows)) == (10_000, 0, 50)  # the page keeps 50
+
+    # A record added after the preview makes row 7,000 a repeat: the commit itself must refuse.
+    person_of_7000, start, end = rows[7000].split(",")[0], *rows[7000].split(",")[2:4]
+    session.add(DoseRecord(person_id=session.scalar(sa.select(Person.id).where(Person.login == person_of_7000)),
+                           wear_start=date.fromisoformat(start), wear_end=date.fromisoformat(end),
+                           quantity=Quantity.HP10, location=Location.WHOLE_BODY, value_msv=0.1,
+                           result=Result.MEASURED, source=DoseSource.DOSIMETRY_REPORT))
+    session.commit()
+    with pytest.raises(Refused, match="1 of 10000 rows have errors; nothing was imported") as refused:
+        commit_report(session, good)
+    assert [r.line for r in refused.value.preview.bad_rows] == [7002]  # header is line 1
+    session.rollback()
+    assert count(session) == 1
+    assert session.scalar(sa.select(sa.func.count()).select_from(ImportBatch)) == 0
+
+    bad = list(rows)
+    bad[7000] = bad[7000].replace(",0.05,", ",-1,")
+    preview = validate_report(session, report(bad), PRODUCT_LAYOUT, "bad.csv")
+    assert (preview.row_count, preview.bad_count) == (10_000, 1)
+    # A row already wrong is not also called a repeat.
+    assert [(r.line, list(r.errors)) for r in preview.bad_rows] == [(7002, ["value"])]
+    with pytest.raises(Invalid, match="1 of 10000 rows have errors"):
+        commit_report(session, preview)
+    assert count(session) == 1
+
+
+def test_a_batch_is_one_audit_event_that_verify_recomputes(session, make_person):
+    rows = ten_thousand_rows([make_person(f"p{i}").login for i in range(50)])[:6000]
+    data = report(rows)
+    events_before = session.scalar(sa.select(sa.func.count()).select_from(AuditEvent))
+    batch = commit_report(session, validate_report(session, data, PRODUCT_LAYOUT, "r.csv"))
+    session.commit()
+    assert count(session) == 6000
+    new = session.scalars(sa.select(AuditEvent).where(AuditEvent.id > events_before)
+                          .order_by(AuditEvent.id)).all()
+    # The batch's own row, then one event standing for the 6,000 records.
+    assert [(e.entity, e.action) for e in new] == [("import_batch", "create"), ("dose_record", BULK_CREATE)]
+    facts = new[1].after
+    assert (facts["group_id"], facts["rows"]) == (batch.id, 6000)
+    assert facts["file_sha256"] == hashlib.sha256(data).hexdigest()
+    assert verify_chain(session) is None and row_problems(session) == []
+
+    record_id = session.scalar(sa.select(DoseRecord.id).order_by(DoseRecord.id.desc()))
+    insider(session, "UPDATE dose_record SET value_msv = 0.01 WHERE id = :id", id=record_id)
+    assert row_problems(session) == [
+        f"dose_record rows with import_batch_id = {batch.id}: 6000 rows stored, 6000 recorded; "
+        "they differ from the bulk audit event"]
+
+
+def test_removing_an_imported_row_is_reported(session, make_person):
+    make_person("ann")
+    rows = ["ann,,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,",
+            "ann,,2026-02-01,2026-02-28,Hp(10),whole_body,0.2,mSv,measured,"]
+    batch = commit_report(session, validate_report(session, report(rows), PRODUCT_LAYOUT, "r.csv"))
+    session.commit()
+    first = session.scalar(sa.select(sa.func.min(DoseRecord.id)))
+    insider(session, "DELETE FROM dose_record WHERE id = :id", id=first)
+    assert row_problems(session) == [
+        f"dose_record rows with import_batch_id = {batch.id}: 1 rows stored, 2 recorded; "
+        "they differ from the bulk audit event"]
+
+
+def test_the_review_after_an_import_sees_the_imported_rows(session, make_person, use_limit_set):
+    """Rows written by executemany still reach the evaluation: the batch event moves its version."""
+    from models.exposure.investigation_ops import review_after_dose_change
+
+    use_limit_set("icrp103")
+    ada = make_person("ada")
+    on = date(2026, 11, 30)
+    assert review_after_dose_change(session, on) == []  # evaluated (and kept) before the import
+    rows = ["ada,,2026-10-01,2026-10-31,Hp(10),whole_body,0.9,mSv,measured,",
+            "ada,,2026-11-01,2026-11-30,Hp(10),whole_body,0.6,mSv,measured,"]
+    commit_report(session, validate_report(session, report(rows), PRODUCT_LAYOUT, "q4.csv"))
+    raised = review_after_dose_change(session, on)
+    session.commit()
+    # common practice: 1.25 mSv Hp(10) in a quarter is level I (REFERENCE.md); 0.9 + 0.6 = 1.5 mSv.
+    # With no Hp(0.07) reported the lens reads Hp(10) too, against the same quarterly level I.
+    assert sorted((i.series, i.person_id, i.period, i.period_start, i.level) for i in raised) == [
+        ("effective", ada.id, "quarter", date(2026, 10, 1), "level_1"),
+        ("lens", ada.id, "quarter", date(2026, 10, 1), "level_1")]

@@ -329,3 +329,13 @@ def test_a_declaration_takes_the_optional_dates_and_names_a_bad_one(session, mak
                                   "expected_end_on": "2026-08-24"}).status_code == 302
     declaration = session.scalar(sa.select(PregnancyDeclaration))
     assert (declaration.conception_on, declaration.expected_end_on) == (date(2025, 12, 1), date(2026, 8, 24))
+def test_the_audit_page_shows_an_import_as_one_batch_event(session, make_person, login):
+    make_person("ann")
+    client = login(make_person("rso", roles=OFFICER))
+    rows = ["ann,,2026-01-01,2026-01-31,Hp(10),whole_body,0.1,mSv,measured,",
+            "ann,,2026-02-01,2026-02-28,Hp(10),whole_body,0.2,mSv,measured,"]
+    done = commit_from(client, upload(client, report(rows)).get_data(as_text=True))
+    assert "Imported 2 dose records" in done.get_data(as_text=True)
+    page = client.get("/audit/").get_data(as_text=True)
+    assert page.count("bulk_create") == 1 and "dose record (a batch of rows)" in page
+    assert f"file_sha256: {sha(report(rows))}" in page and "rows: 2" in page

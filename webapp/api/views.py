@@ -237,15 +237,22 @@ def _api_names(errors: dict, dosimeter_key: str) -> dict:
     return {names.get(key, key): message for key, message in errors.items()}
 
 
-def _validated(body: dict, validate) -> tuple[Person, dict]:
-    """Read the body and run the session rules on it; every problem is reported together."""
+def _written(body: dict, validate, write) -> InstrumentSession:
+    """Read the body and write the session, the session rules running once; every problem together.
+
+    With a field the body could not give, `validate` collects the rules' errors beside it (nothing
+    is written); otherwise `write` checks the rules itself under the write lock and writes.
+    """
     operator = _operator(body)
     values, errors = _values(body, operator)
-    errors = {**_api_names(errors_of(lambda: validate(operator, values)), _serials(body)[1]), **errors}
-    if errors:
-        raise Invalid(errors)
-    set_actor(db.session, operator.id)
-    return operator, values
+    try:
+        if errors:
+            raise Invalid({**errors_of(lambda: validate(operator, values)), **errors})
+        set_actor(db.session, operator.id if operator else None)
+        return write(operator, values)
+    except Invalid as error:
+        # The form calls these fields by id; the API names dosimeters by serial, people by login.
+        raise Invalid(_api_names(error.errors, _serials(body)[1])) from error
 
 
 def as_json(entry: InstrumentSession) -> dict:
@@ -309,8 +316,9 @@ def open_():
     """Open a session on the token's instrument."""
     instrument, body = g.instrument, _body()
     now = utcnow()
-    operator, values = _validated(body, lambda op, v: validate_starting(db.session, instrument, op, v, now))
-    entry = start_session(db.session, instrument, operator, values, source=EntrySource.API, now=now)
+    entry = _written(body, lambda op, v: validate_starting(db.session, instrument, op, v, now),
+                     lambda op, v: start_session(db.session, instrument, op, v, source=EntrySource.API,
+                                                 now=now))
     return _answer(as_json(entry), 201, _where(entry))
 
 
@@ -319,8 +327,8 @@ def open_():
 def finished():
     """Log a session that already ended."""
     instrument, body = g.instrument, _body()
-    operator, values = _validated(body, lambda op, v: validate_finished(db.session, instrument, op, v))
-    entry = log_finished_session(db.session, instrument, operator, values, source=EntrySource.API)
+    entry = _written(body, lambda op, v: validate_finished(db.session, instrument, op, v),
+                     lambda op, v: log_finished_session(db.session, instrument, op, v, source=EntrySource.API))
     return _answer(as_json(entry), 201, _where(entry))
 
 

@@ -7,7 +7,7 @@ import click
 import sqlalchemy as sa
 
 from models.core.errors import Invalid
-from models.doses.import_ops import PRODUCT_LAYOUT, commit_report, layout_of, validate_report
+from models.doses.import_ops import PRODUCT_LAYOUT, Preview, Refused, import_report, layout_of, validate_report
 from models.doses.tables import ImportMapping
 from models.exposure.investigation_ops import investigation_label, review_after_dose_change
 from webapp.doses import bp
@@ -22,7 +22,7 @@ from webapp.mail import deliver_queued
 @click.option("--mapping", default=None, help="Name of a saved column mapping; without it the "
                                                "logbook's own CSV layout is read.")
 @click.option("--dry-run", is_flag=True, help="Check every row and write nothing.")
-def import_report(file, mapping, dry_run):
+def import_command(file, mapping, dry_run):
     """Import a dosimetry report: every row, or none when any row has an error."""
     layout = PRODUCT_LAYOUT
     if mapping:
@@ -33,31 +33,39 @@ def import_report(file, mapping, dry_run):
                                        f"{', '.join(names) or 'none'}.")
         layout = layout_of(saved)
     with open(file, "rb") as report:
-        preview = validate_report(db.session, report.read(), layout, os.path.basename(file))
+        data = report.read()
+    name = os.path.basename(file)
+    try:
+        preview = (validate_report if dry_run else import_report)(db.session, data, layout, name)
+    except Refused as refused:
+        db.session.rollback()
+        _refuse(refused.preview)
+    except Invalid as error:
+        db.session.rollback()
+        raise click.ClickException(" ".join(error.errors.values())) from error
     if preview.earlier is not None:
         click.echo(f"Already imported as batch #{preview.earlier.id} on "
                    f"{preview.earlier.imported_at:%Y-%m-%d}; nothing added.")
         return
-    problems = preview.problems()
-    if problems:
-        for line in problems:
-            click.echo(line)
-        bad = f"{len(preview.bad_rows)} of {len(preview.rows)} rows have errors" if preview.rows \
-            else "The file cannot be read"
-        raise click.ClickException(f"{bad}; nothing imported.")
     if dry_run:
-        click.echo(f"All {len(preview.rows)} rows are valid; nothing written (dry run).")
+        if not preview.ready:
+            _refuse(preview)
+        click.echo(f"All {preview.row_count} rows are valid; nothing written (dry run).")
         return
-    try:
-        batch = commit_report(db.session, preview)
-    except Invalid as error:
-        db.session.rollback()
-        raise click.ClickException(" ".join(error.errors.values())) from error
     raised = review_after_dose_change(db.session, lab_today())
     tell_about(raised)  # queued with the change, sent after the commit
     db.session.commit()
     deliver_queued()
-    click.echo(f"Imported {batch.row_count} dose records as batch #{batch.id}.")
+    click.echo(f"Imported {preview.batch.row_count} dose records as batch #{preview.batch.id}.")
     for investigation in raised:
         click.echo(f"Investigation raised: {investigation_label(investigation)} "
                    f"({investigation.person.name}).")
+
+
+def _refuse(preview: Preview) -> None:
+    """Print the first problems and stop with the count of rows in error."""
+    for line in preview.problems():
+        click.echo(line)
+    bad = f"{preview.bad_count} of {preview.row_count} rows have errors" if preview.row_count \
+        else "The file cannot be read"
+    raise click.ClickException(f"{bad}; nothing imported.")

@@ -17,8 +17,8 @@ from models.doses.import_ops import (
     MAX_ROWS,
     PRODUCT_LAYOUT,
     Layout,
-    commit_report,
     date_format_words,
+    import_report,
     layout_of,
     read_csv,
     save_mapping,
@@ -140,16 +140,16 @@ def import_commit(sha: str):
     """Add every row, or none when any row has an error; the same file is added only once."""
     layout_key = request.form.get("layout", "")
     filename = request.form.get("filename", "report.csv")[:255]
-    preview = validate_report(db.session, _stored(sha), _layout(layout_key), filename)
     form = FlaskForm()
-    if not (added := validate_with(form, lambda f: commit_report(db.session, preview,
-                                                                 imported_by_id=current_user.id))):
+    if not (done := validate_with(form, lambda f: import_report(
+            db.session, _stored(sha), _layout(layout_key), filename, imported_by_id=current_user.id))):
         flash(error_text(form), "error")
         return redirect(url_for("doses.import_preview", sha=sha, layout=layout_key, filename=filename))
-    batch = added.value
-    if batch is None:
+    preview = done.value
+    if preview.earlier is not None:
         flash(f"This file was already imported (batch #{preview.earlier.id}); nothing was added.", "warning")
         return redirect(url_for("doses.import_batch", batch_id=preview.earlier.id))
+    batch = preview.batch
     raised = review_after_dose_change(db.session, lab_today())
     tell_about(raised)  # queued with the change, sent after the commit
     db.session.commit()

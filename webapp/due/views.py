@@ -16,7 +16,6 @@ from models.due.due_list_ops import (
     DueItem,
     calendar_items,
     lab_items,
-    pending,
     person_items,
 )
 from models.people.tables import Role
@@ -68,16 +67,17 @@ def index():
     """The safety officer sees the whole lab, latest first; others see their own tasks."""
     now = utcnow()
     lab = current_user.has_role(Role.SAFETY_OFFICER)
-    items = lab_items(db.session, now) if lab else person_items(db.session, current_user, now)
     show_all = request.args.get("all") == "1"
-    return render_template("due/index.html", items=items if show_all else pending(items),
+    items = (lab_items(db.session, now, pending_only=not show_all) if lab
+             else person_items(db.session, current_user, now, pending_only=not show_all))
+    return render_template("due/index.html", items=items,
                            lab=lab, show_all=show_all, soon_days=settings().due_soon_days)
 
 
 @home_panels.add("due/_panel.html", roles={Role.OPERATOR}, order=25)
 def _panel(person) -> dict:
     """The operator's own tasks that are due soon or late."""
-    return {"tasks": pending(person_items(db.session, person, utcnow())),
+    return {"tasks": person_items(db.session, person, utcnow(), pending_only=True),
             "soon_days": settings().due_soon_days, "url": target_url, "state_class": STATE_CLASS}
 
 
@@ -94,7 +94,7 @@ def _settings(lab) -> dict:
 def _attention() -> list[Attention]:
     """Late or never-done tasks across the lab, and training running out soon."""
     lines = []
-    for item in lab_items(db.session, utcnow()):
+    for item in lab_items(db.session, utcnow(), pending_only=True):
         if item.kind not in LATE_SEVERITY:
             continue
         late = item.state in (due_dates.OVERDUE, due_dates.NEVER_DONE)

@@ -22,6 +22,7 @@ from models.people.tables import Person, Role
 from webapp.access import can_see_dose_of, roles_required
 from webapp.exposure import bp, labels
 from webapp.exposure.chart import monthly_chart_svg
+from webapp.exposure.chart_cache import chart_version, charts
 from webapp.extensions import db
 from webapp.formatting import capfirst, lab_today, settings
 from webapp.slots import home_panels, navigation
@@ -139,9 +140,27 @@ def person(person_id: int):
 @login_required
 def chart(person_id: int):
     """One series' monthly dose over two years (whole body unless `?series=` names another),
-    the year's total and the annual limit."""
+    the year's total and the annual limit.
+
+    Drawn once per person, date, series and version of the inputs; a client holding that version gets 304.
+    """
     _subject(person_id)
     on, _ = _evaluation_date()
+    version = chart_version(db.session)
+    wanted = request.args.get("series", "")[:32]
+    etag = f"{person_id}-{on}-{wanted}-{version}"
+    if etag in request.if_none_match:
+        response = Response(status=304)
+    else:
+        response = Response(charts.get((person_id, on, wanted, version), lambda: _draw_chart(person_id, on)),
+                            mimetype="image/svg+xml")
+    response.set_etag(etag)
+    response.headers["Cache-Control"] = "private, no-store"
+    return response
+
+
+def _draw_chart(person_id: int, on: date) -> str:
+    """The chart's SVG, from the person's records and the lab's evaluation on `on`."""
     lab = cached_lab_evaluation(db.session, on)
     rows = person_rows(lab.evaluation, lab.row_of(person_id))
     series = _chosen_series(rows)
@@ -150,11 +169,8 @@ def chart(person_id: int):
     records = engine_records([c[0] for c in record_versions(db.session, person_id)])
     data = monthly_dose(records, on, policies_of(settings()), series)
     unit, per_msv = _display()
-    svg = monthly_chart_svg(data, annual and annual["limit_msv"], unit, per_msv,
-                            f"{capfirst(labels.SERIES[series])}, month by month to {on}")
-    response = Response(svg, mimetype="image/svg+xml")
-    response.headers["Cache-Control"] = "private, no-store"
-    return response
+    return monthly_chart_svg(data, annual and annual["limit_msv"], unit, per_msv,
+                             f"{capfirst(labels.SERIES[series])}, month by month to {on}")
 
 
 @home_panels.add("exposure/page_home_gauges.html", roles={Role.OPERATOR}, order=30)

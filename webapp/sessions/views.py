@@ -18,6 +18,7 @@ from models.people.tables import Person, Role
 from models.sessions.list_ops import SessionFilter, filtered_usage, session_page
 from models.sessions.session_ops import (
     active_bypass_permit,
+    busy_instrument_ids,
     close_session,
     figures,
     find_sessions,
@@ -85,7 +86,7 @@ def _holds_supervised(person: Person) -> bool:
 def _home(person: Person) -> dict:
     """My open sessions and the instruments I may start a session on."""
     open_rows = open_sessions_of(db.session, person)
-    busy = {s.instrument_id for s in find_sessions(db.session, start=utcnow()) if s.is_open}
+    busy = busy_instrument_ids(db.session)
     return {"open": [(s, figures(s)) for s in open_rows],
             "authorisations": current_authorisations(db.session, person, lab_today()),
             "busy": busy, "end_form": EndForm(),

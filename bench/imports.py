@@ -1,0 +1,105 @@
+"""Import of a dosimetry report at size: rows per second and peak memory, beside a raw executemany.
+
+The timing runs in a child process (`python -m bench.imports DB CSV`) so its peak resident memory
+is the import's own and not the bench's.
+"""
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+import time
+from dataclasses import dataclass
+from datetime import date
+
+from dateutil.relativedelta import relativedelta
+
+ROWS_PER_S_TARGET = 25_000
+PEAK_MB_TARGET = 300
+RAW_RATIO_TARGET = 2.0
+HEADER = "person,dosimeter,wear_start,wear_end,quantity,location,value,unit,result,mrd\n"
+# Wear periods well before the synthetic lab's years, so no row repeats a record on file.
+FIRST_MONTH = date(1980, 1, 1)
+
+
+@dataclass(frozen=True)
+class ImportFigures:
+    """One import measured: rows, seconds, peak memory, and the raw executemany of the same rows."""
+
+    rows: int
+    seconds: float
+    peak_mb: float
+    raw_seconds: float
+
+    @property
+    def rows_per_s(self) -> float:
+        """Rows checked and written per second."""
+        return self.rows / self.seconds
+
+
+def report_bytes(logins: list[str], n_rows: int) -> bytes:
+    """A report in the logbook's own layout: monthly Hp(10) results, the people in turn."""
+    lines = [HEADER]
+    for i in range(n_rows):
+        start = FIRST_MONTH + relativedelta(months=i // len(logins))
+        end = start + relativedelta(months=1, days=-1)
+        lines.append(f"{logins[i % len(logins)]},,{start},{end},Hp(10),whole_body,"
+                     f"{(i % 13) * 0.01:.2f},mSv,measured,\n")
+    return "".join(lines).encode()
+
+
+def measure(db_path: str, csv_path: str) -> ImportFigures:
+    """Run the import of `csv_path` into the SQLite file `db_path` in a child process."""
+    done = subprocess.run([sys.executable, "-m", "bench.imports", db_path, csv_path],
+                          capture_output=True, text=True,
+                          cwd=os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+    if done.returncode:
+        raise RuntimeError(f"the import bench failed:\n{done.stderr[-3000:]}")
+    return ImportFigures(**json.loads(done.stdout.strip().splitlines()[-1]))
+
+
+def _peak_mb() -> float:
+    """This process's peak resident memory since it started its program.
+
+    Not getrusage's ru_maxrss: Linux carries that over exec from the process that forked us.
+    """
+    with open("/proc/self/status") as status:
+        kb = next(int(line.split()[1]) for line in status if line.startswith("VmHWM:"))
+    return kb / 1024
+
+
+def _child(db_path: str, csv_path: str) -> ImportFigures:
+    """Check and add the report as `flask doses import` does, then time a raw executemany."""
+    import sqlalchemy as sa
+
+    from models.doses.import_ops import PRODUCT_LAYOUT, import_report
+    from models.doses.tables import DoseRecord
+    from webapp import create_app
+    from webapp.extensions import db
+
+    app = create_app({"SQLALCHEMY_DATABASE_URI": f"sqlite:///{os.path.abspath(db_path)}",
+                      "WTF_CSRF_ENABLED": False, "RATELIMIT_ENABLED": False, "MAIL_SERVER": ""})
+    with app.app_context(), open(csv_path, "rb") as report:
+        data = report.read()
+        started = time.perf_counter()
+        preview = import_report(db.session, data, PRODUCT_LAYOUT, os.path.basename(csv_path))
+        db.session.commit()
+        seconds = time.perf_counter() - started
+        peak_mb = _peak_mb()
+        # The same rows read back as plain dicts, inserted by one executemany and rolled back.
+        rows = db.session.execute(sa.select(DoseRecord.__table__).where(
+            DoseRecord.import_batch_id.is_not(None)).order_by(DoseRecord.id.desc()).limit(preview.row_count))
+        values = [{k: v for k, v in row._mapping.items() if k not in ("id", "import_batch_id")} for row in rows]
+        db.session.rollback()
+        with db.engine.connect() as connection:
+            started = time.perf_counter()
+            connection.execute(sa.insert(DoseRecord.__table__), values)
+            raw_seconds = time.perf_counter() - started
+            connection.rollback()
+    return ImportFigures(preview.row_count, seconds, peak_mb, raw_seconds)
+
+
+if __name__ == "__main__":
+    figures = _child(sys.argv[1], sys.argv[2])
+    print(json.dumps(figures.__dict__))
