@@ -17,14 +17,13 @@ from sqlalchemy.orm import Session
 
 from models.audit.tables import AuditEvent
 from models.core.base import utcnow
+from models.core.database import WRITE_LOCK_KEY
 
 GENESIS_HASH = "0" * 64
 # An event standing for many rows added in one statement (see bulk_event).
 BULK_CREATE = "bulk_create"
 # Secrets (columns ending in _hash) enter the trail only as a keyed digest, never as themselves.
 REDACTED_SUFFIX = "_hash"
-# Any fixed number: serialises writers of the chain on PostgreSQL.
-_CHAIN_LOCK_KEY = 7_214_003
 # The sealing key lives outside the database (AUDIT_KEY); the app hands it over when it starts.
 _SEAL: dict[str, bytes] = {}
 
@@ -187,7 +186,7 @@ def _pending_events(session: Session) -> Iterator[dict[str, Any]]:
 def _last_hash(conn: sa.Connection) -> str:
     """The hash at the head of the chain, taking the chain lock where the database has one."""
     if conn.dialect.name == "postgresql":
-        conn.execute(sa.text("SELECT pg_advisory_xact_lock(:k)"), {"k": _CHAIN_LOCK_KEY})
+        conn.execute(sa.text("SELECT pg_advisory_xact_lock(:k)"), {"k": WRITE_LOCK_KEY})
     table = AuditEvent.__table__
     last = conn.execute(sa.select(table.c.hash).order_by(table.c.id.desc()).limit(1)).scalar()
     return last or GENESIS_HASH
