@@ -74,13 +74,43 @@ def test_lead_value_layers_near_the_broad_beam_table(kv):
     assert 0.95 <= tvl_cm * 10 / tvl <= 1.35
 
 
+# NCRP Report No. 147 (2004), Structural Shielding Design for Medical X-Ray Imaging Facilities,
+# Appendix A, Table A.1: broad-beam transmission of primary x rays from diagnostic tubes (three-phase
+# generator; the filtration ahead of the barrier is not in the copies at hand) through steel, fitted
+# as B(x) = [(1 + b/a) exp(a g x) - b/a]^(-1/g), a and b in 1/mm.
+# Deep in the barrier B tends to (1 + b/a)^(-1/g) exp(-a x): the steel has filtered the beam heavily
+# and each further HVL is ln 2 / a, each TVL ln 10 / a (worked by hand beside each value). Read from
+# the transcription of Table A.1 at github.com/dryano1401/rad-shielding-calc,
+# src/radshield/physics/data/ncrp147_primary_archer_kvp.csv, which two other public transcriptions
+# match; the printed report was not at hand. The ASTM E94 table used for lead gives no steel values
+# at 50-100 kV (its text copy lists 16 steel values for 21 rows, the first 1.5 mm, three times the
+# monoenergetic bound at 50 keV below, so the column cannot start at 50 kV).
+#  kV: (HVL, TVL) in steel, mm
+NCRP_147_STEEL_MM = {
+    50.0: (0.3815, 1.267),  # a = 1.817 (b = 4.840, g = 0.4021): 0.6931 / 1.817, 2.3026 / 1.817
+    70.0: (0.9696, 3.221),  # a = 0.7149 (b = 3.798, g = 0.5378): 0.6931 / 0.7149, 2.3026 / 0.7149
+    100.0: (2.030, 6.743),  # a = 0.3415 (b = 2.420, g = 0.7645): 0.6931 / 0.3415, 2.3026 / 0.3415
+}
+
+
+@pytest.mark.parametrize("kv", sorted(NCRP_147_STEEL_MM))
+def test_steel_value_layers_near_the_broad_beam_table(kv):
+    # A narrow-beam model on a modelled tungsten spectrum (constant potential, 0.3 mm Be, hardened a
+    # million-fold by the steel itself, where the fit's local HVL is within 1 % of ln 2 / a): it comes
+    # out thinner than the broad-beam values, by 2 to 4 % at 50 and 100 kV and 8 to 9 % at 70 kV, the
+    # build-up of scatter a broad beam carries through the barrier being left out. It errs thin.
+    hvl_cm, tvl_cm = shielding.value_layers_cm(kv, "W", "Fe")
+    hvl, tvl = NCRP_147_STEEL_MM[kv]
+    assert 0.85 <= hvl_cm * 10 / hvl <= 1.0
+    assert 0.85 <= tvl_cm * 10 / tvl <= 1.0
+
+
 @pytest.mark.parametrize(
     ("kv", "key", "mu_over_rho_at_kvp", "density"),
     [
-        # The copy of the handbook table at hand does not show which voltages its steel column starts
-        # at, so steel is held to worked narrow-beam bounds instead: iron attenuates less at higher
-        # energy (no edge above 7.1 keV), so no beam up to E0 has a half-value layer above the
-        # monoenergetic one at E0, ln 2 / (mu/rho x rho).
+        # Steel is also held to worked narrow-beam bounds: iron attenuates less at higher energy (no
+        # edge above 7.1 keV), so no beam up to E0 has a half-value layer above the monoenergetic one
+        # at E0, ln 2 / (mu/rho x rho).
         (50.0, "Fe", 1.958, 7.85),  # NIST, iron, 50 keV (from memory): 0.693 / 15.37 = 0.451 mm
         (100.0, "Fe", 0.3717, 7.85),  # NIST, iron, 100 keV (from memory): 0.693 / 2.918 = 2.375 mm
         # Lead is least attenuating just below its K edge (88.0 keV): NIST 1.910 cm2/g (from memory),
