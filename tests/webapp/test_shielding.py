@@ -133,6 +133,7 @@ def test_cli_json_for_scripts(app):
         (["--point", "999999"], "--point"),
         (["--anode", "Cu", "--kv", "50", "--reading", "40", "--target", "2.5", "--planned-ma", "5"],
          "needs the current during the reading"),
+        (["--anode", "Cu", "--kv", "50", "--reading", "40", "--target", "2.5", "--at", "30"], "--distance"),
     ],
 )
 def test_cli_refuses_bad_input_naming_the_option(app, args, named):

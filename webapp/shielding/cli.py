@@ -73,6 +73,9 @@ def _setup(point_id, anode, kv, reading, unit, target, margin, materials, distan
         for name, value in (("--anode", anode), ("--kv", kv), ("--reading", reading), ("--target", target)):
             if value is None:
                 raise click.BadParameter("required without --point", param_hint=name)
+        # Scaling to another distance from an assumed one would fail open: ask where it was read.
+        if at_cm is not None and distance is None:
+            raise click.BadParameter("required with --at: where the reading was taken", param_hint="--distance")
         base = SetUp(anode=anode, kv=kv, reading=reading, target_usv_h=target)
     given = {"anode": anode, "kv": kv, "reading": reading, "target_usv_h": target, "distance_cm": distance,
              "ma": ma}
