@@ -68,6 +68,9 @@ class LabSettings(IdMixin, Base):
     )
 
 
+_SETTINGS_KEPT = "lab_settings"
+
+
 def lab_settings(session: Session) -> LabSettings:
     """Return the settings row, creating it with defaults on first use."""
     settings = session.get(LabSettings, 1)
@@ -75,6 +78,8 @@ def lab_settings(session: Session) -> LabSettings:
         settings = LabSettings(id=1)
         session.add(settings)
         session.flush()
+    # The identity map holds rows weakly: without this, each call in a request may read the row again.
+    session.info[_SETTINGS_KEPT] = settings
     return settings
 
 

@@ -23,7 +23,7 @@ from models.instruments.authorisation_ops import (
     why_not_authorised,
     why_not_supervisor,
 )
-from models.instruments.tables import AuthorisationLevel, Instrument
+from models.instruments.tables import Authorisation, AuthorisationLevel, Instrument
 from models.people.person_ops import whom_to_ask
 from models.people.tables import Person
 from models.sessions.tables import EntrySource, InstrumentSession
@@ -165,12 +165,12 @@ def _validate_times(session: Session, values: dict, now: datetime, errors: dict)
 def unavailable_reason(session: Session, instrument: Instrument,
                        end: datetime | None = None) -> str | None:
     """Why the instrument takes no session (ending at `end`, if written up), or None if it does."""
+    if instrument.in_service and not instrument.retired:
+        return None
     ask = whom_to_ask(session)
     if instrument.retired:
         return (f"{instrument.name} is retired and takes no new sessions. "
                 f"Ask {ask} which instrument to use instead.")
-    if instrument.in_service:
-        return None
     since = instrument.out_of_service_since
     # A session written up afterwards that ended before the instrument was stopped is a record
     # of what happened, not new use.
@@ -215,15 +215,27 @@ def _validate_dosimeters(session: Session, operator: Person, values: dict, error
 
 def needs_supervisor(session: Session, instrument: Instrument, operator: Person, start: datetime) -> bool:
     """True when the operator holds only a supervised authorisation on the instrument then."""
-    held = authorisation_on(session, operator, instrument, lab_date(session, start))
+    return _supervised(authorisation_on(session, operator, instrument, lab_date(session, start)))
+
+
+def _supervised(held: Authorisation | None) -> bool:
+    """True for an authorisation that allows only supervised work."""
     return held is not None and held.level == AuthorisationLevel.SUPERVISED
 
 
+@dataclass(frozen=True)
+class Checked:
+    """What the session rules found, for the row they allowed: so the write reads nothing twice."""
+
+    authorisation: Authorisation | None
+    permit: BypassPermit | None
+
+
 def _validate_supervisor(session: Session, instrument: Instrument, operator: Person, values: dict,
-                         errors: dict) -> None:
+                         held: Authorisation, errors: dict) -> None:
     """A supervised operator's session names an independently authorised supervisor."""
     start = values["started_at"]
-    if not needs_supervisor(session, instrument, operator, start):
+    if not _supervised(held):
         return
     supervisor_id = values.get("supervisor_id")
     supervisor = session.get(Person, supervisor_id) if supervisor_id is not None else None
@@ -232,17 +244,10 @@ def _validate_supervisor(session: Session, instrument: Instrument, operator: Per
         errors["supervisor_id"] = refusal
 
 
-def needs_caution(session: Session, instrument: Instrument, values: dict) -> BypassPermit | bool:
-    """The active bypass permit, or True for alignment work, when a strong caution applies."""
-    start = values.get("started_at")
-    permit = active_bypass_permit(session, instrument, start) if start else None
-    return permit or bool(values.get("alignment"))
-
-
 def validate_session(
     session: Session, instrument: Instrument | None, operator: Person | None, values: dict,
     *, now: datetime | None = None, exclude_id: int | None = None,
-) -> None:
+) -> Checked:
     """Refuse, by field, every rule a new session breaks; write nothing."""
     now = now or utcnow()
     errors: dict[str, str] = {}
@@ -255,12 +260,13 @@ def validate_session(
     _validate_times(session, values, now, errors)
     _validate_instrument(session, instrument, values, errors)
     start, end = values.get("started_at"), values.get("ended_at")
+    held = None
     if start is not None and "instrument" not in errors:
-        refusal = why_not_authorised(session, operator, instrument, lab_date(session, start))
-        if refusal:
-            errors["instrument"] = refusal
+        held = authorisation_on(session, operator, instrument, lab_date(session, start))
+        if held is None:
+            errors["instrument"] = why_not_authorised(session, operator, instrument, lab_date(session, start))
         else:
-            _validate_supervisor(session, instrument, operator, values, errors)
+            _validate_supervisor(session, instrument, operator, values, held, errors)
     if start is not None and "started_at" not in errors and "ended_at" not in errors:
         clash = _overlapping(session, instrument, start, end, exclude_id)
         if clash is not None:
@@ -271,15 +277,18 @@ def validate_session(
     if values.get("configuration_changed") and not (values.get("configuration_change") or "").strip():
         errors["configuration_change"] = "Describe the configuration change."
     _validate_dosimeters(session, operator, values, errors)
-    if needs_caution(session, instrument, values) and not values.get("caution_acknowledged"):
+    permit = active_bypass_permit(session, instrument, start) if start else None
+    if (permit or values.get("alignment")) and not values.get("caution_acknowledged"):
         errors["caution_acknowledged"] = (
             "Confirm that you have read the caution about the primary beam and ring dosimetry.")
     if errors:
         raise Invalid(errors)
+    return Checked(held, permit)
 
 
 def _new_row(
     session: Session, instrument: Instrument, operator: Person, values: dict, source: EntrySource,
+    checked: Checked,
 ) -> InstrumentSession:
     """Write a checked session, flagging it when a bypass permit covers its start."""
     row = InstrumentSession(instrument_id=instrument.id, operator_id=operator.id, source=source)
@@ -296,10 +305,8 @@ def _new_row(
     row.dosimeter_worn = bool(values.get("dosimeter_worn"))
     if row.dosimeter_worn:
         row.dosimeters = [session.get(Dosimeter, i) for i in dosimeter_ids(values)]
-    row.supervisor_id = (values.get("supervisor_id")
-                         if needs_supervisor(session, instrument, operator, row.started_at) else None)
-    permit = active_bypass_permit(session, instrument, values["started_at"])
-    row.bypass_permit_id = permit.id if permit else None
+    row.supervisor_id = values.get("supervisor_id") if _supervised(checked.authorisation) else None
+    row.bypass_permit_id = checked.permit.id if checked.permit else None
     _insert_unless_overlapping(session, instrument, row)
     _ask_for_surveys(session, instrument, operator, row)
     return row
@@ -360,8 +367,8 @@ def open_session(
     now = now or utcnow()
     values = _opening(values, now)
     hold_write_lock(session)
-    validate_session(session, instrument, operator, values, now=now)
-    return _new_row(session, instrument, operator, values, source)
+    checked = validate_session(session, instrument, operator, values, now=now)
+    return _new_row(session, instrument, operator, values, source, checked)
 
 
 def _finished(values: dict) -> dict:
@@ -375,17 +382,18 @@ def _finished(values: dict) -> dict:
 def validate_finished(
     session: Session, instrument: Instrument | None, operator: Person | None, values: dict,
     *, now: datetime | None = None,
-) -> None:
+) -> Checked:
     """Refuse a written-up session that breaks a rule; an end is required."""
-    errors = {}
+    errors, checked = {}, None
     try:
-        validate_session(session, instrument, operator, _finished(values), now=now)
+        checked = validate_session(session, instrument, operator, _finished(values), now=now)
     except Invalid as error:
         errors = error.errors
     if values.get("ended_at") is None:
         errors.setdefault("ended_at", "Enter when the session ended.")
     if errors:
         raise Invalid(errors)
+    return checked
 
 
 def log_finished_session(
@@ -394,8 +402,8 @@ def log_finished_session(
 ) -> InstrumentSession:
     """Write up a session after it ended; beam-on time defaults to the whole session."""
     hold_write_lock(session)
-    validate_finished(session, instrument, operator, values, now=now)
-    return _new_row(session, instrument, operator, _finished(values), source)
+    checked = validate_finished(session, instrument, operator, values, now=now)
+    return _new_row(session, instrument, operator, _finished(values), source, checked)
 
 
 def close_session(

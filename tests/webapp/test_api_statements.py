@@ -44,10 +44,9 @@ def test_a_finished_session_post_runs_the_rules_once_in_a_handful_of_statements(
     statements = statements_of(lambda: client.post("/api/v1/sessions/finished", json=BODY, headers=headers))
     assert calls == [1]  # the session rules ran once
     sql = [s for s in statements if not s.startswith(CONTROL)]
-    # Counted once by reading them: token, instrument, operator and roles; under the write lock the
-    # operator again, settings, the authorisation (for the rules, then for the supervisor and the
-    # row), the overlap check, the bypass permit (rules and row), the insert, the chain's head and
-    # its event, and the settings re-read after the lock (three times) and for the answer's times:
-    # 19; on PostgreSQL two more: the advisory lock that serialises writers, taken before the check
-    # and again (re-entrant) when the audit chain is written.
-    assert len(sql) == 19 + 2 * (db.engine.dialect.name == "postgresql"), "\n".join(s.split("\n")[0][:100] for s in sql)
+    # Counted once by reading them: the request hook's lapsed temporary controls; token,
+    # instrument, operator and roles; under the write lock the settings, the authorisation, the
+    # overlap check, the bypass permit, the insert, the chain's head and its event: 12. On
+    # PostgreSQL two more: the advisory lock that serialises writers, taken before the check and
+    # again (re-entrant) when the audit chain is written.
+    assert len(sql) == 12 + 2 * (db.engine.dialect.name == "postgresql"), "\n".join(s.split("\n")[0][:100] for s in sql)
