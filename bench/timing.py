@@ -14,8 +14,9 @@ from models.exposure import lab_ops
 from models.exposure.cache import UntilChanged
 from models.exposure.engine import DoseRecords, compute_doses
 from models.exposure.evaluation import evaluate
-from models.exposure.lab_ops import limit_set_of, policies_of, read_records
+from models.exposure.lab_ops import read_records
 from models.exposure.periods import fixed_windows
+from models.exposure.rules_ops import rules_on
 from models.people.tables import Person
 
 
@@ -46,8 +47,7 @@ def time_read(session, runs: int) -> tuple[float, DoseRecords]:
 def time_engine(session, records: DoseRecords, on: date, runs: int) -> float:
     """(a) compute_doses + evaluate for everyone on one date, arrays in and arrays out."""
     people, categories = people_of(session)
-    settings = lab_settings(session)
-    policies, limit_set = policies_of(settings), limit_set_of(settings)
+    limit_set, policies = rules_on(session, on)
     no_pregnancy = np.full(len(people), np.datetime64("NaT"), dtype="datetime64[D]")
 
     def run():

@@ -10,7 +10,7 @@ from models.core.outbox import OutboxMessage
 from models.core.settings import LabSettings
 from models.doses.tables import DoseRecord, Dosimeter, ImportBatch, ImportMapping
 from models.due.tables import ReminderSent
-from models.exposure.tables import Investigation, LimitRule, LimitSet, PregnancyDeclaration
+from models.exposure.tables import Investigation, LimitRule, LimitSet, PregnancyDeclaration, RuleChange
 from models.incidents.tables import Incident, IncidentNote
 from models.instruments.tables import ApiToken, Authorisation, ChecklistItem, ChecklistTemplate, Instrument
 from models.people.tables import Person, PersonRole
@@ -22,6 +22,6 @@ __all__ = [
     "ChecklistItem", "ChecklistTemplate", "Dosimeter", "DoseRecord", "ImportBatch",
     "ImportMapping", "Incident", "IncidentNote", "Instrument", "InstrumentSession",
     "Investigation", "LabSettings", "LimitRule", "LimitSet", "OutboxMessage", "Person", "PersonRole",
-    "PregnancyDeclaration", "ReminderSent", "SafetyCheck", "Survey", "SurveyMeter", "SurveyPoint",
+    "PregnancyDeclaration", "ReminderSent", "RuleChange", "SafetyCheck", "Survey", "SurveyMeter", "SurveyPoint",
     "SurveyTask", "TemporaryControl",
 ]

@@ -484,14 +484,23 @@ def make_meter(app):
 
 
 # --- exposure factories ---
-@pytest.fixture
-def use_limit_set(app):
-    """Factory: install a shipped preset and put it in force."""
+def put_in_force(session, key: str, from_on: date | None = None):
+    """Install a shipped preset and put it in force for every date (or from `from_on`); flushes."""
+    from models.core.bounds import EARLIEST
     from models.core.settings import lab_settings
     from models.exposure.limit_set_ops import install_preset
+    from models.exposure.rules_ops import choose_limit_set
 
-    def use(key: str = "icrp103"):
-        lab_settings(db.session).limit_set = install_preset(db.session, key)
+    return choose_limit_set(session, lab_settings(session), install_preset(session, key),
+                            from_on=from_on or EARLIEST, reason="Test set-up.", today=LAB_TODAY, by=None)
+
+
+@pytest.fixture
+def use_limit_set(app):
+    """Factory: install a shipped preset and put it in force for every date (or from `from_on`)."""
+
+    def use(key: str = "icrp103", from_on: date | None = None):
+        put_in_force(db.session, key, from_on)
         db.session.commit()
 
     return use

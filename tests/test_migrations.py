@@ -1,7 +1,7 @@
 """The migrations build exactly the schema the models describe, on every backend, and undo it."""
 import importlib.util
 import sqlite3
-from datetime import UTC, datetime, timedelta
+from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
 
 import pytest
@@ -12,8 +12,10 @@ from alembic.operations import Operations
 from flask_migrate import downgrade, upgrade
 
 from models import Base
+from models.audit.verify_ops import row_problems
+from models.exposure.rules_ops import rule_history, rules_on
 from models.sessions.tables import InstrumentSession
-from tests.conftest import BACKENDS, base_config, empty_postgres_database
+from tests.conftest import BACKENDS, LAB_TODAY, base_config, empty_postgres_database
 from webapp import create_app
 from webapp.extensions import db
 
@@ -59,6 +61,30 @@ def test_migrations_go_down_to_base_and_up_again(empty_database_url):
         diff = _differences()
         db.engine.dispose()
     assert diff == [], f"after down and up again, models and migrations disagree: {diff}"
+
+
+def test_the_rules_history_begins_with_the_rules_in_force_for_every_date(empty_database_url):
+    """Migration 0031 copies the set and policies in force to a change applying from 1950-01-01."""
+    app = create_app(base_config(empty_database_url))
+    with app.app_context():
+        upgrade(revision="0030")
+        with db.engine.begin() as conn:
+            conn.execute(sa.text("INSERT INTO limit_set (name, description, whole_pregnancy, created_at) "
+                                 "VALUES ('Lab rules', '', false, '2026-01-05 09:00:00')"))
+            conn.execute(sa.text("UPDATE lab_settings SET limit_set_id = (SELECT id FROM limit_set), "
+                                 "mrd_policy = 'half', lens_source = 'hp10', five_year_first_year = 2021"))
+        upgrade()
+        (change,) = rule_history(db.session)
+        assert (change.from_on, change.changed_by_id, change.changed_at) == (date(1950, 1, 1), None, None)
+        for on in (date(1950, 1, 1), date(1999, 6, 30), LAB_TODAY):
+            limit_set, policies = rules_on(db.session, on)
+            assert limit_set.name == "Lab rules"
+            assert (policies.proration, policies.mrd, policies.lens_source, policies.first_block_year) == (
+                "prorate_days", "half", "hp10", 2021)
+        # The rows the migrations wrote outside the ORM are in the audit trail's baseline.
+        assert row_problems(db.session) == []
+        db.session.close()
+        db.engine.dispose()
 
 
 def test_flask_db_upgrade_gives_a_new_database_the_zone_in_lab_timezone(tmp_path, monkeypatch):

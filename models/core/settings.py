@@ -19,6 +19,7 @@ if TYPE_CHECKING:  # core imports no area; the mapper finds the class by name
 # out (one minute) or leaving a login open for months.
 IDLE_TIMEOUT_DEFAULT, IDLE_TIMEOUT_RANGE = 8 * 60, (5, 24 * 60)
 SESSION_LIFETIME_DEFAULT, SESSION_LIFETIME_RANGE = 7 * 24, (1, 30 * 24)
+FIVE_YEAR_FIRST_YEAR_DEFAULT = 2026
 
 
 class LabSettings(IdMixin, Base):
@@ -28,6 +29,8 @@ class LabSettings(IdMixin, Base):
 
     lab_name: Mapped[str] = mapped_column(sa.String(200), default="X-ray laboratory")
     timezone: Mapped[str] = mapped_column(sa.String(64), default="UTC")
+    # The set and policies below are a copy of today's rules; their history (rule_change, in the
+    # exposure area) is the source, and only models.exposure.rules_ops writes them.
     limit_set_id: Mapped[int | None] = mapped_column(sa.ForeignKey("limit_set.id"))
     # Installed when the database was created, and not yet confirmed or changed by the safety officer.
     limit_set_by_default: Mapped[bool] = mapped_column(default=False, server_default=sa.false())
@@ -39,7 +42,7 @@ class LabSettings(IdMixin, Base):
         enum_column(LensSource), default=LensSource.HP007
     )
     display_unit: Mapped[str] = mapped_column(sa.String(8), default="mSv")
-    five_year_first_year: Mapped[int] = mapped_column(default=2026)
+    five_year_first_year: Mapped[int] = mapped_column(default=FIVE_YEAR_FIRST_YEAR_DEFAULT)
     due_soon_days: Mapped[int] = mapped_column(default=7)
     reminders_enabled: Mapped[bool] = mapped_column(default=True)
     safety_officer_email: Mapped[str | None] = mapped_column(sa.String(254))

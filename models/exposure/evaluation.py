@@ -36,6 +36,7 @@ class Evaluation:
     """Doses with their rules, levels and projections; (P, S, T) arrays, NaN where not applicable.
 
     rule: index into limit_set.rules, -1 for none. level, projected_level: Level codes.
+    allowance_clause: (P,) the clause that raised a person's fetal limit, "" where none did.
     """
 
     totals: DoseTotals
@@ -49,6 +50,7 @@ class Evaluation:
     level: np.ndarray
     projected: np.ndarray
     projected_level: np.ndarray
+    allowance_clause: np.ndarray | None = None
 
 
 def rule_index(limit_set: LimitSetSpec, categories: np.ndarray, pregnant: np.ndarray) -> np.ndarray:
@@ -113,9 +115,11 @@ def evaluate(totals: DoseTotals, limit_set: LimitSetSpec, categories) -> Evaluat
     )
 
 
-def with_declaration_allowance(evaluation: Evaluation, before: np.ndarray, allowance_msv: float) -> Evaluation:
+def with_declaration_allowance(evaluation: Evaluation, before: np.ndarray, allowance_msv: float,
+                               clause: str) -> Evaluation:
     """The fetal limit raised for people whose fetal dose by the declaration was within
     `allowance_msv` of it (or over it): they may receive `allowance_msv` more (10 CFR 20.1208(d)).
+    Their fetal row cites `clause` beside the rule's own.
 
     before: (P,) fetal dose counted before the declaration (NaN or 0 for none).
     """
@@ -127,7 +131,7 @@ def with_declaration_allowance(evaluation: Evaluation, before: np.ndarray, allow
     limit[near, s, t] = np.maximum(limit[near, s, t], before[near] + allowance_msv)
     dose, projected = evaluation.totals.dose, evaluation.projected
     return replace(
-        evaluation, limit=limit, fraction=dose / limit, remaining=np.maximum(limit - dose, 0.0),
+        evaluation, limit=limit, allowance_clause=np.where(near, clause, ""), fraction=dose / limit, remaining=np.maximum(limit - dose, 0.0),
         level=level_codes(dose, evaluation.level1, evaluation.level2, limit),
         projected_level=level_codes(projected, evaluation.level1, evaluation.level2, limit))
 
@@ -157,11 +161,23 @@ def person_rows(evaluation: Evaluation, person: int) -> list[dict]:
                 "remaining_msv": _number(evaluation.remaining[at]),
                 "projected_level": (str(_member(Level, evaluation.projected_level[at])) if rule >= 0
                                     else NO_LIMIT),
-                "clause": evaluation.limit_set.rules[rule].clause if rule >= 0 else None,
+                "clause": _clause(evaluation, at),
                 "stand_in": bool(totals.stand_in[at]),
             }
         )
     return rows
+
+
+def _clause(evaluation: Evaluation, at: tuple) -> str | None:
+    """The row's rule's clause, and the clause that raised its limit where one did."""
+    rule = evaluation.rule[at]
+    if rule < 0:
+        return None
+    person, s, t = at
+    raised_by = "" if evaluation.allowance_clause is None else evaluation.allowance_clause[person]
+    if raised_by and (s, t) == (code(Series.FETUS), code(PeriodKind.PREGNANCY)):
+        return f"{evaluation.limit_set.rules[rule].clause}; {raised_by}"
+    return evaluation.limit_set.rules[rule].clause
 
 
 def _member(cls, position):

@@ -9,19 +9,15 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
 from models.core.codes import PeriodKind, Series, code
-from models.core.settings import LabSettings, lab_settings
 from models.doses.tables import DoseRecord
 from models.doses.version_ops import is_current
 from models.exposure import presets
 from models.exposure.cache import UntilChanged
 from models.exposure.engine import DoseRecords, DoseTotals, Policies, compute_doses, person_index
 from models.exposure.evaluation import Evaluation, evaluate, with_declaration_allowance
-from models.exposure.limit_set_ops import as_rules
+from models.exposure.rules_ops import rules_on
 from models.exposure.tables import PregnancyDeclaration
 from models.people.tables import Person
-
-NO_LIMIT_SET = presets.LimitSetSpec("none", "No limit set chosen", ())
-
 
 # Read as the driver gives them, these skip a Python conversion per row (enum lookup, date parse).
 _AS_STORED = ("quantity", "location", "wear_start", "wear_end", "result")
@@ -122,17 +118,6 @@ def fetal_dose_before(records: DoseRecords, n_people: int, on: date, policies: P
     return np.nan_to_num(totals.dose[:, code(Series.FETUS), code(PeriodKind.PREGNANCY)], nan=0.0)
 
 
-def policies_of(settings: LabSettings) -> Policies:
-    """The counting policies the lab has chosen."""
-    return Policies(settings.proration, settings.mrd_policy, settings.lens_source,
-                    settings.five_year_first_year)
-
-
-def limit_set_of(settings: LabSettings) -> presets.LimitSetSpec:
-    """The lab's limit set in force, as rules."""
-    return NO_LIMIT_SET if settings.limit_set is None else as_rules(settings.limit_set)
-
-
 @dataclass(frozen=True)
 class LabEvaluation:
     """Everyone's evaluation on one date, with the person ids in row order."""
@@ -152,13 +137,12 @@ class LabEvaluation:
 
 
 def evaluate_lab(session: Session, on: date) -> LabEvaluation:
-    """Read the records in force and evaluate everyone on `on` with the lab's policies and limits."""
-    settings = lab_settings(session)
+    """Read the records in force and evaluate everyone on `on` with the policies and limits of that date."""
     everyone = session.execute(sa.select(Person.id, Person.category).order_by(Person.id)).all()
     people, categories = zip(*everyone) if everyone else ((), ())
     person_ids = np.asarray(people, dtype=np.int64)
     records = read_records(session, person_ids)
-    limit_set, policies = limit_set_of(settings), policies_of(settings)
+    limit_set, policies = rules_on(session, on)
     start, end = pregnancy_windows(session, person_ids, on, limit_set.whole_pregnancy)
     totals = compute_doses(records, len(person_ids), on, policies, start, end)
     evaluation = evaluate(totals, limit_set,
@@ -166,12 +150,13 @@ def evaluate_lab(session: Session, on: date) -> LabEvaluation:
     if limit_set.whole_pregnancy and totals.windows.exists[:, code(PeriodKind.PREGNANCY)].any():
         declared = declaration_dates(session, person_ids, on)
         before = fetal_dose_before(records, len(person_ids), on, policies, start, declared)
-        evaluation = with_declaration_allowance(evaluation, before, presets.DECLARATION_ALLOWANCE_MSV)
+        evaluation = with_declaration_allowance(evaluation, before, presets.DECLARATION_ALLOWANCE_MSV,
+                                                presets.DECLARATION_ALLOWANCE_CLAUSE)
     return LabEvaluation(on, person_ids, evaluation)
 
 
-# Everything the evaluation reads: the records, declarations, people's categories, policies, limits.
-EVALUATION_INPUTS = frozenset({"dose_record", "pregnancy_declaration", "person", "lab_settings",
+# Everything the evaluation reads: the records, declarations, people's categories, the rules' history, limits.
+EVALUATION_INPUTS = frozenset({"dose_record", "pregnancy_declaration", "person", "rule_change",
                                "limit_set", "limit_rule"})
 _evaluations: UntilChanged[LabEvaluation] = UntilChanged(EVALUATION_INPUTS)
 

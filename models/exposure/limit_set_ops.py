@@ -1,4 +1,4 @@
-"""The safety officer's changes to limits: the set in force, the counting policies, a copy's rules.
+"""The safety officer's limit sets: presets installed, copies and their rules (the set in force: rules_ops).
 
 Presets (sets with a preset_key) are read-only: they are the published values with their clauses.
 A lab changes a copy. Every check names the field it concerns, so forms show it beside the field.
@@ -11,7 +11,7 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
 from models.core.base import taken
-from models.core.codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
+from models.core.codes import LevelKind, PeriodKind, Series, WorkerCategory
 from models.core.errors import Invalid
 from models.core.settings import LabSettings
 from models.exposure import presets
@@ -35,7 +35,7 @@ def _require_editable(limit_set: LimitSet) -> None:
                                    "copy it and change the copy.")
 
 
-def _member(cls, value, field: str, errors: dict) -> object:
+def member(cls, value, field: str, errors: dict) -> object:
     """The enum member for a value, or an error for the field."""
     try:
         return cls(value)
@@ -53,7 +53,7 @@ def _level(n: int, values: dict, limit_msv: float | None, errors: dict):
             errors[f"level{n}_kind"] = (f"Say whether level {name} is a fraction of the limit "
                                         "or mSv per period.")
         return None
-    kind = _member(LevelKind, kind, f"level{n}_kind", errors)
+    kind = member(LevelKind, kind, f"level{n}_kind", errors)
     field = f"level{n}_value"
     if kind is None:
         return None
@@ -86,9 +86,9 @@ def _validate_order(level1, level2, limit_msv: float | None, errors: dict) -> No
 def validate_rule(values: dict) -> presets.LimitRuleSpec:
     """A rule from form values (keys RULE_COLUMNS; numbers as float or None), or Invalid."""
     errors: dict[str, str] = {}
-    category = _member(WorkerCategory, values.get("category"), "category", errors)
-    series = _member(Series, values.get("series"), "series", errors)
-    period = _member(PeriodKind, values.get("period"), "period", errors)
+    category = member(WorkerCategory, values.get("category"), "category", errors)
+    series = member(Series, values.get("series"), "series", errors)
+    period = member(PeriodKind, values.get("period"), "period", errors)
     if series is Series.FETUS and category not in (None, WorkerCategory.DECLARED_PREGNANT):
         errors["series"] = "The embryo/fetus series applies to the declared pregnant worker only."
     if period is PeriodKind.PREGNANCY and series not in (None, Series.FETUS):
@@ -138,29 +138,7 @@ def remove_rule(session: Session, limit_set: LimitSet, rule: LimitRule) -> None:
     session.flush()
 
 
-def choose_limit_set(session: Session, settings: LabSettings, limit_set: LimitSet | None) -> None:
-    """Put a stored set in force for the whole lab."""
-    if limit_set is None:
-        raise Invalid.one("limit_set_id", "Choose one of the installed limit sets.")
-    as_rules(limit_set)  # refuses a set whose rules would not evaluate
-    settings.limit_set = limit_set
-    settings.limit_set_by_default = False
-    session.flush()
-
-
 DEFAULT_PRESET = "icrp103"
-
-
-def install_default(session: Session, settings: LabSettings, key: str | None) -> LimitSet | None:
-    """On a database without a limit set, put the preset `key` (or DEFAULT_PRESET) in force, marked
-    as installed by default until the safety officer confirms or changes it; else change nothing."""
-    if settings.limit_set_id is not None:
-        return None
-    stored = install_preset(session, key or DEFAULT_PRESET)
-    settings.limit_set = stored
-    settings.limit_set_by_default = True
-    session.flush()
-    return stored
 
 
 def confirm_limit_set(session: Session, settings: LabSettings) -> None:
@@ -169,26 +147,6 @@ def confirm_limit_set(session: Session, settings: LabSettings) -> None:
         raise Invalid.one("limit_set_id", "No limit set is in force; choose one.")
     settings.limit_set_by_default = False
     session.flush()
-
-
-def set_policies(session: Session, settings: LabSettings, values: dict) -> None:
-    """Proration, MRD policy, lens source and the first year of the five-year blocks."""
-    errors: dict[str, str] = {}
-    proration = _member(Proration, values.get("proration"), "proration", errors)
-    mrd = _member(MrdPolicy, values.get("mrd_policy"), "mrd_policy", errors)
-    lens = _member(LensSource, values.get("lens_source"), "lens_source", errors)
-    first_year = values.get("five_year_first_year")
-    low, high = FIRST_BLOCK_YEARS
-    if first_year is None or not low <= first_year <= high:
-        errors["five_year_first_year"] = f"Enter a year between {low} and {high}."
-    if errors:
-        raise Invalid(errors)
-    settings.proration, settings.mrd_policy, settings.lens_source = proration, mrd, lens
-    settings.five_year_first_year = first_year
-    session.flush()
-
-
-
 
 
 def _level_columns(level: presets.InvestigationLevel | None) -> tuple:

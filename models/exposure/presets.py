@@ -68,6 +68,8 @@ class LimitRuleSpec:
 # 10 CFR 20.1208(d): a dose at or within 0.05 rem (0.5 mSv) of the limit by the declaration allows
 # 0.05 rem (0.5 mSv) more during the remainder of the pregnancy.
 DECLARATION_ALLOWANCE_MSV = 0.5
+DECLARATION_ALLOWANCE_CLAUSE = ("10 CFR 20.1208(d) (dose at or within 0.5 mSv of the limit by the declaration: "
+                                "0.5 mSv more during the remainder of the pregnancy)")
 
 
 @dataclass(frozen=True)

@@ -7,7 +7,18 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from models.core.base import Base, IdMixin, enum_column, utcnow
-from models.core.codes import Level, LevelKind, Location, PeriodKind, Quantity, Series, WorkerCategory
+from models.core.codes import (
+    LensSource,
+    Level,
+    LevelKind,
+    Location,
+    MrdPolicy,
+    PeriodKind,
+    Proration,
+    Quantity,
+    Series,
+    WorkerCategory,
+)
 from models.people.tables import Person
 
 
@@ -107,4 +118,47 @@ class LimitRule(IdMixin, Base):
         sa.CheckConstraint("limit_msv IS NULL OR limit_msv > 0", name="limit_positive"),
         sa.CheckConstraint("level1_value IS NULL OR level1_value > 0", name="level1_positive"),
         sa.CheckConstraint("level2_value IS NULL OR level2_value > 0", name="level2_positive"),
+    )
+
+
+POLICIES_ALL_OR_NONE = (
+    "(proration IS NULL AND mrd_policy IS NULL AND lens_source IS NULL AND five_year_first_year IS NULL) OR "
+    "(proration IS NOT NULL AND mrd_policy IS NOT NULL AND lens_source IS NOT NULL "
+    "AND five_year_first_year IS NOT NULL)"
+)
+
+
+class RuleChange(IdMixin, Base):
+    """From a lab date on, a limit set and/or counting policies apply, until a later change of the same.
+
+    The set and the policies have histories of their own in this one table: a row that changes only
+    the policies leaves the set as it stood, and a change into the past never undoes a later one of
+    the other kind. The history is the rules' one source: an evaluation on a date uses what stood on
+    it; `lab_settings` keeps a copy of today's, written only with a change.
+    """
+
+    __tablename__ = "rule_change"
+
+    from_on: Mapped[date] = mapped_column(index=True)
+    # The row puts limit_set_id in force (None: no limit set; the doses are summed, not assessed).
+    sets_limit_set: Mapped[bool]
+    limit_set_id: Mapped[int | None] = mapped_column(sa.ForeignKey("limit_set.id"))
+    # The policies, all four or none (None: the row leaves the policies as they stood).
+    proration: Mapped[Proration | None] = mapped_column(enum_column(Proration))
+    mrd_policy: Mapped[MrdPolicy | None] = mapped_column(enum_column(MrdPolicy))
+    lens_source: Mapped[LensSource | None] = mapped_column(enum_column(LensSource))
+    five_year_first_year: Mapped[int | None]
+    changed_by_id: Mapped[int | None] = mapped_column(sa.ForeignKey("person.id"))
+    # None only on the row the history began with (migration 0031): when that was decided is unknown.
+    changed_at: Mapped[datetime | None] = mapped_column(default=utcnow)
+    reason: Mapped[str] = mapped_column(sa.Text)
+
+    limit_set: Mapped[LimitSet | None] = relationship()
+    changed_by: Mapped[Person | None] = relationship(foreign_keys=[changed_by_id])
+
+    __table_args__ = (
+        sa.CheckConstraint("from_on BETWEEN '1950-01-01' AND '2100-12-31'", name="from_on_in_range"),
+        sa.CheckConstraint("sets_limit_set OR limit_set_id IS NULL", name="set_only_when_setting"),
+        sa.CheckConstraint(POLICIES_ALL_OR_NONE, name="policies_all_or_none"),
+        sa.CheckConstraint("sets_limit_set OR proration IS NOT NULL", name="changes_something"),
     )

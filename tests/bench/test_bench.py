@@ -11,7 +11,8 @@ from models.core.codes import PeriodKind, Series, code
 from models.core.settings import lab_settings
 from models.doses.tables import DoseRecord
 from models.exposure.engine import compute_doses
-from models.exposure.lab_ops import policies_of, read_records
+from models.exposure.lab_ops import read_records
+from models.exposure.rules_ops import rules_on
 from tests.conftest import free_port
 from webapp.extensions import db
 
@@ -45,10 +46,10 @@ def test_the_plain_loop_gives_the_engine_sums(tiny):
     app, lab = tiny
     people, _ = timing.people_of(db.session)
     records = read_records(db.session, people)
-    settings = lab_settings(db.session)
-    totals = compute_doses(records, len(people), ON, policies_of(settings))
+    _, policies = rules_on(db.session, ON)
+    totals = compute_doses(records, len(people), ON, policies)
     rows = db.session.execute(timing.lab_ops._record_columns()).all()
-    sums = timing.plain_loop(rows, ON, settings.five_year_first_year)
+    sums = timing.plain_loop(rows, ON, policies.first_block_year)
     for row, person_id in enumerate(people[:-1]):  # the last person is the safety officer
         for kind in (PeriodKind.YEAR, PeriodKind.QUARTER, PeriodKind.ROLLING_12_MONTHS):
             expected = totals.dose[row, code(Series.EFFECTIVE), code(kind)]

@@ -1,12 +1,11 @@
 """Stored records evaluated through the engine: versions, pregnancy, and the cache."""
 from datetime import date
 
-from models.core.settings import lab_settings
 from models.doses.tables import DoseRecord
 from models.exposure.evaluation import person_rows
 from models.exposure.lab_ops import cached_lab_evaluation, evaluate_lab
-from models.exposure.limit_set_ops import install_preset
 from models.exposure.tables import PregnancyDeclaration
+from tests.conftest import put_in_force
 
 ON = date(2026, 11, 30)
 
@@ -24,7 +23,7 @@ def _row(lab, person, series, period):
 
 def test_only_the_current_version_counts(session, make_person):
     person = make_person()
-    lab_settings(session).limit_set = install_preset(session, "icrp103")
+    put_in_force(session, "icrp103")
     first = _record(person, 5.0)
     session.add(first)
     session.flush()
@@ -37,7 +36,7 @@ def test_only_the_current_version_counts(session, make_person):
 
 def test_common_practice_level_one_in_the_quarter(session, make_person):
     person = make_person()
-    lab_settings(session).limit_set = install_preset(session, "icrp103")
+    put_in_force(session, "icrp103")
     session.add(_record(person, 1.5))
     session.commit()
     # common practice: 1.25 mSv Hp(10) per quarter is level I (REFERENCE.md, investigation levels)

@@ -3,15 +3,8 @@ import pytest
 
 from models.core.errors import Invalid
 from models.core.settings import lab_settings
-from models.exposure.limit_set_ops import (
-    choose_limit_set,
-    copy_limit_set,
-    install_preset,
-    remove_rule,
-    save_rule,
-    set_policies,
-    validate_rule,
-)
+from models.exposure.limit_set_ops import copy_limit_set, install_preset, remove_rule, save_rule, validate_rule
+from models.exposure.rules_ops import choose_limit_set, set_policies
 
 GOOD = {"category": "adult_worker", "series": "effective", "period": "year", "limit_msv": 20.0,
         "level1_kind": "fraction", "level1_value": 0.3, "level2_kind": "absolute",
@@ -70,18 +63,19 @@ def test_a_copy_is_edited_added_to_and_trimmed(session):
     assert added not in copy.rules
 
 
-def test_choosing_and_policies(session):
+def test_choosing_and_policies(session, today):
     settings = lab_settings(session)
+    change = {"from_on": today, "reason": "Test", "today": today, "by": None}
     with pytest.raises(Invalid):
-        choose_limit_set(session, settings, None)
+        choose_limit_set(session, settings, None, **change)
     chosen = install_preset(session, "cfr10_20")
-    choose_limit_set(session, settings, chosen)
+    choose_limit_set(session, settings, chosen, **change)
     assert settings.limit_set is chosen
     set_policies(session, settings, {"proration": "wear_end", "mrd_policy": "half",
-                                     "lens_source": "hp10", "five_year_first_year": 2021})
+                                     "lens_source": "hp10", "five_year_first_year": 2021}, **change)
     assert (settings.proration, settings.mrd_policy, settings.lens_source,
             settings.five_year_first_year) == ("wear_end", "half", "hp10", 2021)
     with pytest.raises(Invalid) as refused:
         set_policies(session, settings, {"proration": "weekly", "mrd_policy": "half",
-                                         "lens_source": "hp10", "five_year_first_year": 99})
+                                         "lens_source": "hp10", "five_year_first_year": 99}, **change)
     assert set(refused.value.errors) == {"proration", "five_year_first_year"}

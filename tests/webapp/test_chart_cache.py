@@ -3,9 +3,8 @@ from datetime import date
 
 import pytest
 
-from models.core.settings import lab_settings
-from models.exposure.limit_set_ops import install_preset
 from models.people.tables import Role
+from tests.conftest import put_in_force
 from webapp.exposure import pages
 from webapp.exposure.chart_cache import charts
 
@@ -24,7 +23,7 @@ def drawn(monkeypatch):
 
 
 def test_a_new_dose_record_draws_the_chart_again(session, make_person, make_dose, login, drawn):
-    lab_settings(session).limit_set = install_preset(session, "icrp103")
+    put_in_force(session, "icrp103")
     session.commit()
     ada = make_person("ada")
     make_dose(ada, wear_start=date(2025, 3, 1), wear_end=date(2025, 3, 31), value=0.4)

@@ -3,12 +3,10 @@ from datetime import date
 
 import pytest
 
-from models.core.settings import lab_settings
 from models.doses.tables import DoseRecord
-from models.exposure.limit_set_ops import install_preset
 from models.people.person_ops import add_person
 from models.people.tables import Role
-from tests.conftest import PASSWORD_HASH, browser_log_in
+from tests.conftest import PASSWORD_HASH, browser_log_in, put_in_force
 from webapp.extensions import db
 
 pytestmark = pytest.mark.browser
@@ -19,7 +17,7 @@ def served(live_server):
     url, app = live_server
     with app.app_context():
         session = db.session
-        lab_settings(session).limit_set = install_preset(session, "euratom2013")
+        put_in_force(session, "euratom2013")
         operator = add_person(session, login="op", name="Ada Operator", roles={Role.OPERATOR},
                               password_hash=PASSWORD_HASH)
         add_person(session, login="rso", name="Rita Safety", roles={Role.SAFETY_OFFICER},

@@ -9,8 +9,7 @@ from datetime import date
 import pytest
 
 from models.core.codes import Location, Quantity
-from models.core.settings import lab_settings
-from models.exposure.limit_set_ops import install_preset
+from tests.conftest import put_in_force
 
 
 def _text(response) -> str:
@@ -19,7 +18,7 @@ def _text(response) -> str:
 
 @pytest.fixture
 def operator(session, make_person):
-    lab_settings(session).limit_set = install_preset(session, "icrp103")
+    put_in_force(session, "icrp103")
     session.commit()
     return make_person("op")
 

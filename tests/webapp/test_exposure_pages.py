@@ -10,10 +10,9 @@ import pytest
 from models.core.codes import Result
 from models.core.settings import lab_settings
 from models.doses.record_ops import amend_dose_record, entry_of
-from models.exposure.limit_set_ops import install_preset
 from models.exposure.tables import PregnancyDeclaration
 from models.people.tables import Role
-from tests.conftest import LAB_TODAY
+from tests.conftest import LAB_TODAY, put_in_force
 
 D = date
 RSO, ADMIN = (Role.SAFETY_OFFICER,), (Role.ADMIN,)
@@ -22,7 +21,7 @@ RSO, ADMIN = (Role.SAFETY_OFFICER,), (Role.ADMIN,)
 @pytest.fixture
 def lab(session, make_person):
     """An operator, a colleague, the safety officer and an admin, under ICRP 103."""
-    lab_settings(session).limit_set = install_preset(session, "icrp103")
+    put_in_force(session, "icrp103")
     session.commit()
     return {"op": make_person("op"), "other": make_person("other"),
             "rso": make_person("rso", roles=RSO), "admin": make_person("admin", roles=ADMIN)}

@@ -214,3 +214,6 @@ def test_10_cfr_20_1208_d_allowance_after_a_late_declaration(app, make_person, m
     assert fetus["dose_msv"] == pytest.approx(4 * monthly + may)
     assert fetus["limit_msv"] == pytest.approx(limit)
     assert fetus["level"] == level
+    # The row cites the clause that set its limit: 20.1208(a), and 20.1208(d) where that raised it.
+    assert "20.1208(a)" in fetus["clause"]
+    assert ("20.1208(d)" in fetus["clause"]) == (limit != 5.0)

@@ -3,7 +3,7 @@ import pytest
 
 from models.core.settings import lab_settings
 from models.people.tables import Role
-from tests.conftest import base_config
+from tests.conftest import LAB_TODAY, base_config
 from webapp import create_app
 from webapp.extensions import db
 
@@ -52,9 +52,9 @@ def test_limits_use_refuses_with_the_field_named(app, args, message):
 
 
 def test_the_default_set_is_the_first_attention_line_until_confirmed(app, make_person, login):
-    from models.exposure.limit_set_ops import install_default
+    from models.exposure.rules_ops import install_default
 
-    install_default(db.session, lab_settings(db.session), "icrp103")
+    install_default(db.session, lab_settings(db.session), "icrp103", LAB_TODAY)
     db.session.commit()
     officer = make_person("rso", roles=(Role.SAFETY_OFFICER,))
     make_person("tom", name="Tom Young", category="trainee")
@@ -67,8 +67,9 @@ def test_the_default_set_is_the_first_attention_line_until_confirmed(app, make_p
     assert any("no effective-dose limit for trainee" in line.text and "Tom Young" in line.text
                for line in lines)
     client = login(officer)
-    client.post("/exposure/limits/choose", data={"limit_set_id": lab_settings(db.session).limit_set_id,
-                                                 "reason": "confirmed for this lab"})
+    confirmed = client.post("/exposure/limits/choose", data={
+        "limit_set_id": lab_settings(db.session).limit_set_id, "reason": "confirmed for this lab"})
+    assert confirmed.status_code == 302
     db.session.expire_all()
     assert lab_settings(db.session).limit_set_by_default is False
     with app.test_request_context():

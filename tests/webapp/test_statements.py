@@ -60,3 +60,19 @@ def test_an_unknown_login_is_named(app, tmp_path):
     result = app.test_cli_runner().invoke(
         args=["reports", "person", "nobody", "--year", "2025", "--out", str(tmp_path / "x.pdf")])
     assert result.exit_code != 0 and "no person with login 'nobody'" in result.output
+
+
+def test_a_past_year_states_the_rules_that_stood_then(app, dosed, tmp_path):
+    changed = app.test_cli_runner().invoke(args=[
+        "limits", "use", "euratom2013", "--from", "2026-06-01", "--reason", "Lab moved to the Directive"])
+    assert changed.exit_code == 0, changed.output
+    policies = app.test_cli_runner().invoke(args=[
+        "limits", "policies", "--mrd", "half", "--from", "2026-06-01", "--reason", "Service advice"])
+    assert policies.exit_code == 0, policies.output
+    out = tmp_path / "ada.pdf"
+    result = app.test_cli_runner().invoke(args=["reports", "person", "ada", "--year", "2025", "--out", str(out)])
+    assert result.exit_code == 0, result.output
+    text = " ".join(_text(out.read_bytes()).split())
+    # 31 December 2025 stood under ICRP 103 with below-MRD results counted as zero.
+    assert "ICRP 103" in text and "Euratom" not in text
+    assert "counts as zero" in text and "half the MRD" not in text

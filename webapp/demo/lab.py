@@ -15,11 +15,13 @@ import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
 from models.checks.tables import CheckItemResult, ItemResult, SafetyCheck
+from models.core.bounds import EARLIEST
 from models.core.codes import Location, Quantity, Result, WorkerCategory
 from models.core.due_dates import add_months, refresher_due
 from models.core.settings import lab_settings
 from models.doses.tables import DoseRecord, DoseSource, Dosimeter, DosimeterKind, Hand
-from models.exposure.limit_set_ops import choose_limit_set, install_preset
+from models.exposure.limit_set_ops import install_preset
+from models.exposure.rules_ops import choose_limit_set
 from models.exposure.tables import PregnancyDeclaration
 from models.incidents.tables import Incident, IncidentNote, IncidentType
 from models.instruments.instrument_ops import mark_commissioned, save_instrument, set_out_of_service
@@ -324,7 +326,8 @@ def _settings(lab: _Lab) -> None:
     settings.timezone = LAB_ZONE
     settings.safety_officer_email = f"{SAFETY_OFFICER}@example.org"
     # The demo's lab has made its choice: a set installed by default is replaced and unflagged.
-    choose_limit_set(lab.session, settings, install_preset(lab.session, LIMIT_PRESET))
+    choose_limit_set(lab.session, settings, install_preset(lab.session, LIMIT_PRESET), from_on=EARLIEST,
+                     reason="The demo lab works under this set.", today=lab.today, by=None)
 
 
 def _people(lab: _Lab) -> None:

@@ -17,8 +17,8 @@ from models.audit.audit_ops import data_version
 from models.audit.tables import AuditEvent
 
 # What a chart is drawn from: the records, the person's category (their limit), the lab's settings
-# (policies, display unit, limit set) and the limit sets themselves.
-CHART_INPUTS = frozenset({"dose_record", "person", "lab_settings", "limit_set", "limit_rule"})
+# (display unit), the rules' history (policies and limit set on the chart's date) and the limit sets.
+CHART_INPUTS = frozenset({"dose_record", "person", "lab_settings", "rule_change", "limit_set", "limit_rule"})
 KEPT = 256
 
 

@@ -6,7 +6,7 @@ from datetime import date
 
 import click
 
-from models.core.codes import LensSource, MrdPolicy, PeriodKind, Proration, Series, code
+from models.core.codes import PeriodKind, Series, code
 from models.core.labels import (
     LENS_LABELS,
     LEVEL_LABELS,
@@ -20,7 +20,8 @@ from models.core.settings import lab_settings
 from models.core.units import from_msv
 from models.exposure.evaluation import person_rows
 from models.exposure.investigation_ops import review_after_dose_change
-from models.exposure.lab_ops import LabEvaluation, evaluate_lab, limit_set_of
+from models.exposure.lab_ops import LabEvaluation, evaluate_lab
+from models.exposure.rules_ops import rules_on
 from models.people.person_ops import find_person
 from webapp.exposure import bp
 from webapp.exposure.notify import tell_about
@@ -65,14 +66,14 @@ def evaluation_rows(lab: LabEvaluation, person_id: int) -> list[dict]:
 
 
 def _header(name: str, login: str, on: date) -> str:
-    """Who, when, and the limit set and counting policies in force."""
-    settings = lab_settings(db.session)
+    """Who, when, and the limit set and counting policies in force on that date."""
+    limit_set, policies = rules_on(db.session, on)
     return "\n".join([
         f"Dose evaluation for {name} ({login}) on {on.isoformat()}",
-        f"Limit set:  {limit_set_of(settings).name}",
-        f"Proration:  {PRORATION_LABELS[Proration(settings.proration)]}",
-        f"MRD policy: {MRD_LABELS[MrdPolicy(settings.mrd_policy)]}",
-        f"Lens:       {LENS_LABELS[LensSource(settings.lens_source)]}",
+        f"Limit set:  {limit_set.name}",
+        f"Proration:  {PRORATION_LABELS[policies.proration]}",
+        f"MRD policy: {MRD_LABELS[policies.mrd]}",
+        f"Lens:       {LENS_LABELS[policies.lens_source]}",
         NOT_OFFICIAL,
         "",
     ])

@@ -1,7 +1,16 @@
 """Forms for limit sets, the counting policies (each change with a reason) and investigations."""
 from __future__ import annotations
 
-from wtforms import FloatField, IntegerField, SelectChoice, SelectField, StringField, SubmitField, TextAreaField
+from wtforms import (
+    DateField,
+    FloatField,
+    IntegerField,
+    SelectChoice,
+    SelectField,
+    StringField,
+    SubmitField,
+    TextAreaField,
+)
 from wtforms.validators import DataRequired, InputRequired, Length, Optional
 
 from models.core.codes import LensSource, LevelKind, MrdPolicy, PeriodKind, Proration, Series, WorkerCategory
@@ -16,6 +25,13 @@ def _reason() -> TextAreaField:
         DataRequired("Say why; the audit trail keeps the reason."), Length(max=500)])
 
 
+def _from_on() -> DateField:
+    """The first lab date a change of the rules applies to (today when left empty)."""
+    return DateField("Applies from", validators=[Optional()],
+                     description="The first day (lab date) these rules apply to; empty for today. "
+                                 "Figures for earlier dates keep the rules that stood then.")
+
+
 class ReasonForm(LogbookForm):
     """Only a reason: removing a rule."""
 
@@ -27,6 +43,7 @@ class ChooseSetForm(LogbookForm):
 
     limit_set_id = SelectField("Limit set in force", coerce=int,
                                validators=[InputRequired("Choose a limit set.")])
+    from_on = _from_on()
     reason = _reason()
 
 
@@ -43,6 +60,7 @@ class PoliciesForm(LogbookForm):
         "First year of the five-year blocks",
         validators=[InputRequired("Enter a year.")],
         description="Blocks run five calendar years from this year (ICRP 'defined periods').")
+    from_on = _from_on()
     reason = _reason()
 
 

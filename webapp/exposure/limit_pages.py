@@ -3,20 +3,14 @@ from __future__ import annotations
 
 import sqlalchemy as sa
 from flask import abort, flash, redirect, render_template, url_for
+from flask_login import current_user
 from wtforms import SelectChoice
 
 from models.audit import audit_ops
 from models.exposure import presets
 from models.exposure.investigation_ops import review_after_dose_change
-from models.exposure.limit_set_ops import (
-    choose_limit_set,
-    copy_limit_set,
-    install_preset,
-    is_editable,
-    remove_rule,
-    save_rule,
-    set_policies,
-)
+from models.exposure.limit_set_ops import copy_limit_set, install_preset, is_editable, remove_rule, save_rule
+from models.exposure.rules_ops import changes_in_force, choose_limit_set, rule_history, set_policies
 from models.exposure.tables import LimitRule, LimitSet
 from models.people.tables import Role
 from webapp.access import roles_required
@@ -64,6 +58,21 @@ def limits():
     return _index()
 
 
+def _change(form) -> dict:
+    """From when, why and by whom a change of the rules is made, from its form."""
+    return {"from_on": form.from_on.data or lab_today(), "reason": form.reason.data, "today": lab_today(),
+            "by": current_user.id}
+
+
+@bp.route("/exposure/limits/history")
+@roles_required(RSO)
+def limits_history():
+    """Every change of the limit set in force and of the counting policies: from when, who, why."""
+    return render_template("exposure/limits_history.html", changes=rule_history(db.session),
+                           in_force={c.id for c in changes_in_force(db.session, lab_today()) if c},
+                           labels=labels)
+
+
 @bp.route("/exposure/limits/choose", methods=["POST"])
 @roles_required(RSO)
 def limits_choose():
@@ -74,15 +83,15 @@ def limits_choose():
     def choose(f):
         """The set must exist and evaluate."""
         chosen = db.session.get(LimitSet, f.limit_set_id.data) if f.limit_set_id.data else None
-        with audit_ops.reason(db.session, f.reason.data):
-            choose_limit_set(db.session, settings(), chosen)
+        choose_limit_set(db.session, settings(), chosen, **_change(f))
         return review_after_dose_change(db.session, lab_today())  # a new set can put someone at a level
 
     if not (chosen := validate_with(form, choose)):
         return _index(choose=form, status=400)
     tell_about(chosen.value)
     db.session.commit()
-    flash(f"'{settings().limit_set.name}' is now the limit set in force.", "info")
+    flash(f"'{db.session.get(LimitSet, form.limit_set_id.data).name}' is the limit set in force from "
+          f"{_change(form)['from_on'].isoformat()}.", "info")
     return redirect(url_for("exposure.limits"))
 
 
@@ -94,16 +103,16 @@ def limits_policies():
 
     def apply(f):
         """Apply the policies (rolled back if anything is wrong)."""
-        with audit_ops.reason(db.session, f.reason.data):
-            set_policies(db.session, settings(), {name: f[name].data for name in (
-                "proration", "mrd_policy", "lens_source", "five_year_first_year")})
+        set_policies(db.session, settings(), {name: f[name].data for name in (
+            "proration", "mrd_policy", "lens_source", "five_year_first_year")}, **_change(f))
         return review_after_dose_change(db.session, lab_today())  # so may a new way of counting
 
     if not (applied := validate_with(form, apply)):
         return _index(policies=form, status=400)
     tell_about(applied.value)
     db.session.commit()
-    flash("Counting policies saved; every figure now follows them.", "info")
+    flash(f"Counting policies saved; every figure from {_change(form)['from_on'].isoformat()} on follows them.",
+          "info")
     return redirect(url_for("exposure.limits"))
 
 

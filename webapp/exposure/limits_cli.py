@@ -7,13 +7,13 @@ import sqlalchemy as sa
 from flask import Flask, current_app
 from flask.cli import with_appcontext
 
-from models.audit import audit_ops
 from models.core.codes import LensSource, MrdPolicy, Proration
 from models.core.errors import Invalid
 from models.core.settings import lab_settings
 from models.exposure import presets
 from models.exposure.investigation_ops import review_after_dose_change
-from models.exposure.limit_set_ops import choose_limit_set, install_default, install_preset, set_policies
+from models.exposure.limit_set_ops import install_preset
+from models.exposure.rules_ops import choose_limit_set, install_default, rules_on, set_policies
 from models.exposure.tables import LimitSet
 from webapp.exposure.notify import tell_about
 from webapp.extensions import db
@@ -23,9 +23,13 @@ from webapp.mail import deliver_queued
 limits = click.Group("limits", help="The limit set in force: list the sets, choose one.")
 
 
+_OPTIONS = {"from_on": "--from", "reason": "--reason"}
+
+
 def _fail(error: Invalid) -> click.ClickException:
-    """A CLI error naming each field."""
-    return click.ClickException("; ".join(f"{field}: {message}" for field, message in error.errors.items()))
+    """A CLI error naming each field (as its option where it has one)."""
+    return click.ClickException("; ".join(f"{_OPTIONS.get(field, field)}: {message}"
+                                          for field, message in error.errors.items()))
 
 
 @limits.command("list")
@@ -50,36 +54,56 @@ def list_sets():
                    "(`flask limits use KEY --reason TEXT` confirms or changes it).")
 
 
-@limits.command("use")
-@click.argument("key")
-@click.option("--reason", required=True, help="Why, for the audit trail.")
-@with_appcontext
-def use(key: str, reason: str):
-    """Put a preset (by key) or a saved set (by name) in force for the whole lab."""
-    if not reason.strip():
-        raise click.ClickException("reason: Give a reason for the audit trail.")
+_FROM = click.option("--from", "from_on", type=click.DateTime(formats=["%Y-%m-%d"]), default=None,
+                     help="First lab date the change applies to, YYYY-MM-DD (default: today in the lab's "
+                          "time zone).")
+_REASON = click.option("--reason", required=True, help="Why, for the audit trail and the rules' history.")
+
+
+def _apply(change):
+    """Record a change of the rules, re-evaluate today and commit: (its result, investigations raised)."""
     try:
-        with audit_ops.reason(db.session, reason.strip()):
-            chosen = db.session.scalar(sa.select(LimitSet).where(LimitSet.name == key))
-            if chosen is None and key in {p.key for p in presets.PRESETS}:
-                chosen = install_preset(db.session, key)
-            if chosen is None:
-                raise Invalid.one("key", f"No preset or saved set is called '{key}'.")
-            choose_limit_set(db.session, lab_settings(db.session), chosen)
+        result = change()
     except Invalid as error:
         db.session.rollback()
         raise _fail(error) from error
-    raised = review_after_dose_change(db.session, lab_today())
+    raised = review_after_dose_change(db.session, lab_today())  # new rules can put someone at a level
     tell_about(raised)
     db.session.commit()
     deliver_queued()
-    click.echo(f"'{chosen.name}' is now the limit set in force; {len(raised)} new investigation(s) raised.")
+    return result, raised
+
+
+@limits.command("use")
+@click.argument("key")
+@_FROM
+@_REASON
+@with_appcontext
+def use(key: str, from_on, reason: str):
+    """Put a preset (by key) or a saved set (by name) in force for the whole lab from a date."""
+    today = lab_today()
+    from_on = from_on.date() if from_on else today
+
+    def choose():
+        chosen = db.session.scalar(sa.select(LimitSet).where(LimitSet.name == key))
+        if chosen is None and key in {p.key for p in presets.PRESETS}:
+            chosen = install_preset(db.session, key)
+        if chosen is None:
+            raise Invalid.one("key", f"No preset or saved set is called '{key}'.")
+        choose_limit_set(db.session, lab_settings(db.session), chosen, from_on=from_on, reason=reason,
+                         today=today, by=None)
+        return chosen
+
+    chosen, raised = _apply(choose)
+    click.echo(f"'{chosen.name}' is the limit set in force from {from_on.isoformat()}; "
+               f"{len(raised)} new investigation(s) raised.")
 
 
 def install_default_limit_set() -> LimitSet | None:
     """Give a database without a limit set the preset named by LIMIT_SET (see config)."""
     try:
-        installed = install_default(db.session, lab_settings(db.session), current_app.config.get("LIMIT_SET"))
+        installed = install_default(db.session, lab_settings(db.session), current_app.config.get("LIMIT_SET"),
+                                    lab_today())
     except Invalid as error:
         db.session.rollback()
         raise click.ClickException(f"LIMIT_SET: {error.errors.get('preset')}") from error
@@ -115,25 +139,18 @@ def install_cli(app: Flask) -> None:
 @click.option("--proration", type=click.Choice([p.value for p in Proration]), default=None)
 @click.option("--mrd", type=click.Choice([m.value for m in MrdPolicy]), default=None)
 @click.option("--lens-source", type=click.Choice([s.value for s in LensSource]), default=None)
-@click.option("--reason", required=True, help="Why, for the audit trail.")
+@_FROM
+@_REASON
 @with_appcontext
-def policies(proration, mrd, lens_source, reason):
-    """Change the counting policies; those not given stay as they are."""
-    if not reason.strip():
-        raise click.ClickException("reason: Give a reason for the audit trail.")
-    settings = lab_settings(db.session)
-    values = {"proration": proration or settings.proration, "mrd_policy": mrd or settings.mrd_policy,
-              "lens_source": lens_source or settings.lens_source,
-              "five_year_first_year": settings.five_year_first_year}
-    try:
-        with audit_ops.reason(db.session, reason.strip()):
-            set_policies(db.session, settings, values)
-    except Invalid as error:
-        db.session.rollback()
-        raise _fail(error) from error
-    raised = review_after_dose_change(db.session, lab_today())
-    tell_about(raised)
-    db.session.commit()
-    deliver_queued()
-    click.echo(f"{len(raised)} new investigation(s) raised. Policies: proration {settings.proration}, MRD {settings.mrd_policy}, "
-               f"lens source {settings.lens_source}.")
+def policies(proration, mrd, lens_source, from_on, reason):
+    """Change the counting policies from a date; those not given stay as they stand on that date."""
+    today = lab_today()
+    from_on = from_on.date() if from_on else today
+    _, before = rules_on(db.session, from_on)
+    values = {"proration": proration or before.proration, "mrd_policy": mrd or before.mrd,
+              "lens_source": lens_source or before.lens_source,
+              "five_year_first_year": before.first_block_year}
+    change, raised = _apply(lambda: set_policies(
+        db.session, lab_settings(db.session), values, from_on=from_on, reason=reason, today=today, by=None))
+    click.echo(f"{len(raised)} new investigation(s) raised. Policies from {from_on.isoformat()}: proration "
+               f"{change.proration}, MRD {change.mrd_policy}, lens source {change.lens_source}.")

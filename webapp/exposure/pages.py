@@ -16,8 +16,9 @@ from models.doses.tables import DoseRecord
 from models.doses.version_ops import record_versions
 from models.exposure.chart import engine_records, fetal_months, monthly_dose
 from models.exposure.evaluation import NO_LIMIT, person_rows
-from models.exposure.lab_ops import cached_lab_evaluation, policies_of, pregnancy_windows
+from models.exposure.lab_ops import cached_lab_evaluation, pregnancy_windows
 from models.exposure.overview import COLUMNS, MAIN_SERIES, OVERVIEW_PERIODS, csv_table, overview_rows, sort_rows
+from models.exposure.rules_ops import rules_on
 from models.people.tables import Person, Role
 from webapp.access import can_see_dose_of, roles_required
 from webapp.exposure import bp, labels
@@ -113,6 +114,7 @@ def person(person_id: int):
     subject = _subject(person_id)
     on, date_problem = _evaluation_date()
     lab = cached_lab_evaluation(db.session, on)
+    _, policies = rules_on(db.session, on)
     rows = person_table(lab, person_id)
     chains = record_versions(db.session, person_id)
     fetal = None
@@ -122,8 +124,7 @@ def person(person_id: int):
                                        lab.evaluation.limit_set.whole_pregnancy)
         ended = None if np.isnat(end[0]) else end[0].astype(date)
         fetal = fetal_months(engine_records([c[0] for c in chains]), on,
-                             policies_of(settings()), start[0].astype(date), ended)
-    lab_settings = settings()
+                             policies, start[0].astype(date), ended)
     return render_template(
         "exposure/page_person.html", subject=subject, on=on, date_problem=date_problem,
         rows=rows, chains=chains, fetal=fetal, fetal_row=fetal_row, labels=labels,
@@ -131,7 +132,7 @@ def person(person_id: int):
         chart_series=_chosen_series(rows),
         at_level=[r for r in rows if r["level"] not in (Level.BELOW_1, NO_LIMIT)],
         projected=[r for r in rows if r["clause"] and r["projected_level"] != r["level"]],
-        lab=lab_settings, limit_set_name=lab.evaluation.limit_set.name,
+        lab=settings(), policies=policies, limit_set_name=lab.evaluation.limit_set.name,
         whole_pregnancy=lab.evaluation.limit_set.whole_pregnancy,
         is_today=on == lab_today(), Series=Series, PeriodKind=PeriodKind)
 
@@ -167,7 +168,7 @@ def _draw_chart(person_id: int, on: date) -> str:
     annual = next((r for r in rows if r["series"] == series and r["period"] == PeriodKind.YEAR),
                   None)
     records = engine_records([c[0] for c in record_versions(db.session, person_id)])
-    data = monthly_dose(records, on, policies_of(settings()), series)
+    data = monthly_dose(records, on, rules_on(db.session, on)[1], series)
     unit, per_msv = _display()
     return monthly_chart_svg(data, annual and annual["limit_msv"], unit, per_msv,
                              f"{capfirst(labels.SERIES[series])}, month by month to {on}")
@@ -212,7 +213,8 @@ def people():
     return render_template("exposure/page_people.html", lines=lines, key=key,
                            descending=descending, columns=COLUMNS, series=MAIN_SERIES,
                            periods=OVERVIEW_PERIODS, labels=labels, on=lab.on,
-                           limit_set_name=lab.evaluation.limit_set.name, lab=settings())
+                           limit_set_name=lab.evaluation.limit_set.name,
+                           policies=rules_on(db.session, lab.on)[1])
 
 
 @bp.route("/exposure/people.csv")

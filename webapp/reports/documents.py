@@ -7,10 +7,10 @@ from models.core.base import utcnow
 from models.core.codes import PeriodKind, Series
 from models.core.due_dates import calibration_due
 from models.core.labels import LENS_LABELS, MRD_LABELS, PRORATION_LABELS
-from models.core.settings import LabSettings
 from models.doses.tables import DoseRecord, DoseSource
 from models.doses.version_ops import record_versions
 from models.exposure.lab_ops import cached_lab_evaluation
+from models.exposure.rules_ops import rules_on
 from models.instruments.tables import KIND_LABELS
 from models.people.tables import Person
 from models.reports.instrument_file_ops import InstrumentFile
@@ -30,10 +30,12 @@ def statement_date(year: int, today: date) -> date:
     return min(date(year, 12, 31), today)
 
 
-def provenance(lab: LabSettings, period: str, limit_set: str, made_at: str, made_by: str) -> Provenance:
-    """The heading block every document carries."""
-    return Provenance(lab.lab_name, period, limit_set,
-                      (PRORATION_LABELS[lab.proration], MRD_LABELS[lab.mrd_policy], LENS_LABELS[lab.lens_source]),
+def provenance(on: date, period: str, made_at: str, made_by: str) -> Provenance:
+    """The heading block every document carries, with the limit set and policies in force on `on`."""
+    limit_set, policies = rules_on(db.session, on)
+    return Provenance(settings().lab_name, period, limit_set.name,
+                      (PRORATION_LABELS[policies.proration], MRD_LABELS[policies.mrd],
+                       LENS_LABELS[policies.lens_source]),
                       made_at, made_by)
 
 
@@ -60,8 +62,7 @@ def person_statement(person: Person, year: int, made_by: str, now_text: str) -> 
     lab = cached_lab_evaluation(db.session, on)
     rows = person_table(lab, person.id)
     doc = Document(f"Annual dose statement {year}: {person.name}",
-                   provenance(settings(), f"Calendar year {year}, figures as on {on}",
-                              lab.evaluation.limit_set.name, now_text, made_by))
+                   provenance(on, f"Calendar year {year}, figures as on {on}", now_text, made_by))
     doc.paragraph(f"Person: {person.name} (login {person.login}), worker category "
                   f"{labels.CATEGORY[person.category]}.")
     doc.section(f"Dose by quantity and period on {on}")
@@ -121,8 +122,7 @@ def _service(periods) -> str:
 def lab_year_document(figures: LabYear, made_by: str, now_text: str) -> bytes:
     """The lab's year in figures, with its charts (PDF)."""
     doc = Document(f"The lab's year {figures.year}",
-                   provenance(settings(), f"Calendar year {figures.year}, dose figures as on {figures.on}",
-                              cached_lab_evaluation(db.session, figures.on).evaluation.limit_set.name,
+                   provenance(figures.on, f"Calendar year {figures.year}, dose figures as on {figures.on}",
                               now_text, made_by))
     doc.section("People monitored")
     doc.rows_table(("Worker category", "People"),
@@ -166,10 +166,9 @@ def _flags(s) -> str:
 def instrument_file_document(record: InstrumentFile, made_by: str, now_text: str) -> bytes:
     """An instrument's file for an inspection (PDF)."""
     i = record.instrument
-    limit_set = cached_lab_evaluation(db.session, statement_date(record.last.year, lab_today()))
     doc = Document(f"Instrument file: {i.name}",
-                   provenance(settings(), f"{record.first} to {record.last}",
-                              limit_set.evaluation.limit_set.name, now_text, made_by))
+                   provenance(statement_date(record.last.year, lab_today()), f"{record.first} to {record.last}",
+                              now_text, made_by))
     doc.section("Ratings and set-up")
     doc.rows_table(("Property", "Value"), [
         ("Kind", KIND_LABELS[i.kind]), ("Room", i.room or "—"), ("Registration", i.registration_number or "—"),
