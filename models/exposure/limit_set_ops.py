@@ -13,7 +13,6 @@ from sqlalchemy.orm import Session
 from models.core.base import taken
 from models.core.codes import LevelKind, PeriodKind, Series, WorkerCategory
 from models.core.errors import Invalid
-from models.core.settings import LabSettings
 from models.exposure import presets
 from models.exposure.tables import LimitRule, LimitSet
 
@@ -139,14 +138,6 @@ def remove_rule(session: Session, limit_set: LimitSet, rule: LimitRule) -> None:
 
 
 DEFAULT_PRESET = "icrp103"
-
-
-def confirm_limit_set(session: Session, settings: LabSettings) -> None:
-    """The safety officer keeps the set installed by default: it is no longer flagged."""
-    if settings.limit_set_id is None:
-        raise Invalid.one("limit_set_id", "No limit set is in force; choose one.")
-    settings.limit_set_by_default = False
-    session.flush()
 
 
 def _level_columns(level: presets.InvestigationLevel | None) -> tuple:

@@ -155,8 +155,8 @@ def limit_set_state() -> list[Attention]:
     if lab_settings.limit_set_by_default:
         lines.append(Attention(
             Severity.LIMIT_SET, f"The limit set in force, {name}, was installed by default when the "
-            "database was created and nobody has confirmed it: confirm it or choose the set that "
-            "applies to this lab.", where, "installed by default"))
+            "database was created and nobody has confirmed it: choose it again to confirm it, or "
+            "choose the set that applies to this lab.", where, "installed by default"))
     people = db.session.execute(sa.select(Person.name, Person.category).where(Person.active)
                                 .order_by(Person.name)).all()
     limit_set = cached_lab_evaluation(db.session, lab_today()).evaluation.limit_set
