@@ -107,6 +107,7 @@ def _check_whole(app, database_url: str) -> None:
     if database_url.startswith("sqlite"):
         with sqlite3.connect(database_url.removeprefix("sqlite:///")) as connection:
             assert connection.execute("PRAGMA integrity_check").fetchall() == [("ok",)]
+            assert connection.execute("PRAGMA journal_mode").fetchone() == ("wal",)  # as the app left it
     else:
         assert db.session.scalar(sa.text("SELECT 1")) == 1
     result = app.test_cli_runner().invoke(args=["audit", "verify"])
