@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import contextlib
 import os
+import re
 import shutil
 import socket
 import threading
@@ -13,6 +14,8 @@ from datetime import UTC, date, datetime, timedelta
 import psycopg
 import pytest
 import sqlalchemy as sa
+from flask import g
+from flask.testing import FlaskClient
 from werkzeug.security import generate_password_hash
 from werkzeug.serving import make_server
 
@@ -222,6 +225,21 @@ def authorise(app):
     return make
 
 
+def csrf_token_of(response) -> str:
+    """The CSRF token in a form page."""
+    return re.search(r'name="csrf_token"[^>]*value="([^"]+)"', response.get_data(as_text=True)).group(1)
+
+
+class PersonClient(FlaskClient):
+    """A test client that forgets what the shared app context's `g` cached for the previous client."""
+
+    def open(self, *args, **kwargs):
+        """Drop the cached user and CSRF token, then request."""
+        g.pop("_login_user", None)
+        g.pop("csrf_token", None)
+        return super().open(*args, **kwargs)
+
+
 @pytest.fixture
 def login(app):
     """Log a fresh client in as a person; several people can act in one test.
@@ -229,17 +247,13 @@ def login(app):
     Test requests share the test's app context, so the login manager's user cached in `g` would
     otherwise carry over from one client to the next.
     """
-    from flask import g
-    from flask.testing import FlaskClient
-
-    class PersonClient(FlaskClient):
-        def open(self, *args, **kwargs):
-            g.pop("_login_user", None)
-            return super().open(*args, **kwargs)
 
     def log_in(person):
         client = PersonClient(app, app.response_class, use_cookies=True)
-        response = client.post("/login", data={"login": person.login, "password": PASSWORD})
+        fields = {"login": person.login, "password": PASSWORD}
+        if app.config["WTF_CSRF_ENABLED"]:
+            fields["csrf_token"] = csrf_token_of(client.get("/login"))
+        response = client.post("/login", data=fields)
         assert response.status_code == 302, "login failed"
         return client
 

@@ -73,9 +73,9 @@ def _unsent_and_free(now: datetime):
                    sa.or_(_table.c.claimed_until.is_(None), _table.c.claimed_until < now))
 
 
-def claim(session: Session, now: datetime, ids: list[int] | None = None, waiting_too: bool = False,
-          skip: frozenset[int] = frozenset(), limit: int = 100) -> list[Outgoing]:
-    """Claim unsent messages for delivery now: these ids, or every one due (or waiting, too)."""
+def claim_next(session: Session, now: datetime, ids: list[int] | None = None, waiting_too: bool = False,
+               skip: frozenset[int] = frozenset()) -> Outgoing | None:
+    """Claim the first unsent message to deliver now (of these ids; or due; or waiting, too), or None."""
     where = _unsent_and_free(now)
     if skip:
         where = sa.and_(where, _table.c.id.not_in(skip))
@@ -83,17 +83,15 @@ def claim(session: Session, now: datetime, ids: list[int] | None = None, waiting
         where = sa.and_(where, _table.c.id.in_(ids))
     elif not waiting_too:
         where = sa.and_(where, _table.c.next_attempt_at <= now)
-    candidates = session.execute(sa.select(_table.c.id, _table.c.recipients, _table.c.subject,
-                                           _table.c.body).where(where).order_by(_table.c.id)
-                                 .limit(limit)).all()
-    claimed = []
-    for row in candidates:
-        # Claiming is a conditional update: only one of two racing senders changes the row.
-        taken = session.execute(_table.update().where(_table.c.id == row.id, _unsent_and_free(now))
-                                .values(claimed_until=now + CLAIM_FOR)).rowcount
-        if taken:
-            claimed.append(Outgoing(row.id, row.recipients.split(", "), row.subject, row.body))
-    return claimed
+    while row := session.execute(sa.select(_table.c.id, _table.c.recipients, _table.c.subject, _table.c.body)
+                                 .where(where).order_by(_table.c.id).limit(1)).first():
+        # Claiming is a conditional update: of two racing senders only one changes the row; the
+        # other moves on to the next message.
+        if session.execute(_table.update().where(_table.c.id == row.id, _unsent_and_free(now))
+                           .values(claimed_until=now + CLAIM_FOR)).rowcount:
+            return Outgoing(row.id, row.recipients.split(", "), row.subject, row.body)
+        where = sa.and_(where, _table.c.id > row.id)
+    return None
 
 
 def mark_sent(session: Session, message_id: int, now: datetime) -> None:

@@ -1,7 +1,7 @@
 """The outbox: queued with the transaction, claimed by one sender only, retried with growing waits."""
 from datetime import UTC, datetime, timedelta
 
-from models.core.outbox import OutboxMessage, claim, mark_failed, mark_sent, queue_message, undelivered
+from models.core.outbox import OutboxMessage, claim_next, mark_failed, mark_sent, queue_message, undelivered
 
 NOW = datetime(2026, 11, 30, 10, 0, tzinfo=UTC)
 
@@ -27,11 +27,11 @@ def test_a_rolled_back_transaction_takes_its_message_with_it(session):
 def test_only_one_sender_claims_a_message(session):
     message_id = queue_message(session, ["rso@example.org"], "Failed check", "Body", NOW)
     session.commit()
-    [first] = claim(session, NOW)
+    first = claim_next(session, NOW)
     assert first.id == message_id and first.to == ["rso@example.org"]
-    assert claim(session, NOW) == []  # a second sender finds it taken
+    assert claim_next(session, NOW) is None  # a second sender finds it taken
     # A claim lapses after five minutes, so a sender that died does not hold the message forever.
-    assert [m.id for m in claim(session, NOW + timedelta(minutes=6))] == [message_id]
+    assert claim_next(session, NOW + timedelta(minutes=6)).id == message_id
 
 
 def test_failures_wait_1_5_15_then_60_minutes_and_a_delivery_ends_it(session):
@@ -43,8 +43,8 @@ def test_failures_wait_1_5_15_then_60_minutes_and_a_delivery_ends_it(session):
         session.expire_all()
         waits.append(session.get(OutboxMessage, message_id).next_attempt_at - NOW)
     assert waits == [timedelta(minutes=m) for m in (1, 5, 15, 60, 60)]
-    assert claim(session, NOW) == []  # not due yet
-    assert [m.id for m in claim(session, NOW, waiting_too=True)] == [message_id]
+    assert claim_next(session, NOW) is None  # not due yet
+    assert claim_next(session, NOW, waiting_too=True).id == message_id
     mark_sent(session, message_id, NOW)
     session.commit()
     assert undelivered(session)[0] == 0

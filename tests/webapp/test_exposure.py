@@ -158,16 +158,6 @@ def crossing(session, make_person, make_dose, use_limit_set):
     return item
 
 
-@pytest.mark.parametrize("role", [Role.OPERATOR, Role.ADMIN])
-def test_investigation_pages_are_for_the_safety_officer_only(make_person, login, crossing, role):
-    client = login(make_person(roles=(role,)))
-    assert client.get("/exposure/investigations/").status_code == 403
-    assert client.get(f"/exposure/investigations/{crossing.id}").status_code == 403
-    response = client.post(f"/exposure/investigations/{crossing.id}", data={"findings": "x"})
-    assert response.status_code == 403
-    assert crossing.findings is None
-
-
 def test_the_person_concerned_cannot_open_their_own_investigation(session, login, crossing):
     assert login(crossing.person).get(f"/exposure/investigations/{crossing.id}").status_code == 403
 

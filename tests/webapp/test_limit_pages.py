@@ -33,19 +33,6 @@ def _year_rule(limit_set) -> LimitRule:
                 if (r.category, r.series, r.period) == ("adult_worker", "effective", "year"))
 
 
-@pytest.mark.parametrize("roles", [(Role.ADMIN,), (Role.OPERATOR,)])
-def test_only_the_safety_officer_reaches_the_limit_pages(make_person, login, session, roles):
-    preset = install_preset(session, "icrp103")
-    session.commit()
-    client = login(make_person(roles=roles))
-    assert client.get("/exposure/limits/").status_code == 403
-    assert client.get(f"/exposure/limits/{preset.id}").status_code == 403
-    assert client.post("/exposure/limits/install/euratom2013").status_code == 403
-    assert client.post("/exposure/limits/choose", data={"limit_set_id": preset.id,
-                                                        "reason": "x"}).status_code == 403
-    assert lab_settings(session).limit_set_id is None
-
-
 def test_install_show_and_choose_a_preset(rso, session):
     assert "UK IRR17 Schedule 3" in rso.get("/exposure/limits/").data.decode()
     response = rso.post("/exposure/limits/install/icrp103")

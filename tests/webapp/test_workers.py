@@ -21,6 +21,8 @@ from bench.server import gunicorn
 from models.people.tables import Role
 from tests.conftest import PASSWORD, free_port
 
+pytestmark = pytest.mark.slow
+
 ROUNDS = 25  # rounds of parallel requests before giving up on reaching both workers
 ON = "2025-06-30"
 

@@ -12,10 +12,7 @@ from webapp.mail.sender import deliver
               help="Also retry messages still waiting for their next try (after fixing the mail settings).")
 def send_pending(waiting_too: bool):
     """Send every queued message that is due; exit 1 when any could not be sent (it is retried later)."""
-    sent = failed = 0
-    tried: frozenset[int] = frozenset()
-    while batch := deliver(waiting_too=waiting_too, skip=tried):  # each message is tried once a run
-        sent, failed, tried = sent + batch.sent, failed + batch.failed, tried | batch.tried
-    click.echo(f"Sent {sent}; not sent {failed} (kept for the next run).")
-    if failed:
+    delivery = deliver(waiting_too=waiting_too)
+    click.echo(f"Sent {delivery.sent}; not sent {delivery.failed} (kept for the next run).")
+    if delivery.failed:
         raise SystemExit(1)

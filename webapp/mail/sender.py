@@ -9,7 +9,7 @@ from flask import current_app, g
 from sqlalchemy.orm import Session
 
 from models.core.base import utcnow
-from models.core.outbox import Outgoing, claim, mark_failed, mark_sent
+from models.core.outbox import Outgoing, claim_next, mark_failed, mark_sent
 from webapp.extensions import db
 from webapp.mail import bp
 
@@ -20,7 +20,6 @@ class Delivery:
 
     sent: int = 0
     failed: int = 0
-    tried: frozenset[int] = frozenset()
 
     def __bool__(self) -> bool:
         """True when anything was tried."""
@@ -45,17 +44,23 @@ def _smtp_send(message: Outgoing) -> None:
         smtp.send_message(email)
 
 
-def deliver(ids: list[int] | None = None, waiting_too: bool = False,
-            skip: frozenset[int] = frozenset()) -> Delivery:
+def deliver(ids: list[int] | None = None, waiting_too: bool = False) -> Delivery:
     """Send these queued messages (or every due one, or every unsent one), each marked sent or failed.
 
-    Runs in its own session, so it never commits anything of the caller's.
+    Each message is claimed just before it is sent, never a batch ahead: a claim lapses after
+    `CLAIM_FOR`, and a message waiting its turn behind slow deliveries would otherwise be claimed
+    and sent by another sender too. Each message is tried once a run. Runs in its own session, so
+    it never commits anything of the caller's.
     """
     sent = failed = 0
+    tried: set[int] = set()
     with Session(db.engine) as session:
-        with session.begin():
-            messages = claim(session, utcnow(), ids, waiting_too, skip)
-        for message in messages:
+        while True:
+            with session.begin():
+                message = claim_next(session, utcnow(), ids, waiting_too, frozenset(tried))
+            if message is None:
+                return Delivery(sent, failed)
+            tried.add(message.id)
             try:
                 _smtp_send(message)
             except (OSError, smtplib.SMTPException) as error:
@@ -67,7 +72,6 @@ def deliver(ids: list[int] | None = None, waiting_too: bool = False,
             sent += 1
             with session.begin():
                 mark_sent(session, message.id, utcnow())
-    return Delivery(sent, failed, frozenset(m.id for m in messages))
 
 
 def deliver_queued() -> Delivery:
