@@ -133,6 +133,7 @@ ROUTE_AUDIENCE: dict[str, Audience] = {
     "exposure.limits": _A.SAFETY_OFFICER,
     "exposure.limits_choose": _A.SAFETY_OFFICER,
     "exposure.limits_copy": _A.SAFETY_OFFICER,
+    "exposure.limits_history": _A.SAFETY_OFFICER,
     "exposure.limits_install": _A.SAFETY_OFFICER,
     "exposure.limits_policies": _A.SAFETY_OFFICER,
     "exposure.people": _A.SAFETY_OFFICER,
