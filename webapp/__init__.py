@@ -9,6 +9,7 @@ from flask_wtf.csrf import CSRFError
 from sqlalchemy import event
 from sqlalchemy.orm import Session
 from werkzeug.exceptions import HTTPException
+from werkzeug.middleware.proxy_fix import ProxyFix
 from werkzeug.routing import IntegerConverter
 
 import migrations
@@ -60,6 +61,9 @@ def create_app(overrides: dict | None = None) -> Flask:
     app.config.update(config.from_environment(app.instance_path))
     app.config.update(overrides or {})
     use_key(app.config["AUDIT_KEY"])
+    if app.config["PROXY_HOPS"]:
+        hops = app.config["PROXY_HOPS"]
+        app.wsgi_app = ProxyFix(app.wsgi_app, x_for=hops, x_proto=hops)
 
     db.init_app(app)
     migrate.init_app(app, db, directory=os.path.dirname(migrations.__file__),

@@ -55,6 +55,9 @@ def from_environment(instance_path: str) -> dict:
         "SESSION_COOKIE_SECURE": _flag("SESSION_COOKIE_SECURE"),
         # The preset a new database gets on `flask db upgrade`, marked as installed by default.
         "LIMIT_SET": os.environ.get("LIMIT_SET", "icrp103"),
+        # Reverse proxies in front of the app whose X-Forwarded-For/-Proto to believe (0: none), so
+        # login throttling counts the client's address, not the proxy's.
+        "PROXY_HOPS": int(os.environ.get("PROXY_HOPS", "0")),
     }
 
 

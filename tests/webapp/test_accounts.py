@@ -200,6 +200,23 @@ class TestThrottle:
         assert statuses == [200] * 10 + [429]
 
 
+class TestBehindAProxy:
+    @pytest.fixture
+    def app_config(self):
+        return {"RATELIMIT_ENABLED": True, "PROXY_HOPS": 1}
+
+    def test_each_client_behind_the_proxy_has_its_own_count(self, client):
+        def attempt(n: int, address: str) -> int:
+            return client.post("/login", data={"login": f"nobody{n}", "password": "guess"},
+                               environ_base={"REMOTE_ADDR": "127.0.0.1"},
+                               headers={"X-Forwarded-For": address}).status_code
+        # 10 a minute per address (different logins, so the per-account count stays low).
+        first = [attempt(n, "10.0.0.1") for n in range(11)]
+        assert first == [200] * 10 + [429]
+        # Another client through the same proxy is not held to the first one's count.
+        assert attempt(11, "10.0.0.2") == 200
+
+
 _WORKER = """
 import sys
 from tests.conftest import base_config
