@@ -91,8 +91,8 @@ class ImportStaging(IdMixin, Base):
 
     Working state, not a record: written outside the ORM a chunk at a time, read only by the import
     that staged it and deleted when it publishes; a run abandoned half-way (a killed process, a refusal
-    at publish) is removed by a later import. No foreign keys: the publish checks people and
-    dosimeters are still there, and a staged row must never hold up anything else.
+    at publish) is removed by a later import. No foreign keys and no CHECKs: the publish checks that
+    people and dosimeters are still there, and dose_record's own CHECKs see every value as it goes in.
     """
 
     __tablename__ = "import_staging"
@@ -104,12 +104,12 @@ class ImportStaging(IdMixin, Base):
     dosimeter_id: Mapped[int | None]
     wear_start: Mapped[date]
     wear_end: Mapped[date]
-    quantity: Mapped[Quantity] = mapped_column(enum_column(Quantity))
-    location: Mapped[Location] = mapped_column(enum_column(Location))
+    quantity: Mapped[Quantity] = mapped_column(enum_column(Quantity, checked=False))
+    location: Mapped[Location] = mapped_column(enum_column(Location, checked=False))
     value_msv: Mapped[float | None]
-    result: Mapped[Result] = mapped_column(enum_column(Result))
+    result: Mapped[Result] = mapped_column(enum_column(Result, checked=False))
     mrd_msv: Mapped[float | None]
-    source: Mapped[DoseSource] = mapped_column(enum_column(DoseSource))
+    source: Mapped[DoseSource] = mapped_column(enum_column(DoseSource, checked=False))
     basis: Mapped[str | None] = mapped_column(sa.Text)
     entered_unit: Mapped[str] = mapped_column(sa.String(8))
 
