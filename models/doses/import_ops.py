@@ -568,7 +568,8 @@ def _refuse_changed_since(session: Session, preview: Preview, run: str) -> None:
         errors.setdefault(line, {})[DUPLICATE] = duplicate_message(record_id)
     for line, record_id, start, end, quantity in session.execute(
             sa.select(staged.c.line, DoseRecord.id, DoseRecord.wear_start, DoseRecord.wear_end, staged.c.quantity)
-            .join(DoseRecord, overlapping).where(staged.c.run == run, is_current())):
+            .join(DoseRecord, overlapping)
+            .where(staged.c.run == run, staged.c.dosimeter_id.is_not(None), is_current())):
         errors.setdefault(line, {}).setdefault("wear_start", (
             f"This dosimeter already has a {quantity.value} result for {start} to {end} (record "
             f"#{record_id}), which overlaps this wear period: correct that record instead."))
