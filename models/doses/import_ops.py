@@ -2,8 +2,11 @@
 
 The same checks serve the browser and `flask doses import`. The file is read a chunk at a time;
 look-ups (people, dosimeters, the current records' keys) are one query per chunk, never per row.
-Rows are written with one executemany per chunk and recorded in the audit trail by one event for
-the whole batch (the file's SHA-256, the row count and a digest over the rows in order).
+Checked chunks wait in the staging table, each written in a short transaction of its own, so other
+writers are not held up while a large file is checked. `_publish` then adds them all in one short
+step under the write lock: what another writer may have changed meanwhile is checked again in SQL,
+the rows go in by one INSERT ... SELECT, and the audit trail records the batch by one event (the
+file's SHA-256, the row count and a digest over the rows in order).
 """
 from __future__ import annotations
 
