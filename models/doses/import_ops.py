@@ -28,7 +28,7 @@ import sqlalchemy as sa
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, joinedload
 
-from models.audit.audit_ops import RowsDigest, append_events, bulk_columns, bulk_event
+from models.audit.audit_ops import RowsDigest, append_events, bulk_columns, bulk_event, row_snapshot
 from models.core.base import taken, utcnow
 from models.core.bounds import DATE_MESSAGE, date_in_range
 from models.core.codes import Location, Quantity, Result
@@ -526,16 +526,16 @@ class _Stage:
 def _publish(session: Session, preview: Preview, stage: _Stage) -> ImportBatch:
     """Add the staged rows as the batch's dose records: the one place an import's rows are published.
 
-    One short step under the write lock, in the caller's transaction: what another writer may have
-    changed since the rows were checked is checked again in SQL (Refused when it did), then the batch,
-    one INSERT ... SELECT from the staging table in file order, the batch's audit event, and the
-    staged rows removed.
+    In the caller's transaction: the batch's row and one INSERT ... SELECT from the staging table in
+    file order; then, under the write lock, what another writer may have changed since the rows were
+    checked is checked again in SQL (Refused when it did), the batch's audit events are appended and
+    the staged rows removed. On SQLite the first insert takes the lock already; on PostgreSQL the
+    rows stay unseen by others until the commit, so other writers wait only for the last steps.
     """
-    hold_write_lock(session)
-    _refuse_changed_since(session, preview, stage.run)
-    batch = _new_batch(session, preview, preview.row_count, stage.constants["created_by_id"])
+    _refuse(preview, _gone(session, stage.run))
+    batch_id = _insert_batch(session, preview, stage.constants["created_by_id"])
     table, staged = DoseRecord.__table__, stage.table
-    constants = {"import_batch_id": batch.id, "created_by_id": batch.imported_by_id,
+    constants = {"import_batch_id": batch_id, "created_by_id": stage.constants["created_by_id"],
                  "created_at": stage.staged_at, "version": 1}
     added = session.connection().execute(sa.insert(table).from_select(
         [*_STAGED, *constants],
@@ -545,16 +545,41 @@ def _publish(session: Session, preview: Preview, stage: _Stage) -> ImportBatch:
     if added.rowcount != preview.row_count:  # a run staged for over STALE_AFTER was removed meanwhile
         raise Invalid.one("file", "The import took too long and its checked rows were cleared; "
                                   "nothing was imported. Import the file again.")
-    event = bulk_event(table, "import_batch_id", batch.id, stage.digest(batch.id), file_sha256=preview.sha256)
-    append_events(session.connection(), [event], session.info.get("actor_id"), session.info.get("audit_reason"))
+    hold_write_lock(session)
+    _refuse(preview, _repeated(session, stage.run, batch_id))
+    batches = ImportBatch.__table__
+    created = {"entity": batches.name, "entity_id": batch_id, "action": "create", "before": None,
+               "after": row_snapshot(session.connection().execute(
+                   sa.select(batches).where(batches.c.id == batch_id)).one())}
+    event = bulk_event(table, "import_batch_id", batch_id, stage.digest(batch_id), file_sha256=preview.sha256)
+    append_events(session.connection(), [created, event], session.info.get("actor_id"),
+                  session.info.get("audit_reason"))
     session.connection().execute(sa.delete(staged).where(staged.c.run == stage.run))
-    return batch
+    return session.get(ImportBatch, batch_id)
 
 
-def _refuse_changed_since(session: Session, preview: Preview, run: str) -> None:
-    """Refuse the run when a staged row now repeats or overlaps a current record, or its wearer or
-    dosimeter is gone: set-based, one query each, the first problems kept as the preview shows them."""
+def _refuse(preview: Preview, errors: dict[int, dict[str, str]]) -> None:
+    """Refuse the whole file when any line has an error, keeping the first as the preview shows them."""
+    if errors:
+        preview.bad_count = len(errors)
+        preview.bad_rows = [Row(line, {}, errors=errors[line]) for line in sorted(errors)[:SHOWN]]
+        raise Refused(preview)
+
+
+def _gone(session: Session, run: str) -> dict[int, dict[str, str]]:
+    """Errors of the staged rows whose wearer or dosimeter is no longer on file, by line."""
     staged = ImportStaging.__table__
+    gone = sa.or_(~sa.exists().where(Person.id == staged.c.person_id),
+                  sa.and_(staged.c.dosimeter_id.is_not(None), ~sa.exists().where(Dosimeter.id == staged.c.dosimeter_id)))
+    return {line: {"person": "The wearer or the dosimeter is no longer on file."}
+            for (line,) in session.execute(sa.select(staged.c.line).where(staged.c.run == run, gone))}
+
+
+def _repeated(session: Session, run: str, batch_id: int) -> dict[int, dict[str, str]]:
+    """Errors of the staged rows that repeat a current record, or overlap one of its dosimeter's,
+    other than the batch's own, by line: set-based, one query each."""
+    staged = ImportStaging.__table__
+    others = sa.and_(is_current(), sa.or_(DoseRecord.import_batch_id.is_(None), DoseRecord.import_batch_id != batch_id))
     same_key = sa.and_(DoseRecord.person_id == staged.c.person_id, DoseRecord.wear_start == staged.c.wear_start,
                        DoseRecord.wear_end == staged.c.wear_end, DoseRecord.quantity == staged.c.quantity,
                        DoseRecord.location == staged.c.location)
@@ -566,37 +591,28 @@ def _refuse_changed_since(session: Session, preview: Preview, run: str) -> None:
                           DoseRecord.wear_start <= staged.c.wear_end, staged.c.wear_start <= DoseRecord.wear_end)
     errors: dict[int, dict[str, str]] = {}
     for line, record_id in session.execute(
-            sa.select(staged.c.line, DoseRecord.id).join(DoseRecord, same_key)
-            .where(staged.c.run == run, is_current())):
+            sa.select(staged.c.line, DoseRecord.id).join(DoseRecord, same_key).where(staged.c.run == run, others)):
         errors.setdefault(line, {})[DUPLICATE] = duplicate_message(record_id)
     for line, record_id, start, end, quantity in session.execute(
             sa.select(staged.c.line, DoseRecord.id, DoseRecord.wear_start, DoseRecord.wear_end, staged.c.quantity)
             .join(DoseRecord, overlapping)
-            .where(staged.c.run == run, staged.c.dosimeter_id.is_not(None), is_current())):
+            .where(staged.c.run == run, staged.c.dosimeter_id.is_not(None), others)):
         errors.setdefault(line, {}).setdefault("wear_start", (
             f"This dosimeter already has a {quantity.value} result for {start} to {end} (record "
             f"#{record_id}), which overlaps this wear period: correct that record instead."))
-    gone = sa.or_(~sa.exists().where(Person.id == staged.c.person_id),
-                  sa.and_(staged.c.dosimeter_id.is_not(None), ~sa.exists().where(Dosimeter.id == staged.c.dosimeter_id)))
-    for (line,) in session.execute(sa.select(staged.c.line).where(staged.c.run == run, gone)):
-        errors.setdefault(line, {})["person"] = "The wearer or the dosimeter is no longer on file."
-    if errors:
-        preview.bad_count = len(errors)
-        preview.bad_rows = [Row(line, {}, errors=errors[line]) for line in sorted(errors)[:SHOWN]]
-        raise Refused(preview)
+    return errors
 
 
-def _new_batch(session: Session, preview: Preview, rows: int, imported_by_id: int | None) -> ImportBatch:
-    """The batch the rows are added under; refused when the same file went in a moment ago."""
-    batch = ImportBatch(filename=preview.filename, sha256=preview.sha256, mapping_name=preview.layout.name,
-                        row_count=rows, imported_by_id=imported_by_id)
-    session.add(batch)
+def _insert_batch(session: Session, preview: Preview, imported_by_id: int | None) -> int:
+    """The batch's row, written without the ORM so that it waits for no lock (its audit event goes
+    in with the rows'); refused when the same file went in a moment ago."""
     try:
-        session.flush()
+        return session.connection().execute(sa.insert(ImportBatch.__table__).values(
+            filename=preview.filename, sha256=preview.sha256, mapping_name=preview.layout.name,
+            row_count=preview.row_count, imported_by_id=imported_by_id, imported_at=utcnow())).inserted_primary_key[0]
     except IntegrityError as error:
         raise Invalid.one("file", "This file has just been imported by someone else; nothing "
                                   "was added.") from error
-    return batch
 
 
 def commit_report(session: Session, preview: Preview, *, imported_by_id: int | None = None) -> ImportBatch | None:

@@ -135,3 +135,24 @@ def test_rows_left_by_an_abandoned_run_are_removed_by_a_later_import(session, an
     session.commit()
     assert session.scalars(sa.select(staged.c.run)).all() == ["running"]
     assert count(DoseRecord) == 1
+
+
+def test_on_postgresql_a_record_added_while_the_rows_go_in_is_still_caught(session, ann, monkeypatch):
+    """PostgreSQL: the rows go in before the lock (unseen by others until the commit), so another
+    writer can commit meanwhile; the check under the lock sees what it wrote."""
+    if session.connection().dialect.name != "postgresql":
+        pytest.skip("on SQLite the rows' insert takes the write lock: nobody else writes meanwhile")
+    take_lock = import_ops.hold_write_lock
+
+    def add_then_lock(this_session):
+        with impatient_session() as other:
+            _record(other, date(2026, 4, 1), date(2026, 4, 30))  # line 5 (April)
+            other.commit()
+        take_lock(this_session)
+
+    monkeypatch.setattr(import_ops, "hold_write_lock", add_then_lock)
+    with pytest.raises(Refused, match="1 of 6 rows have errors") as refused:
+        import_report(session, report(ROWS), PRODUCT_LAYOUT, "r.csv")
+    assert [r.line for r in refused.value.preview.bad_rows] == [5]
+    session.rollback()
+    assert count(DoseRecord) == 1 and count(ImportBatch) == 0
