@@ -176,7 +176,8 @@ def import_lines(path: str, n_rows: int, n_people: int, databases: list[str]) ->
     yield Line("import: peak resident memory of the process", f"{figures.peak_mb:,.0f} MB",
                f"< {imports.PEAK_MB_TARGET} MB", f"{figures.peak_mb / imports.PEAK_MB_TARGET:.2f}")
     yield Line("import time / raw executemany of the same rows", f"{figures.seconds:.2f} s",
-               f"<= {imports.RAW_RATIO_TARGET:g} x raw", f"{figures.seconds / figures.raw_seconds:.2f}")
+               f"<= {imports.RAW_RATIO_TARGET:g} x raw",
+               f"{figures.seconds / figures.raw_seconds / imports.RAW_RATIO_TARGET:.2f}")
     wait_rows = min(imports.WAIT_ROWS, n_rows)
     for database in databases:
         longest, _count = imports.writer_wait(database, wait_rows)
