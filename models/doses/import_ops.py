@@ -4,8 +4,8 @@ The same checks serve the browser and `flask doses import`. The file is read a c
 look-ups (people, dosimeters, the current records' keys) are one query per chunk, never per row.
 Checked chunks wait in the staging table, each written in a short transaction of its own, so other
 writers are not held up while a large file is checked. `_publish` then adds them all in one short
-step under the write lock: what another writer may have changed meanwhile is checked again in SQL,
-the rows go in by one INSERT ... SELECT, and the audit trail records the batch by one event (the
+step: the rows go in by one INSERT ... SELECT, what another writer may have changed meanwhile is
+checked again in SQL under the write lock, and the audit trail records the batch by one event (the
 file's SHA-256, the row count and a digest over the rows in order).
 """
 from __future__ import annotations
@@ -424,7 +424,7 @@ def import_report(session: Session, data: bytes, layout: Layout, filename: str, 
     Nothing is added when the same file was imported before (`preview.earlier`). When any row has
     an error, raises Refused after checking every row. The rows are checked and staged without the
     write lock, a chunk per short transaction, so other writers go on meanwhile; then `_publish`
-    adds them all in one short step under the lock, in the caller's transaction (committed by it).
+    adds them all in one short step, in the caller's transaction (committed by it).
     """
     preview = Preview(filename, hashlib.sha256(data).hexdigest(), layout, data)
     preview.earlier = session.scalar(
