@@ -1,14 +1,19 @@
-"""Import of a dosimetry report at size: rows per second and peak memory, beside a raw executemany.
+"""Import of a dosimetry report at size: rows per second and peak memory, beside a raw executemany;
+and how long another writer waits while a report of the largest size accepted goes in.
 
 The timing runs in a child process (`python -m bench.imports DB CSV`) so its peak resident memory
-is the import's own and not the bench's.
+is the import's own and not the bench's. `python -m bench.imports --writer-wait sqlite|postgresql`
+runs the waiting writer's part alone.
 """
 from __future__ import annotations
 
 import json
+import multiprocessing
 import os
 import subprocess
 import sys
+import tempfile
+import threading
 import time
 from dataclasses import dataclass
 from datetime import date
@@ -18,6 +23,11 @@ from dateutil.relativedelta import relativedelta
 ROWS_PER_S_TARGET = 25_000
 PEAK_MB_TARGET = 300
 RAW_RATIO_TARGET = 2.0
+WRITER_WAIT_TARGET_S = 1.0
+# The largest report the app accepts (MAX_ROWS), over this many people.
+WAIT_ROWS, WAIT_PEOPLE = 50_000, 100
+# The other writer's pause between its transactions.
+WRITER_PAUSE_S = 0.02
 HEADER = "person,dosimeter,wear_start,wear_end,quantity,location,value,unit,result,mrd\n"
 # Wear periods well before the synthetic lab's years, so no row repeats a record on file.
 FIRST_MONTH = date(1980, 1, 1)
@@ -73,6 +83,7 @@ def _child(db_path: str, csv_path: str) -> ImportFigures:
     """Check and add the report as `flask doses import` does, then time a raw executemany."""
     import sqlalchemy as sa
 
+    from models.doses import import_ops
     from models.doses.import_ops import PRODUCT_LAYOUT, import_report
     from models.doses.tables import DoseRecord
     from webapp import create_app
@@ -82,6 +93,8 @@ def _child(db_path: str, csv_path: str) -> ImportFigures:
                       "WTF_CSRF_ENABLED": False, "RATELIMIT_ENABLED": False, "MAIL_SERVER": ""})
     with app.app_context(), open(csv_path, "rb") as report:
         data = report.read()
+        # The bench's size (100,000 rows by default) is above the limit the app sets for one file.
+        import_ops.MAX_ROWS = max(import_ops.MAX_ROWS, data.count(b"\n"))
         started = time.perf_counter()
         preview = import_report(db.session, data, PRODUCT_LAYOUT, os.path.basename(csv_path))
         db.session.commit()
@@ -100,6 +113,107 @@ def _child(db_path: str, csv_path: str) -> ImportFigures:
     return ImportFigures(preview.row_count, seconds, peak_mb, raw_seconds)
 
 
+def writer_wait(database: str, n_rows: int = WAIT_ROWS) -> tuple[float, int]:
+    """The longest a concurrent writer waited for one transaction while a report of `n_rows` was
+    imported into a fresh `database` ('sqlite' or 'postgresql'), and how many transactions it made.
+
+    The writer is a process of its own (so the import's Python work does not hold it up), adding
+    a person through the ORM (audited, so it needs the write lock) every WRITER_PAUSE_S.
+    """
+    from bench.server import SECRET_KEY, fresh_database
+    from models.people.person_ops import add_person
+    from models.people.tables import Role
+    from webapp import create_app
+    from webapp.extensions import db
+
+    logins = [f"wearer{i:03d}" for i in range(WAIT_PEOPLE)]
+    with tempfile.TemporaryDirectory(prefix="bench-import-") as directory, \
+            fresh_database(database, directory) as url:
+        app = create_app({"SQLALCHEMY_DATABASE_URI": url, "SECRET_KEY": SECRET_KEY, "MAIL_SERVER": ""})
+        with app.app_context():
+            for login in logins:
+                add_person(db.session, login=login, name=login, email=f"{login}@example.org",
+                           roles={Role.OPERATOR}, password_hash="!")
+            db.session.commit()
+            context = multiprocessing.get_context("spawn")
+            stop, answer = context.Event(), context.Queue()
+            writer = context.Process(target=_writer, args=(url, stop, answer))
+            writer.start()
+            _answer(answer)  # the writer is ready: its app is built and it has written once
+            done = threading.Event()
+            threading.Thread(target=_import_then_set, args=(app, report_bytes(logins, n_rows), done)).start()
+            done.wait()
+            stop.set()
+            longest, count = _answer(answer)
+            writer.join()
+            db.engine.dispose()
+    return longest, count
+
+
+def _answer(answer) -> tuple[float, int]:
+    """The writer's next message; its error, raised here, when it failed."""
+    message = answer.get(timeout=600)
+    if isinstance(message, str):
+        raise RuntimeError(f"the concurrent writer failed: {message}")
+    return message
+
+
+def _import_then_set(app, data: bytes, done: threading.Event) -> None:
+    """Import and commit the report, as `flask doses import` does, then say so."""
+    from models.doses.import_ops import PRODUCT_LAYOUT, import_report
+    from webapp.extensions import db
+
+    try:
+        with app.app_context():
+            import_report(db.session, data, PRODUCT_LAYOUT, "wait.csv")
+            db.session.commit()
+    finally:
+        done.set()
+
+
+def _writer(url: str, stop, answer) -> None:
+    """Add a person every WRITER_PAUSE_S until told to stop; send the longest transaction's time."""
+    from bench.server import SECRET_KEY
+    from webapp import create_app
+    from webapp.extensions import db
+
+    app = create_app({"SQLALCHEMY_DATABASE_URI": url, "SECRET_KEY": SECRET_KEY, "MAIL_SERVER": ""})
+    with app.app_context():
+        try:
+            _write_until(stop, answer)
+        except Exception as error:  # noqa: BLE001 (any failure is the bench's answer)
+            answer.put(repr(error))
+        db.engine.dispose()
+
+
+def _write_until(stop, answer) -> None:
+    """The writer's loop (see _writer)."""
+    from models.people.person_ops import add_person
+    from models.people.tables import Role
+    from webapp.extensions import db
+
+    longest, count = 0.0, 0
+    while True:
+        started = time.perf_counter()
+        add_person(db.session, login=f"other{count}", name=f"Other {count}", email=f"other{count}@example.org",
+                   roles={Role.OPERATOR}, password_hash="!")
+        db.session.commit()
+        if count:  # the first transaction only warms up (connection, caches) and says "ready"
+            longest = max(longest, time.perf_counter() - started)
+        else:
+            answer.put((0.0, 0))
+        count += 1
+        if stop.is_set():
+            break
+        time.sleep(WRITER_PAUSE_S)
+    answer.put((longest, count))
+
+
 if __name__ == "__main__":
-    figures = _child(sys.argv[1], sys.argv[2])
-    print(json.dumps(figures.__dict__))
+    if sys.argv[1] == "--writer-wait":
+        longest_s, transactions = writer_wait(sys.argv[2])
+        print(f"{sys.argv[2]}: the longest wait of another writer during a {WAIT_ROWS:,}-row import: "
+              f"{1000 * longest_s:,.0f} ms ({transactions} transactions; target < {WRITER_WAIT_TARGET_S:g} s)")
+    else:
+        figures = _child(sys.argv[1], sys.argv[2])
+        print(json.dumps(figures.__dict__))

@@ -8,7 +8,7 @@ from models.core import database  # noqa: F401  (connection pragmas)
 from models.core.base import Base
 from models.core.outbox import OutboxMessage
 from models.core.settings import LabSettings
-from models.doses.tables import DoseRecord, Dosimeter, ImportBatch, ImportMapping
+from models.doses.tables import DoseRecord, Dosimeter, ImportBatch, ImportMapping, ImportStaging
 from models.due.tables import ReminderSent
 from models.exposure.tables import Investigation, LimitRule, LimitSet, PregnancyDeclaration, RuleChange
 from models.incidents.tables import Incident, IncidentNote
@@ -19,7 +19,7 @@ from models.surveys.tables import BypassPermit, Survey, SurveyMeter, SurveyPoint
 
 __all__ = [
     "ApiToken", "AuditEvent", "Authorisation", "Base", "BypassPermit", "CheckItemResult",
-    "ChecklistItem", "ChecklistTemplate", "Dosimeter", "DoseRecord", "ImportBatch",
+    "ChecklistItem", "ChecklistTemplate", "Dosimeter", "DoseRecord", "ImportBatch", "ImportStaging",
     "ImportMapping", "Incident", "IncidentNote", "Instrument", "InstrumentSession",
     "Investigation", "LabSettings", "LimitRule", "LimitSet", "OutboxMessage", "Person", "PersonRole",
     "PregnancyDeclaration", "ReminderSent", "RuleChange", "SafetyCheck", "Survey", "SurveyMeter", "SurveyPoint",

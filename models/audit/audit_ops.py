@@ -116,14 +116,21 @@ class RowsDigest:
         self._secrets = [c for c in self.columns if c.endswith(REDACTED_SUFFIX)]
         self._encode = json.JSONEncoder(separators=(",", ":"), default=_plain_or_text).encode
 
-    def add(self, values: dict[str, Any]) -> None:
-        """Feed one row (column -> value, stored or about to be stored)."""
+    def line(self, values: dict[str, Any]) -> bytes:
+        """One row (column -> value, stored or about to be stored) as the digest reads it."""
         if self._secrets:
             values = {**values, **{c: _column_value(c, values.get(c)) for c in self._secrets}}
         # JSON writes text, numbers and None itself (a StrEnum as its value); the rest via _plain.
-        self._sha.update(self._encode([values.get(c) for c in self.columns]).encode())
-        self._sha.update(b"\n")
-        self.count += 1
+        return self._encode([values.get(c) for c in self.columns]).encode() + b"\n"
+
+    def add(self, values: dict[str, Any]) -> None:
+        """Feed one row (column -> value, stored or about to be stored)."""
+        self.add_lines(self.line(values), 1)
+
+    def add_lines(self, lines: bytes, count: int) -> None:
+        """Feed `count` rows already turned into lines by `line`, in order."""
+        self._sha.update(lines)
+        self.count += count
 
     def hexdigest(self) -> str:
         """The digest so far."""

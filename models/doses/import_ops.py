@@ -2,8 +2,11 @@
 
 The same checks serve the browser and `flask doses import`. The file is read a chunk at a time;
 look-ups (people, dosimeters, the current records' keys) are one query per chunk, never per row.
-Rows are written with one executemany per chunk and recorded in the audit trail by one event for
-the whole batch (the file's SHA-256, the row count and a digest over the rows in order).
+Checked chunks wait in the staging table, each written in a short transaction of its own, so other
+writers are not held up while a large file is checked. `_publish` then adds them all in one short
+step: the rows go in by one INSERT ... SELECT, what another writer may have changed meanwhile is
+checked again in SQL under the write lock, and the audit trail records the batch by one event (the
+file's SHA-256, the row count and a digest over the rows in order).
 """
 from __future__ import annotations
 
@@ -13,17 +16,19 @@ import gc
 import hashlib
 import io
 import itertools
+import json
 import math
+import uuid
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
-from datetime import date, datetime
+from datetime import date, datetime, timedelta
 
 import sqlalchemy as sa
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, joinedload
 
-from models.audit.audit_ops import RowsDigest, append_events, bulk_columns, bulk_event
+from models.audit.audit_ops import RowsDigest, append_events, bulk_columns, bulk_event, row_snapshot
 from models.core.base import taken, utcnow
 from models.core.bounds import DATE_MESSAGE, date_in_range
 from models.core.codes import Location, Quantity, Result
@@ -41,7 +46,8 @@ from models.doses.record_ops import (
     record_values,
     unit_of,
 )
-from models.doses.tables import DoseRecord, Dosimeter, ImportBatch, ImportMapping
+from models.doses.tables import DoseRecord, Dosimeter, ImportBatch, ImportMapping, ImportStaging
+from models.doses.version_ops import is_current
 from models.people.tables import Person
 
 # The logbook's fields, in the order of the product's own CSV layout.
@@ -413,34 +419,33 @@ class Refused(Invalid):
 
 def import_report(session: Session, data: bytes, layout: Layout, filename: str, *,
                   imported_by_id: int | None = None) -> Preview:
-    """Check and add a whole report in one pass, chunk by chunk; `preview.batch` is what was added.
+    """Check and add a whole report, chunk by chunk; `preview.batch` is what was added.
 
     Nothing is added when the same file was imported before (`preview.earlier`). When any row has
-    an error, raises Refused after checking every row; the caller rolls back what was written.
-    Each chunk is checked and written under the database's write lock, so a record added by
-    someone else cannot slip in between a row's check and its write.
+    an error, raises Refused after checking every row. The rows are checked and staged without the
+    write lock, a chunk per short transaction, so other writers go on meanwhile; then `_publish`
+    adds them all in one short step, in the caller's transaction (committed by it).
     """
-    hold_write_lock(session)
     preview = Preview(filename, hashlib.sha256(data).hexdigest(), layout, data)
     preview.earlier = session.scalar(
         sa.select(ImportBatch).where(ImportBatch.sha256 == preview.sha256).order_by(ImportBatch.id))
     if preview.earlier is not None:
         return preview
+    stage = _Stage(session, imported_by_id)
     try:
-        batch = _new_batch(session, preview, _count_rows(data), imported_by_id)
-        writer = _Writer(session, batch)
         with _no_cycle_collection():
             for chunk in _chunks(data, layout, _Checker(session, layout)):
                 preview.keep(chunk)
                 if not preview.bad_count:
-                    writer.write(chunk)
+                    stage.write(chunk)
     except Invalid as error:
+        stage.discard()
         preview.file_errors = list(error.errors.values())
         raise Refused(preview) from error
     if preview.bad_count or not preview.row_count:
+        stage.discard()
         raise Refused(preview)
-    writer.finish(preview.sha256)
-    preview.batch = batch
+    preview.batch = _publish(session, preview, stage)
     return preview
 
 
@@ -457,49 +462,157 @@ def _no_cycle_collection() -> Iterator[None]:
             gc.enable()
 
 
-def _count_rows(data: bytes) -> int:
-    """The report's non-blank rows, counted before any is written (the batch records how many)."""
-    return sum(1 for _ in _reader(data)[1])
+# Stands for the batch id in the rows' digest lines until the batch exists (see _Stage.digest).
+_BATCH_ID = "\0batch"
+_BATCH_ID_JSON = json.dumps(_BATCH_ID).encode()
+# The columns of a dose record that the file decides; the rest are the batch's (_Stage.constants).
+_STAGED = ("person_id", "dosimeter_id", "wear_start", "wear_end", "quantity", "location", "value_msv",
+           "result", "mrd_msv", "source", "basis", "entered_unit")
+# A run staged longer ago than this was abandoned (an import takes seconds): a later import removes it.
+STALE_AFTER = timedelta(hours=1)
 
 
-def _new_batch(session: Session, preview: Preview, rows: int, imported_by_id: int | None) -> ImportBatch:
-    """The batch the rows are added under; refused when the same file went in a moment ago."""
-    batch = ImportBatch(filename=preview.filename, sha256=preview.sha256, mapping_name=preview.layout.name,
-                        row_count=rows, imported_by_id=imported_by_id)
-    session.add(batch)
+class _Stage:
+    """One import's checked rows, waiting in the staging table until they are published.
+
+    Each chunk is written in a short transaction of its own (on another connection), so the write
+    lock is held for milliseconds at a time. When the caller's SQLite transaction has already
+    written, it holds the lock anyway and the rows are staged in it instead (waiting for ourselves
+    would never end). The digest lines of the rows are kept (about 200 bytes a row) with a stand-in
+    for the batch id, which only the publish knows.
+    """
+
+    def __init__(self, session: Session, imported_by_id: int | None) -> None:
+        self.session, self.run, self.staged_at = session, uuid.uuid4().hex, utcnow()
+        self.table = ImportStaging.__table__
+        self.constants = {"import_batch_id": _BATCH_ID, "created_by_id": imported_by_id,
+                          "created_at": self.staged_at, "supersedes_id": None, "version": 1, "reason": None,
+                          "incident_id": None}
+        self.columns = bulk_columns(DoseRecord.__table__)
+        self.lines: list[tuple[bytes, int]] = []
+        connection = session.connection()
+        self.in_callers = (connection.dialect.name == "sqlite"
+                           and connection.connection.driver_connection.in_transaction)
+        self._execute(sa.delete(self.table).where(self.table.c.staged_at < self.staged_at - STALE_AFTER))
+
+    def _execute(self, statement: sa.Executable, params: list[dict] | None = None) -> None:
+        """Run one statement in a short transaction of its own (or in the caller's, see above)."""
+        if self.in_callers:
+            self.session.connection().execute(statement, params)
+            return
+        with self.session.connection().engine.begin() as connection:
+            connection.execute(statement, params)
+
+    def write(self, rows: list[Row]) -> None:
+        """Stage one chunk of checked rows, in file order."""
+        staged = [record_values(r.entry, run=self.run, staged_at=self.staged_at, line=r.line) for r in rows]
+        line = RowsDigest(self.columns).line
+        self.lines.append((b"".join([line({**values, **self.constants}) for values in staged]), len(staged)))
+        self._execute(sa.insert(self.table), staged)
+
+    def digest(self, batch_id: int) -> RowsDigest:
+        """The digest over the staged rows as the batch stores them, in file order."""
+        digest = RowsDigest(self.columns)
+        number = str(batch_id).encode()
+        for lines, count in self.lines:
+            digest.add_lines(lines.replace(_BATCH_ID_JSON, number), count)
+        return digest
+
+    def discard(self) -> None:
+        """Remove this run's staged rows (a refused import)."""
+        self._execute(sa.delete(self.table).where(self.table.c.run == self.run))
+
+
+def _publish(session: Session, preview: Preview, stage: _Stage) -> ImportBatch:
+    """Add the staged rows as the batch's dose records: the one place an import's rows are published.
+
+    In the caller's transaction: the batch's row and one INSERT ... SELECT from the staging table in
+    file order; then, under the write lock, what another writer may have changed since the rows were
+    checked is checked again in SQL (Refused when it did), the batch's audit events are appended and
+    the staged rows removed. On SQLite the first insert takes the lock already; on PostgreSQL the
+    rows stay unseen by others until the commit, so other writers wait only for the last steps.
+    """
+    _refuse(preview, _gone(session, stage.run))
+    batch_id = _insert_batch(session, preview, stage.constants["created_by_id"])
+    table, staged = DoseRecord.__table__, stage.table
+    constants = {"import_batch_id": batch_id, "created_by_id": stage.constants["created_by_id"],
+                 "created_at": stage.staged_at, "version": 1}
+    added = session.connection().execute(sa.insert(table).from_select(
+        [*_STAGED, *constants],
+        sa.select(*(staged.c[c] for c in _STAGED),
+                  *(sa.literal(v, table.c[k].type).label(k) for k, v in constants.items()))
+        .where(staged.c.run == stage.run).order_by(staged.c.line)).execution_options(preserve_rowcount=True))
+    if added.rowcount != preview.row_count:  # a run staged for over STALE_AFTER was removed meanwhile
+        raise Invalid.one("file", "The import took too long and its checked rows were cleared; "
+                                  "nothing was imported. Import the file again.")
+    hold_write_lock(session)
+    _refuse(preview, _repeated(session, stage.run, batch_id))
+    batches = ImportBatch.__table__
+    created = {"entity": batches.name, "entity_id": batch_id, "action": "create", "before": None,
+               "after": row_snapshot(session.connection().execute(
+                   sa.select(batches).where(batches.c.id == batch_id)).one())}
+    event = bulk_event(table, "import_batch_id", batch_id, stage.digest(batch_id), file_sha256=preview.sha256)
+    append_events(session.connection(), [created, event], session.info.get("actor_id"),
+                  session.info.get("audit_reason"))
+    session.connection().execute(sa.delete(staged).where(staged.c.run == stage.run))
+    return session.get(ImportBatch, batch_id)
+
+
+def _refuse(preview: Preview, errors: dict[int, dict[str, str]]) -> None:
+    """Refuse the whole file when any line has an error, keeping the first as the preview shows them."""
+    if errors:
+        preview.bad_count = len(errors)
+        preview.bad_rows = [Row(line, {}, errors=errors[line]) for line in sorted(errors)[:SHOWN]]
+        raise Refused(preview)
+
+
+def _gone(session: Session, run: str) -> dict[int, dict[str, str]]:
+    """Errors of the staged rows whose wearer or dosimeter is no longer on file, by line."""
+    staged = ImportStaging.__table__
+    gone = sa.or_(~sa.exists().where(Person.id == staged.c.person_id),
+                  sa.and_(staged.c.dosimeter_id.is_not(None), ~sa.exists().where(Dosimeter.id == staged.c.dosimeter_id)))
+    return {line: {"person": "The wearer or the dosimeter is no longer on file."}
+            for (line,) in session.execute(sa.select(staged.c.line).where(staged.c.run == run, gone))}
+
+
+def _repeated(session: Session, run: str, batch_id: int) -> dict[int, dict[str, str]]:
+    """Errors of the staged rows that repeat a current record, or overlap one of its dosimeter's,
+    other than the batch's own, by line: set-based, one query each."""
+    staged = ImportStaging.__table__
+    others = sa.and_(is_current(), sa.or_(DoseRecord.import_batch_id.is_(None), DoseRecord.import_batch_id != batch_id))
+    same_key = sa.and_(DoseRecord.person_id == staged.c.person_id, DoseRecord.wear_start == staged.c.wear_start,
+                       DoseRecord.wear_end == staged.c.wear_end, DoseRecord.quantity == staged.c.quantity,
+                       DoseRecord.location == staged.c.location)
+    # A record with a dosimeter is always its wearer's (entry_errors), so the person narrows the
+    # search to the (person, wear start) index without losing an overlap.
+    overlapping = sa.and_(DoseRecord.person_id == staged.c.person_id,
+                          DoseRecord.dosimeter_id == staged.c.dosimeter_id,
+                          DoseRecord.quantity == staged.c.quantity,
+                          DoseRecord.wear_start <= staged.c.wear_end, staged.c.wear_start <= DoseRecord.wear_end)
+    errors: dict[int, dict[str, str]] = {}
+    for line, record_id in session.execute(
+            sa.select(staged.c.line, DoseRecord.id).join(DoseRecord, same_key).where(staged.c.run == run, others)):
+        errors.setdefault(line, {})[DUPLICATE] = duplicate_message(record_id)
+    for line, record_id, start, end, quantity in session.execute(
+            sa.select(staged.c.line, DoseRecord.id, DoseRecord.wear_start, DoseRecord.wear_end, staged.c.quantity)
+            .join(DoseRecord, overlapping)
+            .where(staged.c.run == run, staged.c.dosimeter_id.is_not(None), others)):
+        errors.setdefault(line, {}).setdefault("wear_start", (
+            f"This dosimeter already has a {quantity.value} result for {start} to {end} (record "
+            f"#{record_id}), which overlaps this wear period: correct that record instead."))
+    return errors
+
+
+def _insert_batch(session: Session, preview: Preview, imported_by_id: int | None) -> int:
+    """The batch's row, written without the ORM so that it waits for no lock (its audit event goes
+    in with the rows'); refused when the same file went in a moment ago."""
     try:
-        session.flush()
+        return session.connection().execute(sa.insert(ImportBatch.__table__).values(
+            filename=preview.filename, sha256=preview.sha256, mapping_name=preview.layout.name,
+            row_count=preview.row_count, imported_by_id=imported_by_id, imported_at=utcnow())).inserted_primary_key[0]
     except IntegrityError as error:
         raise Invalid.one("file", "This file has just been imported by someone else; nothing "
                                   "was added.") from error
-    return batch
-
-
-class _Writer:
-    """Writes checked chunks with one executemany each and records the batch as one audit event."""
-
-    def __init__(self, session: Session, batch: ImportBatch) -> None:
-        self.session, self.batch = session, batch
-        self.table = DoseRecord.__table__
-        self.digest = RowsDigest(bulk_columns(self.table))
-        self.extra = {"import_batch_id": batch.id, "created_by_id": batch.imported_by_id,
-                      "created_at": utcnow(), "supersedes_id": None, "version": 1, "reason": None,
-                      "incident_id": None}
-
-    def write(self, rows: list[Row]) -> None:
-        """Add one chunk of checked rows."""
-        values = [record_values(r.entry, **self.extra) for r in rows]
-        for row in values:
-            self.digest.add(row)
-        self.session.connection().execute(sa.insert(self.table), values)
-
-    def finish(self, file_sha256: str) -> None:
-        """Append the batch's audit event: the file's hash, the row count and the rows' digest."""
-        if self.digest.count != self.batch.row_count:
-            raise Invalid.one("file", "The file changed while it was read; nothing was imported.")
-        event = bulk_event(self.table, "import_batch_id", self.batch.id, self.digest, file_sha256=file_sha256)
-        append_events(self.session.connection(), [event], self.session.info.get("actor_id"),
-                      self.session.info.get("audit_reason"))
 
 
 def commit_report(session: Session, preview: Preview, *, imported_by_id: int | None = None) -> ImportBatch | None:

@@ -86,6 +86,39 @@ class ImportBatch(IdMixin, Base):
     imported_at: Mapped[datetime] = mapped_column(default=utcnow)
 
 
+class ImportStaging(IdMixin, Base):
+    """A checked row of an import in progress, waiting to be published with the rest of its file.
+
+    Working state, not a record: written outside the ORM a chunk at a time, read only by the import
+    that staged it and deleted when it publishes; a run abandoned half-way (a killed process, a refusal
+    at publish) is removed by a later import. No foreign keys and no CHECKs: the publish checks that
+    people and dosimeters are still there, and dose_record's own CHECKs see every value as it goes in.
+    """
+
+    __tablename__ = "import_staging"
+
+    run: Mapped[str] = mapped_column(sa.String(32))
+    staged_at: Mapped[datetime]
+    line: Mapped[int]
+    person_id: Mapped[int]
+    dosimeter_id: Mapped[int | None]
+    wear_start: Mapped[date]
+    wear_end: Mapped[date]
+    quantity: Mapped[Quantity] = mapped_column(enum_column(Quantity, checked=False))
+    location: Mapped[Location] = mapped_column(enum_column(Location, checked=False))
+    value_msv: Mapped[float | None]
+    result: Mapped[Result] = mapped_column(enum_column(Result, checked=False))
+    mrd_msv: Mapped[float | None]
+    source: Mapped[DoseSource] = mapped_column(enum_column(DoseSource, checked=False))
+    basis: Mapped[str | None] = mapped_column(sa.Text)
+    entered_unit: Mapped[str] = mapped_column(sa.String(8))
+
+    __table_args__ = (
+        sa.Index("ix_import_staging_run_line", "run", "line"),
+        {"info": {"audit_rows": False}},
+    )
+
+
 class ImportMapping(IdMixin, Base):
     """A saved mapping from a dosimetry service's CSV columns to the logbook's fields."""
 

@@ -87,6 +87,7 @@ def test_the_quick_command_prints_every_line(tmp_path, capsys):
                   "bare JSON endpoint", "home page, warm p50", "home page, first after a dose change",
                   "exposure page, warm p95", "sessions list, newest page of 3,000",
                   "import of 2,000 rows", "peak resident memory", "raw executemany",
+                  "another writer's longest wait, 2,000-row import, sqlite",
                   "8 API loggers, sqlite: latency p99", "double bookings"):
         assert label in text, label
 
