@@ -1,13 +1,13 @@
 """import staging: checked rows of an import wait outside the write lock and are published in one short step
 
 Revision ID: 0033
-Revises: 0030
+Revises: 0031
 """
 import sqlalchemy as sa
 from alembic import op
 
 revision = "0033"
-down_revision = "0030"
+down_revision = "0031"
 branch_labels = None
 depends_on = None
 
