@@ -26,6 +26,7 @@ from sqlalchemy.orm import Session, joinedload
 from models.audit.audit_ops import RowsDigest, append_events, bulk_columns, bulk_event
 from models.core.base import taken, utcnow
 from models.core.bounds import DATE_MESSAGE, date_in_range
+from models.core.changes import mark_dose_inputs_changed
 from models.core.codes import Location, Quantity, Result
 from models.core.database import hold_write_lock
 from models.core.errors import Invalid
@@ -492,6 +493,7 @@ class _Writer:
         for row in values:
             self.digest.add(row)
         self.session.connection().execute(sa.insert(self.table), values)
+        mark_dose_inputs_changed(self.session, {row["person_id"] for row in values})
 
     def finish(self, file_sha256: str) -> None:
         """Append the batch's audit event: the file's hash, the row count and the rows' digest."""

@@ -10,7 +10,7 @@ Arrays are (P, S, T) like DoseTotals.dose. Decisions:
 - A person with a pregnancy window also gets the declared_pregnant rules; where two rules cover
   one row, the lower limit wins.
 """
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -96,6 +96,12 @@ def evaluate(totals: DoseTotals, limit_set: LimitSetSpec, categories) -> Evaluat
     rule = rule_index(limit_set, categories.astype(np.int64), pregnant)
     thresholds = np.array([r.thresholds() for r in limit_set.rules] + [(np.nan,) * 3])
     level1, level2, limit = (thresholds[:, i][rule] for i in range(3))
+    return graded(totals, limit_set, rule, level1, level2, limit)
+
+
+def graded(totals: DoseTotals, limit_set: LimitSetSpec, rule: np.ndarray, level1: np.ndarray,
+           level2: np.ndarray, limit: np.ndarray) -> Evaluation:
+    """The evaluation of doses against the thresholds already chosen for each row."""
     dose = totals.dose
     projected = dose / totals.windows.elapsed_fraction[:, None, :]
     return Evaluation(
@@ -125,11 +131,8 @@ def with_declaration_allowance(evaluation: Evaluation, before: np.ndarray, allow
     if not near.any():
         return evaluation
     limit[near, s, t] = np.maximum(limit[near, s, t], before[near] + allowance_msv)
-    dose, projected = evaluation.totals.dose, evaluation.projected
-    return replace(
-        evaluation, limit=limit, fraction=dose / limit, remaining=np.maximum(limit - dose, 0.0),
-        level=level_codes(dose, evaluation.level1, evaluation.level2, limit),
-        projected_level=level_codes(projected, evaluation.level1, evaluation.level2, limit))
+    return graded(evaluation.totals, evaluation.limit_set, evaluation.rule, evaluation.level1,
+                  evaluation.level2, limit)
 
 
 def person_rows(evaluation: Evaluation, person: int) -> list[dict]:

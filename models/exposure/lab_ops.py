@@ -3,17 +3,17 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import date, timedelta
+from enum import StrEnum
 
 import numpy as np
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
-from models.core.codes import PeriodKind, Series, code
+from models.core.codes import Location, PeriodKind, Quantity, Result, Series, code
 from models.core.settings import LabSettings, lab_settings
 from models.doses.tables import DoseRecord
 from models.doses.version_ops import is_current
 from models.exposure import presets
-from models.exposure.cache import UntilChanged
 from models.exposure.engine import DoseRecords, DoseTotals, Policies, compute_doses, person_index
 from models.exposure.evaluation import Evaluation, evaluate, with_declaration_allowance
 from models.exposure.limit_set_ops import as_rules
@@ -40,15 +40,22 @@ def _record_columns(as_stored: bool = False) -> sa.Select:
     )).where(is_current())
 
 
-def read_records(session: Session, people: np.ndarray) -> DoseRecords:
-    """Every record in force as engine columns, people given as positions in `people`."""
+def read_records(session: Session, people: np.ndarray, person_ids: np.ndarray | None = None) -> DoseRecords:
+    """The records in force as engine columns, people given as positions in `people`.
+
+    person_ids: only these people's records (by the indexed person column); None reads everyone's
+    through the lean full read.
+    """
     session.flush()  # Core execution below does not autoflush
+    if person_ids is None:
+        return _read_everyone(session, people)
     # Core rows: the ORM's per-row loading costs more than the query itself at 100,000s of rows.
-    rows = session.connection().execute(_record_columns(as_stored=True)).all()
+    rows = session.connection().execute(_record_columns(as_stored=True).where(
+        DoseRecord.person_id.in_(np.asarray(person_ids).tolist()))).all()
     columns = list(zip(*rows)) if rows else [()] * 8
-    person_ids, quantity, location, start, end, value, result, mrd = columns
+    ids, quantity, location, start, end, value, result, mrd = columns
     return DoseRecords(
-        person=person_index(np.asarray(person_ids, dtype=np.int64), people),
+        person=person_index(np.asarray(ids, dtype=np.int64), people),
         quantity=np.asarray(quantity, dtype=str),
         location=np.asarray(location, dtype=str),
         wear_start=np.asarray(start, dtype="datetime64[D]"),
@@ -57,6 +64,50 @@ def read_records(session: Session, people: np.ndarray) -> DoseRecords:
         result=np.asarray(result, dtype=str),
         mrd=np.asarray(mrd, dtype=float),
     )
+
+
+# One row of the lean read: what the engine needs as numbers, and the version link.
+_LEAN_ROW = np.dtype([("id", "i8"), ("supersedes", "i8"), ("person", "i8"), ("quantity", "i1"),
+                      ("location", "i1"), ("start", "i8"), ("end", "i8"), ("value", "f8"),
+                      ("result", "i1"), ("mrd", "f8")])
+# Days since 1970-01-01, counted by the database so that dates arrive as integers.
+_DAY_NUMBER = {"sqlite": "CAST(julianday({}) - 2440587.5 AS INTEGER)",
+               "postgresql": "({} - DATE '1970-01-01')"}
+
+
+def _as_code(column: str, cls: type[StrEnum]) -> str:
+    """SQL giving a stored enum value's integer code, -1 for a value the code does not know."""
+    whens = " ".join(f"WHEN '{member.value}' THEN {i}" for i, member in enumerate(cls))
+    return f"CASE {column} {whens} ELSE -1 END"
+
+
+def _lean_sql(dialect: str) -> str:
+    """Every dose record as numbers, with no subquery: the version links are resolved in numpy."""
+    day = _DAY_NUMBER[dialect]
+    return (f"SELECT id, COALESCE(supersedes_id, 0), person_id, {_as_code('quantity', Quantity)}, "
+            f"{_as_code('location', Location)}, {day.format('wear_start')}, {day.format('wear_end')}, "
+            f"value_msv, {_as_code('result', Result)}, mrd_msv FROM dose_record")
+
+
+def _read_everyone(session: Session, people: np.ndarray) -> DoseRecords:
+    """Every record in force, read through a plain cursor straight into arrays.
+
+    A correction points to the version it replaces (supersedes_id, unique and indexed), so the
+    records in force are those no row points to: one scan, no NOT EXISTS per row.
+    """
+    connection = session.connection()
+    cursor = connection.connection.cursor()
+    try:
+        cursor.execute(_lean_sql(connection.dialect.name))
+        rows = np.array(cursor.fetchall(), dtype=_LEAN_ROW)  # NULL values become NaN
+    finally:
+        cursor.close()
+    rows = rows[~np.isin(rows["id"], rows["supersedes"][rows["supersedes"] > 0])]
+    return DoseRecords(
+        person=person_index(rows["person"], people),
+        quantity=rows["quantity"], location=rows["location"],
+        wear_start=rows["start"].astype("datetime64[D]"), wear_end=rows["end"].astype("datetime64[D]"),
+        value=rows["value"], result=rows["result"], mrd=rows["mrd"])
 
 
 # From memory (obstetric common practice): a pregnancy lasts about 38 weeks from conception.
@@ -151,31 +202,25 @@ class LabEvaluation:
         return int(person_index(np.array([person_id]), self.person_ids)[0])
 
 
-def evaluate_lab(session: Session, on: date) -> LabEvaluation:
-    """Read the records in force and evaluate everyone on `on` with the lab's policies and limits."""
+def evaluate_lab(session: Session, on: date, person_ids=None) -> LabEvaluation:
+    """Read the records in force and evaluate everyone (or only `person_ids`) on `on` with the
+    lab's policies and limits."""
     settings = lab_settings(session)
-    everyone = session.execute(sa.select(Person.id, Person.category).order_by(Person.id)).all()
-    people, categories = zip(*everyone) if everyone else ((), ())
-    person_ids = np.asarray(people, dtype=np.int64)
-    records = read_records(session, person_ids)
+    query = sa.select(Person.id, Person.category).order_by(Person.id)
+    if person_ids is not None:
+        query = query.where(Person.id.in_(np.asarray(person_ids).tolist()))
+    chosen = session.execute(query).all()
+    people, categories = zip(*chosen) if chosen else ((), ())
+    person_ids = None if person_ids is None else np.asarray(people, dtype=np.int64)
+    people = np.asarray(people, dtype=np.int64)
+    records = read_records(session, people, person_ids)
     limit_set, policies = limit_set_of(settings), policies_of(settings)
-    start, end = pregnancy_windows(session, person_ids, on, limit_set.whole_pregnancy)
-    totals = compute_doses(records, len(person_ids), on, policies, start, end)
+    start, end = pregnancy_windows(session, people, on, limit_set.whole_pregnancy)
+    totals = compute_doses(records, len(people), on, policies, start, end)
     evaluation = evaluate(totals, limit_set,
                           np.asarray([str(c) for c in categories], dtype=str))
     if limit_set.whole_pregnancy and totals.windows.exists[:, code(PeriodKind.PREGNANCY)].any():
-        declared = declaration_dates(session, person_ids, on)
-        before = fetal_dose_before(records, len(person_ids), on, policies, start, declared)
+        declared = declaration_dates(session, people, on)
+        before = fetal_dose_before(records, len(people), on, policies, start, declared)
         evaluation = with_declaration_allowance(evaluation, before, presets.DECLARATION_ALLOWANCE_MSV)
-    return LabEvaluation(on, person_ids, evaluation)
-
-
-# Everything the evaluation reads: the records, declarations, people's categories, policies, limits.
-EVALUATION_INPUTS = frozenset({"dose_record", "pregnancy_declaration", "person", "lab_settings",
-                               "limit_set", "limit_rule"})
-_evaluations: UntilChanged[LabEvaluation] = UntilChanged(EVALUATION_INPUTS)
-
-
-def cached_lab_evaluation(session: Session, on: date) -> LabEvaluation:
-    """The lab's evaluation, recomputed only when one of its inputs was written or the date changed."""
-    return _evaluations.get(session, on, lambda: evaluate_lab(session, on))
+    return LabEvaluation(on, people, evaluation)

@@ -108,3 +108,21 @@ class LimitRule(IdMixin, Base):
         sa.CheckConstraint("level1_value IS NULL OR level1_value > 0", name="level1_positive"),
         sa.CheckConstraint("level2_value IS NULL OR level2_value > 0", name="level2_positive"),
     )
+
+
+class ExposureFigures(Base):
+    """One person's evaluation on the lab's current date, stored so every server process shares it.
+
+    Derived from the dose inputs and rewritten with them in the same transaction
+    (`models/exposure/figures_ops.py`), outside the ORM, so the audit's row check leaves it out.
+    """
+
+    __tablename__ = "exposure_figures"
+    __table_args__ = {"info": {"audited": False, "audit_rows": False}}
+
+    person_id: Mapped[int] = mapped_column(sa.ForeignKey("person.id"), primary_key=True, autoincrement=False)
+    evaluated_on: Mapped[date]
+    # A digest of the policies and limit set the figures were evaluated with.
+    rules: Mapped[str] = mapped_column(sa.String(64))
+    # The person's slice of every evaluation array, in the fixed layout figures_ops.LAYOUT.
+    figures: Mapped[bytes] = mapped_column(sa.LargeBinary)

@@ -10,7 +10,7 @@ from models.core.labels import LENS_LABELS, MRD_LABELS, PRORATION_LABELS
 from models.core.settings import LabSettings
 from models.doses.tables import DoseRecord, DoseSource
 from models.doses.version_ops import record_versions
-from models.exposure.lab_ops import cached_lab_evaluation
+from models.exposure.figures_ops import lab_evaluation
 from models.instruments.tables import KIND_LABELS
 from models.people.tables import Person
 from models.reports.instrument_file_ops import InstrumentFile
@@ -57,7 +57,7 @@ def _record_row(record: DoseRecord, current: bool) -> list:
 def person_statement(person: Person, year: int, made_by: str, now_text: str) -> bytes:
     """The annual dose statement: figures as on the exposure page, every record and version."""
     on = statement_date(year, lab_today())
-    lab = cached_lab_evaluation(db.session, on)
+    lab = lab_evaluation(db.session, on)
     rows = person_table(lab, person.id)
     doc = Document(f"Annual dose statement {year}: {person.name}",
                    provenance(settings(), f"Calendar year {year}, figures as on {on}",
@@ -107,7 +107,7 @@ def made_now() -> str:
 def year_figures(year: int) -> LabYear:
     """The lab's year, dose figures as on 31 December or today."""
     on = statement_date(year, lab_today())
-    return lab_year(db.session, year, cached_lab_evaluation(db.session, on), lab_zone())
+    return lab_year(db.session, year, lab_evaluation(db.session, on), lab_zone())
 
 
 def _range(values: tuple[float, float] | None) -> str:
@@ -122,7 +122,7 @@ def lab_year_document(figures: LabYear, made_by: str, now_text: str) -> bytes:
     """The lab's year in figures, with its charts (PDF)."""
     doc = Document(f"The lab's year {figures.year}",
                    provenance(settings(), f"Calendar year {figures.year}, dose figures as on {figures.on}",
-                              cached_lab_evaluation(db.session, figures.on).evaluation.limit_set.name,
+                              lab_evaluation(db.session, figures.on).evaluation.limit_set.name,
                               now_text, made_by))
     doc.section("People monitored")
     doc.rows_table(("Worker category", "People"),
@@ -166,7 +166,7 @@ def _flags(s) -> str:
 def instrument_file_document(record: InstrumentFile, made_by: str, now_text: str) -> bytes:
     """An instrument's file for an inspection (PDF)."""
     i = record.instrument
-    limit_set = cached_lab_evaluation(db.session, statement_date(record.last.year, lab_today()))
+    limit_set = lab_evaluation(db.session, statement_date(record.last.year, lab_today()))
     doc = Document(f"Instrument file: {i.name}",
                    provenance(settings(), f"{record.first} to {record.last}",
                               limit_set.evaluation.limit_set.name, now_text, made_by))

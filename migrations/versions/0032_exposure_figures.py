@@ -1,0 +1,29 @@
+"""exposure_figures: each person's evaluation for the current date, shared by every server process
+
+Revision ID: 0032
+Revises: 0030
+"""
+import sqlalchemy as sa
+from alembic import op
+
+revision = "0032"
+down_revision = "0030"
+branch_labels = None
+depends_on = None
+
+
+def upgrade():
+    # Starts empty: the first reader (or `flask exposure refresh`) evaluates everyone and fills it.
+    op.create_table(
+        "exposure_figures",
+        sa.Column("person_id", sa.Integer(), autoincrement=False, nullable=False),
+        sa.Column("evaluated_on", sa.Date(), nullable=False),
+        sa.Column("rules", sa.String(length=64), nullable=False),
+        sa.Column("figures", sa.LargeBinary(), nullable=False),
+        sa.ForeignKeyConstraint(["person_id"], ["person.id"], name=op.f("fk_exposure_figures_person_id_person")),
+        sa.PrimaryKeyConstraint("person_id", name=op.f("pk_exposure_figures")),
+    )
+
+
+def downgrade():
+    op.drop_table("exposure_figures")
