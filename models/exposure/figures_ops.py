@@ -41,6 +41,8 @@ RECOMPUTE_EVERYONE = frozenset({"lab_settings", "limit_set", "limit_rule"})
 # The person's columns the evaluation depends on (active: who is listed).
 _PERSON_INPUTS = ("category", "active")
 _EVERYONE = "exposure_everyone"
+# Beyond this many changed people (a large import) one full read is quicker than a list of ids.
+_WHOLE_LAB_ABOVE = 500
 _SUPERSEDED = "exposure_superseded"
 
 _S, _T = len(Series), len(PeriodKind)
@@ -91,12 +93,12 @@ def bring_up_to_date(session: Session) -> None:
         if not (everyone or people or superseded):
             return
         today = lab_date(session, utcnow())
-        if everyone:
-            _store(session, evaluate_lab(session, today), everyone=True)
-            continue
-        # A correction recorded against another person changes the figures of both.
+        # A version recorded against another person changes the figures of both.
         people |= set(session.scalars(sa.select(DoseRecord.person_id).where(DoseRecord.id.in_(superseded))))
-        _store(session, evaluate_lab(session, today, sorted(people)), everyone=False)
+        if everyone or len(people) > _WHOLE_LAB_ABOVE:
+            _store(session, evaluate_lab(session, today), everyone=True)
+        else:
+            _store(session, evaluate_lab(session, today, sorted(people)), everyone=False)
 
 
 def rules_marker(limit_set: LimitSetSpec, policies) -> str:

@@ -23,53 +23,17 @@ from models.people.tables import Person
 NO_LIMIT_SET = presets.LimitSetSpec("none", "No limit set chosen", ())
 
 
-# Read as the driver gives them, these skip a Python conversion per row (enum lookup, date parse).
-_AS_STORED = ("quantity", "location", "wear_start", "wear_end", "result")
+def _record_columns() -> sa.Select:
+    """The columns the engine needs, of the records in force, through the ORM's types (the bench
+    times other ways of summing them)."""
+    return sa.select(DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location,
+                     DoseRecord.wear_start, DoseRecord.wear_end, DoseRecord.value_msv,
+                     DoseRecord.result, DoseRecord.mrd_msv).where(is_current())
 
 
-def _record_columns(as_stored: bool = False) -> sa.Select:
-    """The columns the engine needs, of the records in force, in one query.
-
-    as_stored: the enum and date columns come back as stored (text; dates on PostgreSQL).
-    """
-    columns = (DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location,
-               DoseRecord.wear_start, DoseRecord.wear_end, DoseRecord.value_msv,
-               DoseRecord.result, DoseRecord.mrd_msv)
-    return sa.select(*(
-        sa.type_coerce(c, sa.String) if as_stored and c.key in _AS_STORED else c for c in columns
-    )).where(is_current())
-
-
-def read_records(session: Session, people: np.ndarray, person_ids: np.ndarray | None = None) -> DoseRecords:
-    """The records in force as engine columns, people given as positions in `people`.
-
-    person_ids: only these people's records (by the indexed person column); None reads everyone's
-    through the lean full read.
-    """
-    session.flush()  # Core execution below does not autoflush
-    if person_ids is None:
-        return _read_everyone(session, people)
-    # Core rows: the ORM's per-row loading costs more than the query itself at 100,000s of rows.
-    rows = session.connection().execute(_record_columns(as_stored=True).where(
-        DoseRecord.person_id.in_(np.asarray(person_ids).tolist()))).all()
-    columns = list(zip(*rows)) if rows else [()] * 8
-    ids, quantity, location, start, end, value, result, mrd = columns
-    return DoseRecords(
-        person=person_index(np.asarray(ids, dtype=np.int64), people),
-        quantity=np.asarray(quantity, dtype=str),
-        location=np.asarray(location, dtype=str),
-        wear_start=np.asarray(start, dtype="datetime64[D]"),
-        wear_end=np.asarray(end, dtype="datetime64[D]"),
-        value=np.asarray(value, dtype=float),  # None becomes NaN
-        result=np.asarray(result, dtype=str),
-        mrd=np.asarray(mrd, dtype=float),
-    )
-
-
-# One row of the lean read: what the engine needs as numbers, and the version link.
-_LEAN_ROW = np.dtype([("id", "i8"), ("supersedes", "i8"), ("person", "i8"), ("quantity", "i1"),
-                      ("location", "i1"), ("start", "i8"), ("end", "i8"), ("value", "f8"),
-                      ("result", "i1"), ("mrd", "f8")])
+# One row of the lean read: what the engine needs as numbers.
+_LEAN_ROW = np.dtype([("id", "i8"), ("person", "i8"), ("quantity", "i1"), ("location", "i1"),
+                      ("start", "i8"), ("end", "i8"), ("value", "f8"), ("result", "i1"), ("mrd", "f8")])
 # Days since 1970-01-01, counted by the database so that dates arrive as integers.
 _DAY_NUMBER = {"sqlite": "CAST(julianday({}) - 2440587.5 AS INTEGER)",
                "postgresql": "({} - DATE '1970-01-01')"}
@@ -81,28 +45,40 @@ def _as_code(column: str, cls: type[StrEnum]) -> str:
     return f"CASE {column} {whens} ELSE -1 END"
 
 
-def _lean_sql(dialect: str) -> str:
-    """Every dose record as numbers, with no subquery: the version links are resolved in numpy."""
+def _lean_sql(dialect: str, person_ids: np.ndarray | None) -> str:
+    """Every dose record (of `person_ids` only, when given) as numbers, with no subquery."""
     day = _DAY_NUMBER[dialect]
-    return (f"SELECT id, COALESCE(supersedes_id, 0), person_id, {_as_code('quantity', Quantity)}, "
-            f"{_as_code('location', Location)}, {day.format('wear_start')}, {day.format('wear_end')}, "
-            f"value_msv, {_as_code('result', Result)}, mrd_msv FROM dose_record")
+    listed = ",".join(str(int(i)) for i in person_ids) if person_ids is not None else ""
+    chosen = "" if person_ids is None else f" WHERE person_id IN ({listed or 'NULL'})"
+    return (f"SELECT id, person_id, {_as_code('quantity', Quantity)}, {_as_code('location', Location)}, "
+            f"{day.format('wear_start')}, {day.format('wear_end')}, value_msv, "
+            f"{_as_code('result', Result)}, mrd_msv FROM dose_record{chosen}")
 
 
-def _read_everyone(session: Session, people: np.ndarray) -> DoseRecords:
-    """Every record in force, read through a plain cursor straight into arrays.
-
-    A correction points to the version it replaces (supersedes_id, unique and indexed), so the
-    records in force are those no row points to: one scan, no NOT EXISTS per row.
-    """
-    connection = session.connection()
-    cursor = connection.connection.cursor()
+def _fetch(session: Session, sql: str) -> list[tuple]:
+    """The rows of one statement through a plain DB-API cursor (no per-row processing)."""
+    cursor = session.connection().connection.cursor()
     try:
-        cursor.execute(_lean_sql(connection.dialect.name))
-        rows = np.array(cursor.fetchall(), dtype=_LEAN_ROW)  # NULL values become NaN
+        cursor.execute(sql)
+        return cursor.fetchall()
     finally:
         cursor.close()
-    rows = rows[~np.isin(rows["id"], rows["supersedes"][rows["supersedes"] > 0])]
+
+
+def read_records(session: Session, people: np.ndarray, person_ids: np.ndarray | None = None) -> DoseRecords:
+    """The records in force as engine columns, people given as positions in `people`; only those
+    of `person_ids` when given.
+
+    Read through a plain cursor as integers straight into arrays. A correction points to the version
+    it replaces (supersedes_id, unique and indexed), so the records in force are those no row points
+    to: the replaced ids come from that index, not from a NOT EXISTS per row.
+    """
+    session.flush()  # the cursor below does not autoflush
+    dialect = session.connection().dialect.name
+    rows = np.array(_fetch(session, _lean_sql(dialect, person_ids)), dtype=_LEAN_ROW)  # NULL: NaN
+    replaced = [r[0] for r in _fetch(session, "SELECT supersedes_id FROM dose_record "
+                                              "WHERE supersedes_id IS NOT NULL")]
+    rows = rows[~np.isin(rows["id"], np.asarray(replaced, dtype=np.int64))]
     return DoseRecords(
         person=person_index(rows["person"], people),
         quantity=rows["quantity"], location=rows["location"],
