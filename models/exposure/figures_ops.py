@@ -56,11 +56,11 @@ LAYOUT = np.dtype([
 ])
 
 
-def lab_evaluation(session: Session, on: date) -> LabEvaluation:
+def lab_evaluation(session: Session, on: date, person_ids=None) -> LabEvaluation:
     """Everyone's evaluation on `on`: the stored figures on the lab's current date, else computed
-    from the records."""
+    from the records (of `person_ids` only, when given: a page about one person)."""
     if on != lab_date(session, utcnow()):
-        return evaluate_lab(session, on)
+        return evaluate_lab(session, on, person_ids)
     bring_up_to_date(session)
     return _stored(session, on) or refresh_figures(session, on, if_stale=True)
 

@@ -44,7 +44,7 @@ def show(login: str, on, as_json: bool):
     if person is None:
         raise click.ClickException(f"No person has the login '{login}'.")
     on = on.date() if on else lab_today()
-    lab = lab_evaluation(db.session, on)
+    lab = lab_evaluation(db.session, on, [person.id])
     rows = evaluation_rows(lab, person.id)
     if as_json:
         click.echo(json.dumps(rows, indent=2))

@@ -113,7 +113,7 @@ def person(person_id: int):
     """The table of quantities x periods, the chart, the records with their versions."""
     subject = _subject(person_id)
     on, date_problem = _evaluation_date()
-    lab = lab_evaluation(db.session, on)
+    lab = lab_evaluation(db.session, on, [person_id])
     rows = person_table(lab, person_id)
     chains = record_versions(db.session, person_id)
     fetal = None
@@ -162,7 +162,7 @@ def chart(person_id: int):
 
 def _draw_chart(person_id: int, on: date) -> str:
     """The chart's SVG, from the person's records and the lab's evaluation on `on`."""
-    lab = lab_evaluation(db.session, on)
+    lab = lab_evaluation(db.session, on, [person_id])
     rows = person_rows(lab.evaluation, lab.row_of(person_id))
     series = _chosen_series(rows)
     annual = next((r for r in rows if r["series"] == series and r["period"] == PeriodKind.YEAR),

@@ -19,6 +19,7 @@ from models.exposure.investigation_ops import (
     sign_off,
     validate_review,
 )
+from models.exposure.lab_ops import limit_set_of
 from models.exposure.tables import Investigation
 from models.people.tables import CATEGORY_LABELS, Person, Role
 from models.reports.context_ops import investigation_context
@@ -159,8 +160,7 @@ def limit_set_state() -> list[Attention]:
             "applies to this lab.", where, "installed by default"))
     people = db.session.execute(sa.select(Person.name, Person.category).where(Person.active)
                                 .order_by(Person.name)).all()
-    limit_set = lab_evaluation(db.session, lab_today()).evaluation.limit_set
-    for category in effective_limit_gaps(limit_set, [c for _, c in people]):
+    for category in effective_limit_gaps(limit_set_of(lab_settings), [c for _, c in people]):
         names = ", ".join(n for n, c in people if c == category)
         lines.append(Attention(
             Severity.LIMIT_SET, f"{name} has no effective-dose limit for {CATEGORY_LABELS[category].lower()} "

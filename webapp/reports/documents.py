@@ -11,6 +11,7 @@ from models.core.settings import LabSettings
 from models.doses.tables import DoseRecord, DoseSource
 from models.doses.version_ops import record_versions
 from models.exposure.figures_ops import lab_evaluation
+from models.exposure.lab_ops import limit_set_of
 from models.instruments.tables import KIND_LABELS
 from models.people.tables import Person
 from models.reports.instrument_file_ops import InstrumentFile
@@ -57,7 +58,7 @@ def _record_row(record: DoseRecord, current: bool) -> list:
 def person_statement(person: Person, year: int, made_by: str, now_text: str) -> bytes:
     """The annual dose statement: figures as on the exposure page, every record and version."""
     on = statement_date(year, lab_today())
-    lab = lab_evaluation(db.session, on)
+    lab = lab_evaluation(db.session, on, [person.id])
     rows = person_table(lab, person.id)
     doc = Document(f"Annual dose statement {year}: {person.name}",
                    provenance(settings(), f"Calendar year {year}, figures as on {on}",
@@ -122,7 +123,7 @@ def lab_year_document(figures: LabYear, made_by: str, now_text: str) -> bytes:
     """The lab's year in figures, with its charts (PDF)."""
     doc = Document(f"The lab's year {figures.year}",
                    provenance(settings(), f"Calendar year {figures.year}, dose figures as on {figures.on}",
-                              lab_evaluation(db.session, figures.on).evaluation.limit_set.name,
+                              limit_set_of(settings()).name,
                               now_text, made_by))
     doc.section("People monitored")
     doc.rows_table(("Worker category", "People"),
@@ -166,10 +167,9 @@ def _flags(s) -> str:
 def instrument_file_document(record: InstrumentFile, made_by: str, now_text: str) -> bytes:
     """An instrument's file for an inspection (PDF)."""
     i = record.instrument
-    limit_set = lab_evaluation(db.session, statement_date(record.last.year, lab_today()))
     doc = Document(f"Instrument file: {i.name}",
                    provenance(settings(), f"{record.first} to {record.last}",
-                              limit_set.evaluation.limit_set.name, now_text, made_by))
+                              limit_set_of(settings()).name, now_text, made_by))
     doc.section("Ratings and set-up")
     doc.rows_table(("Property", "Value"), [
         ("Kind", KIND_LABELS[i.kind]), ("Room", i.room or "—"), ("Registration", i.registration_number or "—"),
