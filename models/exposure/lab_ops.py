@@ -34,6 +34,7 @@ def _record_columns() -> sa.Select:
 # One row of the lean read: what the engine needs as numbers.
 _LEAN_ROW = np.dtype([("id", "i8"), ("person", "i8"), ("quantity", "i1"), ("location", "i1"),
                       ("start", "i8"), ("end", "i8"), ("value", "f8"), ("result", "i1"), ("mrd", "f8")])
+_REPLACED_ROW = np.dtype([("id", "i8")])
 # Days since 1970-01-01, counted by the database so that dates arrive as integers.
 _DAY_NUMBER = {"sqlite": "CAST(julianday({}) - 2440587.5 AS INTEGER)",
                "postgresql": "({} - DATE '1970-01-01')"}
@@ -55,14 +56,20 @@ def _lean_sql(dialect: str, person_ids: np.ndarray | None) -> str:
             f"{_as_code('result', Result)}, mrd_msv FROM dose_record{chosen}")
 
 
-def _fetch(session: Session, sql: str) -> list[tuple]:
-    """The rows of one statement through a plain DB-API cursor (no per-row processing)."""
+# Rows held as Python tuples at a time: the peak memory of a full read is one chunk's, not the lab's.
+_CHUNK = 50_000
+
+
+def _fetch(session: Session, sql: str, row: np.dtype) -> np.ndarray:
+    """The rows of one statement as a structured array, through a plain DB-API cursor (no per-row
+    processing); NULL numbers become NaN."""
     cursor = session.connection().connection.cursor()
     try:
         cursor.execute(sql)
-        return cursor.fetchall()
+        parts = [np.array(rows, dtype=row) for rows in iter(lambda: cursor.fetchmany(_CHUNK), [])]
     finally:
         cursor.close()
+    return np.concatenate(parts) if parts else np.empty(0, dtype=row)
 
 
 def read_records(session: Session, people: np.ndarray, person_ids: np.ndarray | None = None) -> DoseRecords:
@@ -75,10 +82,10 @@ def read_records(session: Session, people: np.ndarray, person_ids: np.ndarray | 
     """
     session.flush()  # the cursor below does not autoflush
     dialect = session.connection().dialect.name
-    rows = np.array(_fetch(session, _lean_sql(dialect, person_ids)), dtype=_LEAN_ROW)  # NULL: NaN
-    replaced = [r[0] for r in _fetch(session, "SELECT supersedes_id FROM dose_record "
-                                              "WHERE supersedes_id IS NOT NULL")]
-    rows = rows[~np.isin(rows["id"], np.asarray(replaced, dtype=np.int64))]
+    rows = _fetch(session, _lean_sql(dialect, person_ids), _LEAN_ROW)
+    replaced = _fetch(session, "SELECT supersedes_id FROM dose_record WHERE supersedes_id IS NOT NULL",
+                      _REPLACED_ROW)
+    rows = rows[~np.isin(rows["id"], replaced["id"])]
     return DoseRecords(
         person=person_index(rows["person"], people),
         quantity=rows["quantity"], location=rows["location"],
