@@ -1,10 +1,14 @@
-"""exposure_figures: each person's evaluation for the current date, shared by every server process
+"""exposure_figures: each person's evaluation for the current date, shared by every server process;
+a partial index over the dose results still awaited (read by every safety officer's page)
 
 Revision ID: 0032
 Revises: 0030
 """
 import sqlalchemy as sa
 from alembic import op
+
+# Written out, not imported: a migration stays as it was when the model changes.
+UNRETURNED = "result IN ('lost', 'not_returned')"
 
 revision = "0032"
 down_revision = "0030"
@@ -23,7 +27,10 @@ def upgrade():
         sa.ForeignKeyConstraint(["person_id"], ["person.id"], name=op.f("fk_exposure_figures_person_id_person")),
         sa.PrimaryKeyConstraint("person_id", name=op.f("pk_exposure_figures")),
     )
+    op.create_index("ix_dose_record_unreturned", "dose_record", ["id"], sqlite_where=sa.text(UNRETURNED),
+                    postgresql_where=sa.text(UNRETURNED))
 
 
 def downgrade():
+    op.drop_index("ix_dose_record_unreturned", table_name="dose_record")
     op.drop_table("exposure_figures")

@@ -17,9 +17,9 @@ from datetime import date, timedelta
 import sqlalchemy as sa
 from sqlalchemy.orm import Session, joinedload
 
-from models.core.codes import Location, Result
+from models.core.codes import Location
 from models.core.errors import Invalid
-from models.doses.tables import DoseRecord, Dosimeter, DosimeterKind, ExchangeCycle, Hand
+from models.doses.tables import UNRETURNED, DoseRecord, Dosimeter, DosimeterKind, ExchangeCycle, Hand
 from models.doses.version_ops import current_records_query
 from models.people.tables import Person
 
@@ -142,7 +142,7 @@ def missing_results(session: Session, today: date,
     """Dosimeters not returned (see the module's rule), oldest wear period first."""
     found = []
     reported = session.scalars(
-        current_records_query().where(DoseRecord.result.in_([Result.LOST, Result.NOT_RETURNED]))
+        current_records_query().where(sa.text(f"dose_record.{UNRETURNED}"))
         .options(joinedload(DoseRecord.person), joinedload(DoseRecord.dosimeter)))
     for record in reported:
         found.append(MissingResult(

@@ -177,9 +177,9 @@ def _unpack(packed: np.ndarray, on: date, limit_set: LimitSetSpec, policies):
 def _note_changed_inputs(session: Session, _flush_context) -> None:
     """Queue the people whose figures this flush changes, or everyone after a change of rules."""
     people = session.info.setdefault(DOSE_INPUTS_CHANGED, set())
-    for obj in chain(session.new, session.dirty, session.deleted):
-        if obj in session.dirty and not session.is_modified(obj, include_collections=False):
-            continue
+    new = session.new  # each access builds the set anew
+    changed = [obj for obj in session.dirty if session.is_modified(obj, include_collections=False)]
+    for obj in chain(new, changed, session.deleted):
         if getattr(obj, "__tablename__", None) in RECOMPUTE_EVERYONE:
             session.info[_EVERYONE] = True
         elif isinstance(obj, DoseRecord):
@@ -188,7 +188,7 @@ def _note_changed_inputs(session: Session, _flush_context) -> None:
                 session.info.setdefault(_SUPERSEDED, set()).add(obj.supersedes_id)
         elif isinstance(obj, PregnancyDeclaration):
             people.add(obj.person_id)
-        elif isinstance(obj, Person) and (obj in session.new or _person_inputs_changed(obj)):
+        elif isinstance(obj, Person) and (obj in new or _person_inputs_changed(obj)):
             people.add(obj.id)
 
 

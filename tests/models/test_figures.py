@@ -184,3 +184,18 @@ def test_figures_altered_in_the_database_are_evaluated_afresh(session, make_pers
         session.execute(table.update().values(figures=figures))
         session.commit()
         assert year_dose(lab_evaluation(session, LAB_TODAY), ada) == pytest.approx(0.42)
+
+
+def test_a_change_of_category_evaluates_the_person_again_and_a_new_name_does_not(
+        session, make_person, monkeypatch):
+    ada = make_person("ada")
+    lab_evaluation(session, LAB_TODAY)
+    calls = []
+    real = figures_ops.evaluate_lab
+    monkeypatch.setattr(figures_ops, "evaluate_lab", lambda *a: calls.append(a[2:]) or real(*a))
+    ada.name = "Ada Lovelace"
+    session.commit()
+    assert calls == []
+    ada.category = WorkerCategory.PUBLIC
+    session.commit()
+    assert calls == [([ada.id],)]
