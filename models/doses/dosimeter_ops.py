@@ -148,12 +148,17 @@ def missing_results(session: Session, today: date,
         found.append(MissingResult(
             record.person, record.dosimeter, record, record.wear_start, record.wear_end,
             f"reported {record.result.value.replace('_', ' ')}; no estimate entered yet"))
+    overdue = {}
+    for dosimeter in session.scalars(sa.select(Dosimeter).options(joinedload(Dosimeter.wearer))):
+        if (period := last_overdue_period(dosimeter, today, grace_days)) is not None:
+            overdue[dosimeter] = period
+    # Only the overdue dosimeters' records are looked at: with none, the records are not read at all.
     latest = dict(session.execute(
         sa.select(DoseRecord.dosimeter_id, sa.func.max(DoseRecord.wear_end))
-        .where(DoseRecord.dosimeter_id.is_not(None)).group_by(DoseRecord.dosimeter_id)).all())
-    for dosimeter in session.scalars(sa.select(Dosimeter).options(joinedload(Dosimeter.wearer))):
-        period = last_overdue_period(dosimeter, today, grace_days)
-        if period is None or (dosimeter.id in latest and latest[dosimeter.id] >= period[0]):
+        .where(DoseRecord.dosimeter_id.in_([d.id for d in overdue])).group_by(DoseRecord.dosimeter_id)).all()
+    ) if overdue else {}
+    for dosimeter, period in overdue.items():
+        if dosimeter.id in latest and latest[dosimeter.id] >= period[0]:
             continue
         days = (today - period[1]).days
         found.append(MissingResult(dosimeter.wearer, dosimeter, None, *period,
