@@ -79,7 +79,7 @@ def investigation(investigation_id: int):
 
 @attention.add(order=60)
 def dose_levels() -> list[Attention]:
-    """Every series at a level or a limit (its worst period), and projected crossings, from the cached
+    """Every series at a level or a limit (its worst period), and projected crossings, from the stored
     evaluation; a crossing whose investigation is signed off shows as reviewed until the next
     level or window."""
     lab = lab_evaluation(db.session, lab_today())
