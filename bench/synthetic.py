@@ -8,10 +8,9 @@ lost, and the safety officer has entered an estimate (a second version) for ever
 except those of the last two months. A fixed seed makes the records the same on every run
 (dates are counted back from the month before the evaluation date).
 
-Records go in with Core `insert` executemany: fast, and it bypasses the audit listener, which
-fires only for ORM flushes. That is fine for a bench, but it also means the evaluation cache
-(keyed by the newest audit event) would not notice these rows in a running app: the bench builds
-the file before it starts the app.
+Records go in with Core `insert` executemany: fast, and it bypasses the audit listener and the
+stored evaluation's, which fire only for ORM flushes. The limit set put in force afterwards through
+the ORM evaluates everyone and stores the figures, before the bench starts the app.
 """
 from __future__ import annotations
 

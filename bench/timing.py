@@ -11,7 +11,6 @@ import sqlalchemy as sa
 from models.core.codes import Result
 from models.core.settings import lab_settings
 from models.exposure import lab_ops
-from models.exposure.cache import UntilChanged
 from models.exposure.engine import DoseRecords, compute_doses
 from models.exposure.evaluation import evaluate
 from models.exposure.lab_ops import read_records
@@ -94,7 +93,6 @@ def time_home(client, login: str, password: str, runs: int) -> tuple[float, floa
     response = client.post("/login", data={"login": login, "password": password})
     if response.status_code != 302:
         raise RuntimeError("the bench could not log in as the safety officer")
-    UntilChanged.forget_all()
     cold, page = median_seconds(lambda: client.get("/"), 1)
     warm, page = median_seconds(lambda: client.get("/"), runs)
     if page.status_code != 200:

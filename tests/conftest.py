@@ -25,7 +25,6 @@ from models.audit.verify_ops import record_baseline
 from models.core import base
 from models.core.codes import WorkerCategory
 from models.core.settings import LabSettings
-from models.exposure.cache import UntilChanged
 from models.instruments.instrument_ops import mark_commissioned, save_instrument
 from models.instruments.tables import Authorisation, AuthorisationLevel, Enclosure, InstrumentKind
 from models.people.person_ops import add_person
@@ -144,7 +143,6 @@ def app_config() -> dict:
 def app(database_url, app_config):
     """The app bound to a fresh database, inside an app context."""
     app = create_app(base_config(database_url, **app_config))
-    UntilChanged.forget_all()  # PostgreSQL ids restart per test, so data versions may repeat
     with app.app_context():
         yield app
         db.session.remove()

@@ -252,17 +252,6 @@ class _Row:
     hash: str = ""
 
 
-def data_version(session: Session, entities: Iterable[str]) -> int:
-    """The newest audit event id among these record types: it changes whenever one is written.
-
-    One maximum per type, each read from the (entity, id) index, in a single round trip.
-    """
-    table = AuditEvent.__table__
-    newest = [sa.select(sa.func.max(table.c.id)).where(table.c.entity == entity).scalar_subquery()
-              for entity in sorted(entities)]
-    return max((value or 0) for value in session.execute(sa.select(*newest)).one())
-
-
 def set_actor(session: Session, person_id: int | None) -> None:
     """Record who is acting for every change this session flushes."""
     session.info["actor_id"] = person_id

@@ -25,5 +25,5 @@ class AuditEvent(IdMixin, Base):
     prev_hash: Mapped[str] = mapped_column(sa.String(64))
     hash: Mapped[str] = mapped_column(sa.String(64))
 
-    # Answers "newest event for this record type" from the index alone (see data_version).
+    # One record type's events in order, from the index alone (the audit list's filter, a record's history).
     __table_args__ = (sa.Index("ix_audit_event_entity_id", "entity", "id"),)

@@ -44,3 +44,13 @@ def hold_write_lock(session: Session) -> None:
         return
     if not connection.connection.driver_connection.in_transaction:
         connection.exec_driver_sql("BEGIN IMMEDIATE")
+
+
+def holds_write_lock(session: Session) -> bool:
+    """Whether this session's transaction holds the write lock (it has written, or took the lock)."""
+    connection = session.connection()
+    if connection.dialect.name == "postgresql":
+        return bool(connection.execute(sa.text(
+            "SELECT 1 FROM pg_locks WHERE locktype = 'advisory' AND pid = pg_backend_pid() "
+            "AND granted AND objid = :k"), {"k": WRITE_LOCK_KEY}).first())
+    return connection.connection.driver_connection.in_transaction

@@ -17,9 +17,9 @@ from datetime import date, timedelta
 import sqlalchemy as sa
 from sqlalchemy.orm import Session, joinedload
 
-from models.core.codes import Location, Result
+from models.core.codes import Location
 from models.core.errors import Invalid
-from models.doses.tables import DoseRecord, Dosimeter, DosimeterKind, ExchangeCycle, Hand
+from models.doses.tables import UNRETURNED, DoseRecord, Dosimeter, DosimeterKind, ExchangeCycle, Hand
 from models.doses.version_ops import current_records_query
 from models.people.tables import Person
 
@@ -142,18 +142,23 @@ def missing_results(session: Session, today: date,
     """Dosimeters not returned (see the module's rule), oldest wear period first."""
     found = []
     reported = session.scalars(
-        current_records_query().where(DoseRecord.result.in_([Result.LOST, Result.NOT_RETURNED]))
+        current_records_query().where(sa.text(f"dose_record.{UNRETURNED}"))
         .options(joinedload(DoseRecord.person), joinedload(DoseRecord.dosimeter)))
     for record in reported:
         found.append(MissingResult(
             record.person, record.dosimeter, record, record.wear_start, record.wear_end,
             f"reported {record.result.value.replace('_', ' ')}; no estimate entered yet"))
+    overdue = {}
+    for dosimeter in session.scalars(sa.select(Dosimeter).options(joinedload(Dosimeter.wearer))):
+        if (period := last_overdue_period(dosimeter, today, grace_days)) is not None:
+            overdue[dosimeter] = period
+    # Only the overdue dosimeters' records are looked at: with none, the records are not read at all.
     latest = dict(session.execute(
         sa.select(DoseRecord.dosimeter_id, sa.func.max(DoseRecord.wear_end))
-        .where(DoseRecord.dosimeter_id.is_not(None)).group_by(DoseRecord.dosimeter_id)).all())
-    for dosimeter in session.scalars(sa.select(Dosimeter).options(joinedload(Dosimeter.wearer))):
-        period = last_overdue_period(dosimeter, today, grace_days)
-        if period is None or (dosimeter.id in latest and latest[dosimeter.id] >= period[0]):
+        .where(DoseRecord.dosimeter_id.in_([d.id for d in overdue])).group_by(DoseRecord.dosimeter_id)).all()
+    ) if overdue else {}
+    for dosimeter, period in overdue.items():
+        if dosimeter.id in latest and latest[dosimeter.id] >= period[0]:
             continue
         days = (today - period[1]).days
         found.append(MissingResult(dosimeter.wearer, dosimeter, None, *period,

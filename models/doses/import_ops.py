@@ -31,6 +31,7 @@ from sqlalchemy.orm import Session, joinedload
 from models.audit.audit_ops import RowsDigest, append_events, bulk_columns, bulk_event, row_snapshot
 from models.core.base import taken, utcnow
 from models.core.bounds import DATE_MESSAGE, date_in_range
+from models.core.changes import mark_dose_inputs_changed
 from models.core.codes import Location, Quantity, Result
 from models.core.database import hold_write_lock
 from models.core.errors import Invalid
@@ -547,6 +548,8 @@ def _publish(session: Session, preview: Preview, stage: _Stage) -> ImportBatch:
                                   "nothing was imported. Import the file again.")
     hold_write_lock(session)
     _refuse(preview, _repeated(session, stage.run, batch_id))
+    mark_dose_inputs_changed(session, set(session.scalars(
+        sa.select(staged.c.person_id).where(staged.c.run == stage.run).distinct())))
     batches = ImportBatch.__table__
     created = {"entity": batches.name, "entity_id": batch_id, "action": "create", "before": None,
                "after": row_snapshot(session.connection().execute(

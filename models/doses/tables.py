@@ -131,6 +131,10 @@ class ImportMapping(IdMixin, Base):
     created_at: Mapped[datetime] = mapped_column(default=utcnow)
 
 
+# Results reported lost or not returned; written as literals so the planner can match the index.
+UNRETURNED = "result IN ('lost', 'not_returned')"
+
+
 class DoseRecord(IdMixin, Base):
     """One dose result for one wear period; corrected only by a new version."""
 
@@ -180,4 +184,8 @@ class DoseRecord(IdMixin, Base):
         ),
         # An import looks up a chunk's keys (people x wear starts) by seeks, not by each person's history.
         sa.Index("ix_dose_record_person_id_wear_start", "person_id", "wear_start"),
+        # The few results still awaited, read on every safety officer's page: a partial index holds
+        # only them, so it costs an import nothing.
+        sa.Index("ix_dose_record_unreturned", "id", sqlite_where=sa.text(UNRETURNED),
+                 postgresql_where=sa.text(UNRETURNED)),
     )

@@ -16,7 +16,7 @@ import numpy as np
 
 from models.core.codes import Level, Location, PeriodKind, Quantity, Series, WorkerCategory, code, encode
 from models.exposure.engine import DoseTotals
-from models.exposure.presets import LimitSetSpec
+from models.exposure.presets import DECLARATION_ALLOWANCE_CLAUSE, LimitSetSpec
 
 # Float sums of prorated parts must not drop a dose that sits exactly on a threshold.
 TOLERANCE_MSV = 1e-9
@@ -36,7 +36,7 @@ class Evaluation:
     """Doses with their rules, levels and projections; (P, S, T) arrays, NaN where not applicable.
 
     rule: index into limit_set.rules, -1 for none. level, projected_level: Level codes.
-    allowance_clause: (P,) the clause that raised a person's fetal limit, "" where none did.
+    allowance: (P,) the person's fetal limit was raised by the declaration allowance (10 CFR 20.1208(d)).
     """
 
     totals: DoseTotals
@@ -50,7 +50,7 @@ class Evaluation:
     level: np.ndarray
     projected: np.ndarray
     projected_level: np.ndarray
-    allowance_clause: np.ndarray | None = None
+    allowance: np.ndarray
 
 
 def rule_index(limit_set: LimitSetSpec, categories: np.ndarray, pregnant: np.ndarray) -> np.ndarray:
@@ -98,6 +98,12 @@ def evaluate(totals: DoseTotals, limit_set: LimitSetSpec, categories) -> Evaluat
     rule = rule_index(limit_set, categories.astype(np.int64), pregnant)
     thresholds = np.array([r.thresholds() for r in limit_set.rules] + [(np.nan,) * 3])
     level1, level2, limit = (thresholds[:, i][rule] for i in range(3))
+    return graded(totals, limit_set, rule, level1, level2, limit)
+
+
+def graded(totals: DoseTotals, limit_set: LimitSetSpec, rule: np.ndarray, level1: np.ndarray,
+           level2: np.ndarray, limit: np.ndarray) -> Evaluation:
+    """The evaluation of doses against the thresholds already chosen for each row."""
     dose = totals.dose
     projected = dose / totals.windows.elapsed_fraction[:, None, :]
     return Evaluation(
@@ -112,14 +118,14 @@ def evaluate(totals: DoseTotals, limit_set: LimitSetSpec, categories) -> Evaluat
         level=level_codes(dose, level1, level2, limit),
         projected=projected,
         projected_level=level_codes(projected, level1, level2, limit),
+        allowance=np.zeros(dose.shape[0], dtype=bool),
     )
 
 
-def with_declaration_allowance(evaluation: Evaluation, before: np.ndarray, allowance_msv: float,
-                               clause: str) -> Evaluation:
+def with_declaration_allowance(evaluation: Evaluation, before: np.ndarray, allowance_msv: float) -> Evaluation:
     """The fetal limit raised for people whose fetal dose by the declaration was within
     `allowance_msv` of it (or over it): they may receive `allowance_msv` more (10 CFR 20.1208(d)).
-    Their fetal row cites `clause` beside the rule's own.
+    Their fetal row cites that clause beside the rule's own.
 
     before: (P,) fetal dose counted before the declaration (NaN or 0 for none).
     """
@@ -129,11 +135,8 @@ def with_declaration_allowance(evaluation: Evaluation, before: np.ndarray, allow
     if not near.any():
         return evaluation
     limit[near, s, t] = np.maximum(limit[near, s, t], before[near] + allowance_msv)
-    dose, projected = evaluation.totals.dose, evaluation.projected
-    return replace(
-        evaluation, limit=limit, allowance_clause=np.where(near, clause, ""), fraction=dose / limit, remaining=np.maximum(limit - dose, 0.0),
-        level=level_codes(dose, evaluation.level1, evaluation.level2, limit),
-        projected_level=level_codes(projected, evaluation.level1, evaluation.level2, limit))
+    return replace(graded(evaluation.totals, evaluation.limit_set, evaluation.rule, evaluation.level1,
+                          evaluation.level2, limit), allowance=near)
 
 
 def person_rows(evaluation: Evaluation, person: int) -> list[dict]:
@@ -174,9 +177,9 @@ def _clause(evaluation: Evaluation, at: tuple) -> str | None:
     if rule < 0:
         return None
     person, s, t = at
-    raised_by = "" if evaluation.allowance_clause is None else evaluation.allowance_clause[person]
-    if raised_by and (s, t) == (code(Series.FETUS), code(PeriodKind.PREGNANCY)):
-        return f"{evaluation.limit_set.rules[rule].clause}; {raised_by}"
+    raised = evaluation.allowance[person]
+    if raised and (s, t) == (code(Series.FETUS), code(PeriodKind.PREGNANCY)):
+        return f"{evaluation.limit_set.rules[rule].clause}; {DECLARATION_ALLOWANCE_CLAUSE}"
     return evaluation.limit_set.rules[rule].clause
 
 

@@ -28,7 +28,8 @@ from models.core.codes import Level, Location, PeriodKind, Quantity, Series, cod
 from models.core.errors import Invalid
 from models.core.labels import LEVEL_LABELS, shared_row_label
 from models.core.settings import lab_zone
-from models.exposure.lab_ops import LabEvaluation, cached_lab_evaluation
+from models.exposure.figures_ops import lab_evaluation
+from models.exposure.lab_ops import LabEvaluation
 from models.exposure.tables import Investigation
 from models.instruments.tables import Authorisation, Instrument
 from models.people.tables import Person
@@ -178,7 +179,7 @@ def review_after_dose_change(session: Session, on: date) -> list[Investigation]:
     any change to dose inputs (records, declarations, limit sets) and daily, because a date change
     alone can reveal a crossing (a rolling window or a pregnancy).
     """
-    lab = cached_lab_evaluation(session, on)
+    lab = lab_evaluation(session, on)
     new = raise_investigations(session, lab)
     raise_survey_tasks(session, new, on, lab_zone(session))
     return new

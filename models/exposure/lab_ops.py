@@ -3,56 +3,91 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import date, timedelta
+from enum import StrEnum
 
 import numpy as np
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
-from models.core.codes import PeriodKind, Series, code
+from models.core.codes import Location, PeriodKind, Quantity, Result, Series, code
 from models.doses.tables import DoseRecord
 from models.doses.version_ops import is_current
 from models.exposure import presets
-from models.exposure.cache import UntilChanged
 from models.exposure.engine import DoseRecords, DoseTotals, Policies, compute_doses, person_index
 from models.exposure.evaluation import Evaluation, evaluate, with_declaration_allowance
 from models.exposure.rules_ops import rules_on
 from models.exposure.tables import PregnancyDeclaration
 from models.people.tables import Person
 
-# Read as the driver gives them, these skip a Python conversion per row (enum lookup, date parse).
-_AS_STORED = ("quantity", "location", "wear_start", "wear_end", "result")
+
+def _record_columns() -> sa.Select:
+    """The columns the engine needs, of the records in force, through the ORM's types (the bench
+    times other ways of summing them)."""
+    return sa.select(DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location,
+                     DoseRecord.wear_start, DoseRecord.wear_end, DoseRecord.value_msv,
+                     DoseRecord.result, DoseRecord.mrd_msv).where(is_current())
 
 
-def _record_columns(as_stored: bool = False) -> sa.Select:
-    """The columns the engine needs, of the records in force, in one query.
+# One row of the lean read: what the engine needs as numbers.
+_LEAN_ROW = np.dtype([("id", "i8"), ("person", "i8"), ("quantity", "i1"), ("location", "i1"),
+                      ("start", "i8"), ("end", "i8"), ("value", "f8"), ("result", "i1"), ("mrd", "f8")])
+_REPLACED_ROW = np.dtype([("id", "i8")])
+# Days since 1970-01-01, counted by the database so that dates arrive as integers.
+_DAY_NUMBER = {"sqlite": "CAST(julianday({}) - 2440587.5 AS INTEGER)",
+               "postgresql": "({} - DATE '1970-01-01')"}
 
-    as_stored: the enum and date columns come back as stored (text; dates on PostgreSQL).
+
+def _as_code(column: str, cls: type[StrEnum]) -> str:
+    """SQL giving a stored enum value's integer code, -1 for a value the code does not know."""
+    whens = " ".join(f"WHEN '{member.value}' THEN {i}" for i, member in enumerate(cls))
+    return f"CASE {column} {whens} ELSE -1 END"
+
+
+def _lean_sql(dialect: str, person_ids: np.ndarray | None) -> str:
+    """Every dose record (of `person_ids` only, when given) as numbers, with no subquery."""
+    day = _DAY_NUMBER[dialect]
+    listed = ",".join(str(int(i)) for i in person_ids) if person_ids is not None else ""
+    chosen = "" if person_ids is None else f" WHERE person_id IN ({listed or 'NULL'})"
+    return (f"SELECT id, person_id, {_as_code('quantity', Quantity)}, {_as_code('location', Location)}, "
+            f"{day.format('wear_start')}, {day.format('wear_end')}, value_msv, "
+            f"{_as_code('result', Result)}, mrd_msv FROM dose_record{chosen}")
+
+
+# Rows held as Python tuples at a time: the peak memory of a full read is one chunk's, not the lab's.
+_CHUNK = 50_000
+
+
+def _fetch(session: Session, sql: str, row: np.dtype) -> np.ndarray:
+    """The rows of one statement as a structured array, through a plain DB-API cursor (no per-row
+    processing); NULL numbers become NaN."""
+    cursor = session.connection().connection.cursor()
+    try:
+        cursor.execute(sql)
+        parts = [np.array(rows, dtype=row) for rows in iter(lambda: cursor.fetchmany(_CHUNK), [])]
+    finally:
+        cursor.close()
+    return np.concatenate(parts) if parts else np.empty(0, dtype=row)
+
+
+def read_records(session: Session, people: np.ndarray, person_ids: np.ndarray | None = None) -> DoseRecords:
+    """The records in force as engine columns, people given as positions in `people`; only those
+    of `person_ids` when given.
+
+    Read through a plain cursor as integers straight into arrays. A correction points to the version
+    it replaces (supersedes_id, unique and indexed), so the records in force are those no row points
+    to: the replaced ids come from that index, not from a NOT EXISTS per row.
     """
-    columns = (DoseRecord.person_id, DoseRecord.quantity, DoseRecord.location,
-               DoseRecord.wear_start, DoseRecord.wear_end, DoseRecord.value_msv,
-               DoseRecord.result, DoseRecord.mrd_msv)
-    return sa.select(*(
-        sa.type_coerce(c, sa.String) if as_stored and c.key in _AS_STORED else c for c in columns
-    )).where(is_current())
-
-
-def read_records(session: Session, people: np.ndarray) -> DoseRecords:
-    """Every record in force as engine columns, people given as positions in `people`."""
-    session.flush()  # Core execution below does not autoflush
-    # Core rows: the ORM's per-row loading costs more than the query itself at 100,000s of rows.
-    rows = session.connection().execute(_record_columns(as_stored=True)).all()
-    columns = list(zip(*rows)) if rows else [()] * 8
-    person_ids, quantity, location, start, end, value, result, mrd = columns
+    session.flush()  # the cursor below does not autoflush
+    dialect = session.connection().dialect.name
+    rows = _fetch(session, _lean_sql(dialect, person_ids), _LEAN_ROW)
+    replaced = _fetch(session, "SELECT supersedes_id FROM dose_record WHERE supersedes_id IS NOT NULL",
+                      _REPLACED_ROW)
+    rows = rows[~np.isin(rows["id"], replaced["id"])]
     return DoseRecords(
-        person=person_index(np.asarray(person_ids, dtype=np.int64), people),
-        quantity=np.asarray(quantity, dtype=str),
-        location=np.asarray(location, dtype=str),
-        wear_start=np.asarray(start, dtype="datetime64[D]"),
-        wear_end=np.asarray(end, dtype="datetime64[D]"),
-        value=np.asarray(value, dtype=float),  # None becomes NaN
-        result=np.asarray(result, dtype=str),
-        mrd=np.asarray(mrd, dtype=float),
-    )
+        person=person_index(rows["person"], people),
+        quantity=rows["quantity"], location=rows["location"],
+        wear_start=rows["start"].astype("datetime64[D]"), wear_end=rows["end"].astype("datetime64[D]"),
+        value=rows["value"], result=rows["result"], mrd=rows["mrd"])
 
 
 # From memory (obstetric common practice): a pregnancy lasts about 38 weeks from conception.
@@ -136,31 +171,24 @@ class LabEvaluation:
         return int(person_index(np.array([person_id]), self.person_ids)[0])
 
 
-def evaluate_lab(session: Session, on: date) -> LabEvaluation:
-    """Read the records in force and evaluate everyone on `on` with the policies and limits of that date."""
-    everyone = session.execute(sa.select(Person.id, Person.category).order_by(Person.id)).all()
-    people, categories = zip(*everyone) if everyone else ((), ())
-    person_ids = np.asarray(people, dtype=np.int64)
-    records = read_records(session, person_ids)
+def evaluate_lab(session: Session, on: date, person_ids=None) -> LabEvaluation:
+    """Read the records in force and evaluate everyone (or only `person_ids`) on `on` with the
+    policies and limits of that date."""
+    query = sa.select(Person.id, Person.category).order_by(Person.id)
+    if person_ids is not None:
+        query = query.where(Person.id.in_(np.asarray(person_ids).tolist()))
+    chosen = session.execute(query).all()
+    people, categories = zip(*chosen) if chosen else ((), ())
+    person_ids = None if person_ids is None else np.asarray(people, dtype=np.int64)
+    people = np.asarray(people, dtype=np.int64)
+    records = read_records(session, people, person_ids)
     limit_set, policies = rules_on(session, on)
-    start, end = pregnancy_windows(session, person_ids, on, limit_set.whole_pregnancy)
-    totals = compute_doses(records, len(person_ids), on, policies, start, end)
+    start, end = pregnancy_windows(session, people, on, limit_set.whole_pregnancy)
+    totals = compute_doses(records, len(people), on, policies, start, end)
     evaluation = evaluate(totals, limit_set,
                           np.asarray([str(c) for c in categories], dtype=str))
     if limit_set.whole_pregnancy and totals.windows.exists[:, code(PeriodKind.PREGNANCY)].any():
-        declared = declaration_dates(session, person_ids, on)
-        before = fetal_dose_before(records, len(person_ids), on, policies, start, declared)
-        evaluation = with_declaration_allowance(evaluation, before, presets.DECLARATION_ALLOWANCE_MSV,
-                                                presets.DECLARATION_ALLOWANCE_CLAUSE)
-    return LabEvaluation(on, person_ids, evaluation)
-
-
-# Everything the evaluation reads: the records, declarations, people's categories, the rules' history, limits.
-EVALUATION_INPUTS = frozenset({"dose_record", "pregnancy_declaration", "person", "rule_change",
-                               "limit_set", "limit_rule"})
-_evaluations: UntilChanged[LabEvaluation] = UntilChanged(EVALUATION_INPUTS)
-
-
-def cached_lab_evaluation(session: Session, on: date) -> LabEvaluation:
-    """The lab's evaluation, recomputed only when one of its inputs was written or the date changed."""
-    return _evaluations.get(session, on, lambda: evaluate_lab(session, on))
+        declared = declaration_dates(session, people, on)
+        before = fetal_dose_before(records, len(people), on, policies, start, declared)
+        evaluation = with_declaration_allowance(evaluation, before, presets.DECLARATION_ALLOWANCE_MSV)
+    return LabEvaluation(on, people, evaluation)

@@ -162,3 +162,21 @@ class RuleChange(IdMixin, Base):
         sa.CheckConstraint(POLICIES_ALL_OR_NONE, name="policies_all_or_none"),
         sa.CheckConstraint("sets_limit_set OR proration IS NOT NULL", name="changes_something"),
     )
+
+
+class ExposureFigures(Base):
+    """One person's evaluation on the lab's current date, stored so every server process shares it.
+
+    Derived from the dose inputs and rewritten with them in the same transaction
+    (`models/exposure/figures_ops.py`), outside the ORM, so the audit's row check leaves it out.
+    """
+
+    __tablename__ = "exposure_figures"
+    __table_args__ = {"info": {"audited": False, "audit_rows": False}}
+
+    person_id: Mapped[int] = mapped_column(sa.ForeignKey("person.id"), primary_key=True, autoincrement=False)
+    evaluated_on: Mapped[date]
+    # A digest of the policies and limit set the figures were evaluated with.
+    rules: Mapped[str] = mapped_column(sa.String(64))
+    # The person's slice of every evaluation array, in the fixed layout figures_ops.LAYOUT.
+    figures: Mapped[bytes] = mapped_column(sa.LargeBinary)

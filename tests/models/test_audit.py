@@ -69,17 +69,6 @@ def test_deleted_event_is_reported(session, make_person):
     assert "removed" in problem.message
 
 
-def test_data_version_follows_only_the_named_record_types(session, make_person, make_instrument):
-    from models.audit.audit_ops import data_version
-
-    make_person()
-    people = data_version(session, {"person"})
-    make_instrument()
-    assert data_version(session, {"person"}) == people
-    assert data_version(session, {"person", "instrument"}) > people
-    assert data_version(session, {"nothing_here"}) == 0
-
-
 @pytest.mark.parametrize("table, statement", [
     ("dose_record", "UPDATE dose_record SET value_msv = 0"),
     ("dose_record", "DELETE FROM dose_record"),

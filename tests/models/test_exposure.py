@@ -1,9 +1,9 @@
-"""Stored records evaluated through the engine: versions, pregnancy, and the cache."""
+"""Stored records evaluated through the engine: versions and pregnancy."""
 from datetime import date
 
 from models.doses.tables import DoseRecord
 from models.exposure.evaluation import person_rows
-from models.exposure.lab_ops import cached_lab_evaluation, evaluate_lab
+from models.exposure.lab_ops import evaluate_lab
 from models.exposure.tables import PregnancyDeclaration
 from tests.conftest import put_in_force
 
@@ -51,15 +51,3 @@ def test_pregnancy_window_follows_the_declaration(session, make_person):
     row = _row(evaluate_lab(session, ON), person, "fetus", "pregnancy")
     assert row["start"] == "2026-10-16"
     assert abs(row["dose_msv"] - 3.1 * 16 / 31) < 1e-9  # 16 of the record's 31 days fall inside
-
-
-def test_cache_is_renewed_by_a_dose_write_only(session, make_person, make_instrument):
-    person = make_person()
-    first = cached_lab_evaluation(session, ON)
-    assert cached_lab_evaluation(session, ON) is first
-    make_instrument()  # not an input of the evaluation
-    assert cached_lab_evaluation(session, ON) is first
-    session.add(_record(person, 1.0))
-    session.commit()
-    assert cached_lab_evaluation(session, ON) is not first
-    assert cached_lab_evaluation(session, date(2026, 12, 1)) is not first

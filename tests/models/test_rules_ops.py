@@ -6,7 +6,7 @@ import pytest
 from models.core.errors import Invalid
 from models.core.settings import lab_settings
 from models.exposure.engine import Policies
-from models.exposure.lab_ops import cached_lab_evaluation
+from models.exposure.figures_ops import lab_evaluation
 from models.exposure.limit_set_ops import install_preset
 from models.exposure.rules_ops import choose_limit_set, record_rule_change, rule_history, rules_on, set_policies
 from tests.conftest import LAB_TODAY
@@ -72,14 +72,14 @@ def test_a_change_is_refused_with_the_field_named(session, from_on, reason, fiel
     assert rule_history(session) == before
 
 
-def test_the_cached_evaluation_sees_a_change_into_the_past(session):
+def test_the_stored_and_past_evaluations_see_a_change_into_the_past(session):
     settings = lab_settings(session)
     cfr = install_preset(session, "cfr10_20")  # before the first evaluation: no limit set is written after it
     choose_limit_set(session, settings, install_preset(session, "irr17"), **_change(date(2026, 6, 1)))
     session.commit()
-    assert cached_lab_evaluation(session, date(2025, 12, 31)).evaluation.limit_set.key == "none"
+    assert lab_evaluation(session, date(2025, 12, 31)).evaluation.limit_set.key == "none"
     # Today's rules (and their copy in the settings) stay as they are; 2025 changes.
     choose_limit_set(session, settings, cfr, **_change(date(2025, 1, 1)))
     session.commit()
-    assert cached_lab_evaluation(session, date(2025, 12, 31)).evaluation.limit_set.key == "cfr10_20"
-    assert cached_lab_evaluation(session, LAB_TODAY).evaluation.limit_set.key == "irr17"
+    assert lab_evaluation(session, date(2025, 12, 31)).evaluation.limit_set.key == "cfr10_20"
+    assert lab_evaluation(session, LAB_TODAY).evaluation.limit_set.key == "irr17"

@@ -1,8 +1,8 @@
 """Two gunicorn workers over one database: what one worker writes, the other shows on its next request.
 
-Each worker keeps its own copy of the lab's evaluation (models/exposure/cache.py); the copy is keyed by
-the newest audit event of its inputs, read from the database on every request, so a dose entered
-through one worker is never hidden by the other's copy. Login attempts are counted in shared storage.
+No worker keeps a copy of the lab's evaluation: today's is stored in the database with each change
+(models/exposure/figures_ops.py), and another date's is computed from the records, so a dose entered
+through one worker is never hidden from the other. Login attempts are counted in shared storage.
 """
 from __future__ import annotations
 

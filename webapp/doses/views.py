@@ -12,7 +12,6 @@ from models.doses.dosimeter_ops import describe_dosimeter, missing_results, wear
 from models.doses.record_ops import add_dose_record, amend_dose_record, entry_of, validate_amendment, validate_entry
 from models.doses.tables import SOURCE_LABELS, DoseRecord, Dosimeter
 from models.doses.version_ops import chains, history, is_current
-from models.exposure.cache import UntilChanged
 from models.exposure.investigation_ops import review_after_dose_change
 from models.exposure.pregnancy_ops import declarations_of
 from models.people.tables import Person, Role
@@ -152,17 +151,7 @@ def amend(record_id: int):
 
 @attention.add(order=50)
 def _not_returned() -> list[Attention]:
-    """Dosimeters whose result never came, for the safety officer's list (kept until records change)."""
-    return _not_returned_lines.get(db.session, lab_today(), _not_returned_now)
-
-
-# The scan reads every dose record, so its lines are kept until a dose, dosimeter or person changes.
-_not_returned_lines: UntilChanged[list[Attention]] = UntilChanged(
-    frozenset({"dose_record", "dosimeter", "person"}))
-
-
-def _not_returned_now() -> list[Attention]:
-    """The lines, computed afresh."""
+    """Dosimeters whose result never came, for the safety officer's list."""
     lines = []
     for missing in missing_results(db.session, lab_today()):
         what = f"dosimeter {missing.dosimeter.serial}" if missing.dosimeter else "dose record"

@@ -11,6 +11,7 @@ from models.core.due_dates import OVERDUE
 from models.core.settings import lab_date, lab_settings
 from models.due.due_list_ops import CALIBRATION
 from models.due.reminder_ops import Reminder, anchor_key, anchor_sent, plan_reminders, record_anchor_sent, record_sent
+from models.exposure.figures_ops import lab_evaluation
 from webapp.due import bp
 from webapp.due.views import target_url
 from webapp.extensions import db
@@ -53,6 +54,9 @@ def send(dry_run: bool):
     """E-mail each person what is due soon or late for them, and the safety officer a digest."""
     session = db.session
     lab = lab_settings(session)
+    if not dry_run:
+        # Today's evaluation is stored now, so the day's first page need not wait for it.
+        lab_evaluation(session, lab_date(session, utcnow()))
     if not lab.reminders_enabled:
         click.echo("Reminders are turned off in the settings; nothing sent.")
         return

@@ -1,10 +1,12 @@
-"""The exposure chart, kept per server process by person, date and version of its inputs.
+"""The exposure chart, kept per server process by person, date and a digest of its inputs.
 
-The version is the newest audit event among the chart's inputs, named by its id and its seal: an
-id alone can come back after a rolled-back write on SQLite, the seal of a different event cannot.
+The digest is taken over the inputs' content (the person's records and declarations, their
+category, the rules and the display unit), never over ids or counters, which a rolled-back write
+can hand out again.
 """
 from __future__ import annotations
 
+import hashlib
 import threading
 from collections import OrderedDict
 from collections.abc import Callable
@@ -13,20 +15,32 @@ from datetime import date
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
-from models.audit.audit_ops import data_version
-from models.audit.tables import AuditEvent
+from models.core.settings import lab_settings
+from models.doses.tables import DoseRecord
+from models.doses.version_ops import is_current
+from models.exposure.figures_ops import rules_marker
+from models.exposure.rules_ops import rules_on
+from models.exposure.tables import PregnancyDeclaration
+from models.people.tables import Person
 
-# What a chart is drawn from: the records, the person's category (their limit), the lab's settings
-# (display unit), the rules' history (policies and limit set on the chart's date) and the limit sets.
-CHART_INPUTS = frozenset({"dose_record", "person", "lab_settings", "rule_change", "limit_set", "limit_rule"})
 KEPT = 256
 
 
-def chart_version(session: Session) -> str:
-    """A token that changes whenever an input of any chart is written."""
-    newest = data_version(session, CHART_INPUTS)
-    seal = session.scalar(sa.select(AuditEvent.hash).where(AuditEvent.id == newest)) if newest else ""
-    return f"{newest}-{(seal or '')[:16]}"
+def chart_version(session: Session, person_id: int, on: date) -> str:
+    """A digest of everything a person's chart on `on` is drawn from: it changes with any of it."""
+    settings = lab_settings(session)
+    records = session.execute(
+        sa.select(DoseRecord.id, DoseRecord.quantity, DoseRecord.location, DoseRecord.wear_start,
+                  DoseRecord.wear_end, DoseRecord.value_msv, DoseRecord.result, DoseRecord.mrd_msv,
+                  is_current()).where(DoseRecord.person_id == person_id).order_by(DoseRecord.id)).all()
+    declarations = session.execute(
+        sa.select(PregnancyDeclaration.declared_on, PregnancyDeclaration.conception_on,
+                  PregnancyDeclaration.expected_end_on, PregnancyDeclaration.ended_on)
+        .where(PregnancyDeclaration.person_id == person_id).order_by(PregnancyDeclaration.id)).all()
+    category = session.scalar(sa.select(Person.category).where(Person.id == person_id))
+    inputs = (rules_marker(*rules_on(session, on)), settings.display_unit,
+              category, records, declarations)
+    return hashlib.sha256(repr(inputs).encode()).hexdigest()[:32]
 
 
 class ChartCache:

@@ -1,4 +1,4 @@
-"""`flask exposure show` and `flask exposure review`: the evaluation for scripts and for cron."""
+"""`flask exposure show`, `review` and `refresh`: the evaluation for scripts and for cron."""
 from __future__ import annotations
 
 import json
@@ -19,8 +19,9 @@ from models.core.labels import (
 from models.core.settings import lab_settings
 from models.core.units import from_msv
 from models.exposure.evaluation import person_rows
+from models.exposure.figures_ops import lab_evaluation, refresh_figures
 from models.exposure.investigation_ops import review_after_dose_change
-from models.exposure.lab_ops import LabEvaluation, evaluate_lab
+from models.exposure.lab_ops import LabEvaluation
 from models.exposure.rules_ops import rules_on
 from models.people.person_ops import find_person
 from webapp.exposure import bp
@@ -44,7 +45,7 @@ def show(login: str, on, as_json: bool):
     if person is None:
         raise click.ClickException(f"No person has the login '{login}'.")
     on = on.date() if on else lab_today()
-    lab = evaluate_lab(db.session, on)
+    lab = lab_evaluation(db.session, on, [person.id])
     rows = evaluation_rows(lab, person.id)
     if as_json:
         click.echo(json.dumps(rows, indent=2))
@@ -118,3 +119,11 @@ def review(on):
     db.session.commit()
     deliver_queued()
     click.echo(f"{len(raised)} new investigation(s) raised.")
+
+
+@bp.cli.command("refresh")
+def refresh():
+    """Evaluate everyone today and store the figures the pages read (after an upgrade, say)."""
+    lab = refresh_figures(db.session, lab_today())
+    db.session.commit()
+    click.echo(f"Stored the figures of {len(lab.person_ids)} people for {lab.on}.")

@@ -16,7 +16,8 @@ from models.doses.tables import DoseRecord
 from models.doses.version_ops import record_versions
 from models.exposure.chart import engine_records, fetal_months, monthly_dose
 from models.exposure.evaluation import NO_LIMIT, person_rows
-from models.exposure.lab_ops import cached_lab_evaluation, pregnancy_windows
+from models.exposure.figures_ops import lab_evaluation
+from models.exposure.lab_ops import pregnancy_windows
 from models.exposure.overview import COLUMNS, MAIN_SERIES, OVERVIEW_PERIODS, csv_table, overview_rows, sort_rows
 from models.exposure.rules_ops import rules_on
 from models.people.tables import Person, Role
@@ -113,7 +114,7 @@ def person(person_id: int):
     """The table of quantities x periods, the chart, the records with their versions."""
     subject = _subject(person_id)
     on, date_problem = _evaluation_date()
-    lab = cached_lab_evaluation(db.session, on)
+    lab = lab_evaluation(db.session, on, [person_id])
     _, policies = rules_on(db.session, on)
     rows = person_table(lab, person_id)
     chains = record_versions(db.session, person_id)
@@ -147,7 +148,7 @@ def chart(person_id: int):
     """
     _subject(person_id)
     on, _ = _evaluation_date()
-    version = chart_version(db.session)
+    version = chart_version(db.session, person_id, on)
     wanted = request.args.get("series", "")[:32]
     etag = f"{person_id}-{on}-{wanted}-{version}"
     if etag in request.if_none_match:
@@ -162,7 +163,7 @@ def chart(person_id: int):
 
 def _draw_chart(person_id: int, on: date) -> str:
     """The chart's SVG, from the person's records and the lab's evaluation on `on`."""
-    lab = cached_lab_evaluation(db.session, on)
+    lab = lab_evaluation(db.session, on, [person_id])
     rows = person_rows(lab.evaluation, lab.row_of(person_id))
     series = _chosen_series(rows)
     annual = next((r for r in rows if r["series"] == series and r["period"] == PeriodKind.YEAR),
@@ -177,7 +178,7 @@ def _draw_chart(person_id: int, on: date) -> str:
 @home_panels.add("exposure/page_home_gauges.html", roles={Role.OPERATOR}, order=30)
 def gauges(viewer: Person) -> dict:
     """My dose per series: share of the annual limit, and the worst level over its periods."""
-    lab = cached_lab_evaluation(db.session, lab_today())
+    lab = lab_evaluation(db.session, lab_today())
     rows = person_rows(lab.evaluation, lab.row_of(viewer.id))
     shown = []
     for series in GAUGE_SERIES:
@@ -192,7 +193,7 @@ def gauges(viewer: Person) -> dict:
 
 def _overview(key: str, descending: bool):
     """Everyone who works with dose (operators, and anyone with a record) as overview lines."""
-    lab = cached_lab_evaluation(db.session, lab_today())
+    lab = lab_evaluation(db.session, lab_today())
     people = db.session.execute(
         sa.select(Person.id, Person.login, Person.name).where(
             sa.or_(Person.roles.any(role=Role.OPERATOR),

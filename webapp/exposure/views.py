@@ -9,6 +9,7 @@ from flask_login import current_user
 from models.core.codes import Level, Location, PeriodKind, Quantity, Series, code, decode
 from models.core.labels import LEVEL_LABELS, shared_row_label
 from models.exposure.evaluation import effective_limit_gaps, worst_levels
+from models.exposure.figures_ops import lab_evaluation
 from models.exposure.investigation_ops import (
     crossings,
     investigation_label,
@@ -18,7 +19,7 @@ from models.exposure.investigation_ops import (
     sign_off,
     validate_review,
 )
-from models.exposure.lab_ops import cached_lab_evaluation
+from models.exposure.rules_ops import rules_on
 from models.exposure.tables import Investigation
 from models.people.tables import CATEGORY_LABELS, Person, Role
 from models.reports.context_ops import investigation_context
@@ -78,10 +79,10 @@ def investigation(investigation_id: int):
 
 @attention.add(order=60)
 def dose_levels() -> list[Attention]:
-    """Every series at a level or a limit (its worst period), and projected crossings, from the cached
+    """Every series at a level or a limit (its worst period), and projected crossings, from the stored
     evaluation; a crossing whose investigation is signed off shows as reviewed until the next
     level or window."""
-    lab = cached_lab_evaluation(db.session, lab_today())
+    lab = lab_evaluation(db.session, lab_today())
     evaluation = lab.evaluation
     worst = worst_levels(evaluation)
     people = worst.attention
@@ -159,8 +160,7 @@ def limit_set_state() -> list[Attention]:
             "choose the set that applies to this lab.", where, "installed by default"))
     people = db.session.execute(sa.select(Person.name, Person.category).where(Person.active)
                                 .order_by(Person.name)).all()
-    limit_set = cached_lab_evaluation(db.session, lab_today()).evaluation.limit_set
-    for category in effective_limit_gaps(limit_set, [c for _, c in people]):
+    for category in effective_limit_gaps(rules_on(db.session, lab_today())[0], [c for _, c in people]):
         names = ", ".join(n for n, c in people if c == category)
         lines.append(Attention(
             Severity.LIMIT_SET, f"{name} has no effective-dose limit for {CATEGORY_LABELS[category].lower()} "

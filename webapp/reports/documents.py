@@ -9,7 +9,7 @@ from models.core.due_dates import calibration_due
 from models.core.labels import LENS_LABELS, MRD_LABELS, PRORATION_LABELS
 from models.doses.tables import DoseRecord, DoseSource
 from models.doses.version_ops import record_versions
-from models.exposure.lab_ops import cached_lab_evaluation
+from models.exposure.figures_ops import lab_evaluation
 from models.exposure.rules_ops import rules_on
 from models.instruments.tables import KIND_LABELS
 from models.people.tables import Person
@@ -59,7 +59,7 @@ def _record_row(record: DoseRecord, current: bool) -> list:
 def person_statement(person: Person, year: int, made_by: str, now_text: str) -> bytes:
     """The annual dose statement: figures as on the exposure page, every record and version."""
     on = statement_date(year, lab_today())
-    lab = cached_lab_evaluation(db.session, on)
+    lab = lab_evaluation(db.session, on, [person.id])
     rows = person_table(lab, person.id)
     doc = Document(f"Annual dose statement {year}: {person.name}",
                    provenance(on, f"Calendar year {year}, figures as on {on}", now_text, made_by))
@@ -108,7 +108,7 @@ def made_now() -> str:
 def year_figures(year: int) -> LabYear:
     """The lab's year, dose figures as on 31 December or today."""
     on = statement_date(year, lab_today())
-    return lab_year(db.session, year, cached_lab_evaluation(db.session, on), lab_zone())
+    return lab_year(db.session, year, lab_evaluation(db.session, on), lab_zone())
 
 
 def _range(values: tuple[float, float] | None) -> str:
