@@ -148,7 +148,7 @@ def test_the_history_lists_each_change_with_date_who_when_and_why(app, make_pers
     assert page.status_code == 200
     for expected in ("2026-06-01", "US 10 CFR Part 20", "Licence now under 10 CFR 20", "Rita Safety",
                      "2026-12-02", "Dosimetry service advice", "counts as half the MRD", "Test set-up.",
-                     "1950-01-01", EURATOM, "in force today"):
+                     "1950-01-01", EURATOM, "set in force today", "policies in force today"):
         assert expected in text
     assert "Too early" not in text
     assert "history" in client.get("/exposure/limits/").data.decode().lower()

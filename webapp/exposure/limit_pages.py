@@ -68,9 +68,10 @@ def _change(form) -> dict:
 @roles_required(RSO)
 def limits_history():
     """Every change of the limit set in force and of the counting policies: from when, who, why."""
+    set_change, policy_change = changes_in_force(db.session, lab_today())
     return render_template("exposure/limits_history.html", changes=rule_history(db.session),
-                           in_force={c.id for c in changes_in_force(db.session, lab_today()) if c},
-                           labels=labels)
+                           set_in_force=set_change.id if set_change else None,
+                           policies_in_force=policy_change.id if policy_change else None, labels=labels)
 
 
 @bp.route("/exposure/limits/choose", methods=["POST"])
