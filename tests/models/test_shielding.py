@@ -80,8 +80,8 @@ def test_lead_value_layers_near_the_broad_beam_table(kv):
 # as B(x) = [(1 + b/a) exp(a g x) - b/a]^(-1/g), a and b in 1/mm.
 # Deep in the barrier B tends to (1 + b/a)^(-1/g) exp(-a x): the steel has filtered the beam heavily
 # and each further HVL is ln 2 / a, each TVL ln 10 / a (worked by hand beside each value). Read from
-# the transcription of Table A.1 at github.com/dryano1401/rad-shielding-calc,
-# src/radshield/physics/data/ncrp147_primary_archer_kvp.csv, which two other public transcriptions
+# the public copy of Table A.1 at github.com/dryano1401/rad-shielding-calc,
+# src/radshield/physics/data/ncrp147_primary_archer_kvp.csv, which two other public copies
 # match; the printed report was not at hand. The ASTM E94 table used for lead gives no steel values
 # at 50-100 kV (its text copy lists 16 steel values for 21 rows, the first 1.5 mm, three times the
 # monoenergetic bound at 50 keV below, so the column cannot start at 50 kV).
