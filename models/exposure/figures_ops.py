@@ -43,8 +43,8 @@ RECOMPUTE_EVERYONE = frozenset({"lab_settings", "limit_set", "limit_rule", "rule
 # The person's columns the evaluation depends on (active: who is listed).
 _PERSON_INPUTS = ("category", "active")
 _EVERYONE = "exposure_everyone"
-# Beyond this many changed people (a large import) one full read is quicker than a list of ids.
-_WHOLE_LAB_ABOVE = 500
+# Changed people (a large import) are evaluated this many at a time: memory follows a group, not the lab.
+_GROUP = 250
 _SUPERSEDED = "exposure_superseded"
 
 _S, _T = len(Series), len(PeriodKind)
@@ -98,10 +98,12 @@ def bring_up_to_date(session: Session) -> None:
         today = lab_date(session, utcnow())
         # A version recorded against another person changes the figures of both.
         people |= set(session.scalars(sa.select(DoseRecord.person_id).where(DoseRecord.id.in_(superseded))))
-        if everyone or len(people) > _WHOLE_LAB_ABOVE:
+        if everyone:
             _store(session, evaluate_lab(session, today), everyone=True)
-        else:
-            _store(session, evaluate_lab(session, today, sorted(people)), everyone=False)
+            continue
+        chosen = sorted(people)
+        for start in range(0, len(chosen), _GROUP):
+            _store(session, evaluate_lab(session, today, chosen[start:start + _GROUP]), everyone=False)
 
 
 def rules_marker(limit_set: LimitSetSpec, policies) -> str:

@@ -165,6 +165,20 @@ def test_a_bulk_import_updates_the_figures(session, make_person):
     assert year_dose(figures_ops._stored(session, LAB_TODAY), ada) == pytest.approx(1.5)  # 0.9 + 0.6
 
 
+def test_a_large_import_is_evaluated_a_group_at_a_time(session, make_person, monkeypatch):
+    """Groups of one person here stand in for the groups of a few hundred of a large report."""
+    monkeypatch.setattr(figures_ops, "_GROUP", 1)
+    ada, bo, cy = make_person("ada"), make_person("bo"), make_person("cy")
+    lab_evaluation(session, LAB_TODAY)
+    rows = ["ada,,2026-10-01,2026-10-31,Hp(10),whole_body,0.9,mSv,measured,",
+            "bo,,2026-10-01,2026-10-31,Hp(10),whole_body,0.4,mSv,measured,",
+            "cy,,2026-11-01,2026-11-30,Hp(10),whole_body,0.2,mSv,measured,"]
+    commit_report(session, validate_report(session, report(rows), PRODUCT_LAYOUT, "october.csv"))
+    session.commit()
+    stored = figures_ops._stored(session, LAB_TODAY)
+    assert [year_dose(stored, p) for p in (ada, bo, cy)] == pytest.approx([0.9, 0.4, 0.2])
+
+
 def test_a_change_of_rules_stores_everyone_again_in_its_transaction(session, make_person, use_limit_set):
     make_person("ada"), make_person("bo")
     before = {row[2] for row in stored_rows(session)}
