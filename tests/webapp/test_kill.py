@@ -145,23 +145,23 @@ def _cpu_seconds(pid: int) -> float:
 
 def _import_killed_after(database_url: str, report: str, cpu_s: float) -> bool:
     """Run the import and SIGKILL it once it used `cpu_s` of CPU; False when it finished first."""
-    child = subprocess.Popen(command("flask", "doses", "import", report), cwd=ROOT,
-                             env=environment(database_url), stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    try:
-        while child.poll() is None:
-            assert _imported() in {(0, 0), (IMPORT_ROWS, 1)}, "a partial import is visible"
-            try:
-                if _cpu_seconds(child.pid) >= cpu_s:
-                    child.send_signal(signal.SIGKILL)
-                    break
-            except FileNotFoundError:
-                break  # gone between the poll and the read
-            threading.Event().wait(0.01)
-        out, err = child.communicate()
-    finally:
-        if child.poll() is None:
-            child.kill()
-            child.wait()
+    # The context closes the pipes and waits, also when an assertion below fails.
+    with subprocess.Popen(command("flask", "doses", "import", report), cwd=ROOT,
+                          env=environment(database_url), stdout=subprocess.PIPE, stderr=subprocess.PIPE) as child:
+        try:
+            while child.poll() is None:
+                assert _imported() in {(0, 0), (IMPORT_ROWS, 1)}, "a partial import is visible"
+                try:
+                    if _cpu_seconds(child.pid) >= cpu_s:
+                        child.send_signal(signal.SIGKILL)
+                        break
+                except FileNotFoundError:
+                    break  # gone between the poll and the read
+                threading.Event().wait(0.01)
+            _out, err = child.communicate()
+        finally:
+            if child.poll() is None:
+                child.kill()
     if child.returncode == -signal.SIGKILL:
         return True
     assert child.returncode == 0, err.decode()[-2000:]
@@ -178,10 +178,15 @@ def _cpu_to_load_the_app(database_url: str) -> float:
 
 
 def _imported() -> tuple[int, int]:
-    """Dose records and import batches on file."""
+    """Dose records and import batches on file, counted in one statement.
+
+    One statement reads one snapshot on both databases; two would let the import's commit land
+    between them and show its batch without its rows.
+    """
     db.session.remove()
-    return (db.session.scalar(sa.select(sa.func.count()).select_from(DoseRecord)),
-            db.session.scalar(sa.select(sa.func.count()).select_from(ImportBatch)))
+    count = sa.select(sa.func.count())
+    return tuple(db.session.execute(sa.select(count.select_from(DoseRecord).scalar_subquery(),
+                                              count.select_from(ImportBatch).scalar_subquery())).one())
 
 
 def test_an_import_killed_mid_way_is_all_or_nothing(app, database_url, make_person, tmp_path):
