@@ -12,7 +12,7 @@ same reduction, so this errs thick against a leak through a gap, which would be 
 is the order between a diffractometer's direct beam and a survey reading outside its enclosure
 (common practice); with it the lead half-value layers come out at or above the broad-beam handbook
 values at 50 and 100 kV and within a few per cent below at 70 kV, and the steel ones 2 to 9 % below
-the broad-beam values of NCRP Report No. 147, the build-up being left out (tests/models/test_shielding.py).
+the broad-beam values of NCRP Report No. 147, the build-up being left out (tests/models/surveys/test_shielding.py).
 """
 from __future__ import annotations
 

@@ -8,7 +8,7 @@ import pytest
 from models.core.errors import Invalid
 from models.doses.import_ops import MAX_ROWS, read_csv
 from models.people.tables import Role
-from tests.models.test_dose_import import HEADER, report
+from tests.models.doses.test_dose_import import HEADER, report
 
 # Werkzeug's test client spools an 11 MB body to a temporary file of its own and leaves it open;
 # the warning surfaces in whichever test runs next, so the whole module ignores it.

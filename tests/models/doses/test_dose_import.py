@@ -14,7 +14,7 @@ from models.core.errors import Invalid
 from models.doses.import_ops import PRODUCT_LAYOUT, Refused, commit_report, layout_of, save_mapping, validate_report
 from models.doses.tables import DoseRecord, DoseSource, DosimeterKind, Hand, ImportBatch
 from models.people.tables import Person
-from tests.models.test_audit import insider
+from tests.models.audit.test_audit import insider
 
 HEADER = "person,dosimeter,wear_start,wear_end,quantity,location,value,unit,result,mrd\n"
 

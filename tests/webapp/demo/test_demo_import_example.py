@@ -12,7 +12,7 @@ from tests.conftest import PASSWORD_HASH
 from webapp.demo.lab import load_demo_lab
 from webapp.extensions import db
 
-EXAMPLE = Path(__file__).parents[2] / "webapp" / "demo" / "example_report.csv"
+EXAMPLE = Path(__file__).parents[3] / "webapp" / "demo" / "example_report.csv"
 
 
 def test_the_shipped_example_imports_into_the_fresh_demo(app):
@@ -32,7 +32,7 @@ def test_the_shipped_example_imports_into_the_fresh_demo(app):
 
 
 def test_the_readme_shows_the_shipped_file_and_the_port():
-    readme = (Path(__file__).parents[2] / "README.md").read_text(encoding="utf-8")
+    readme = (Path(__file__).parents[3] / "README.md").read_text(encoding="utf-8")
     assert "webapp/demo/example_report.csv" in readme
     assert EXAMPLE.read_text(encoding="utf-8").strip() in readme
     assert "make run PORT=8080 HOST=0.0.0.0" in readme

@@ -19,7 +19,7 @@ from models.exposure.lab_ops import evaluate_lab
 from models.exposure.rules_ops import rules_on
 from models.exposure.tables import ExposureFigures, PregnancyDeclaration
 from tests.conftest import LAB_NOW, LAB_TODAY
-from tests.models.test_dose_import import report
+from tests.models.doses.test_dose_import import report
 
 JANUARY = {"wear_start": date(2026, 1, 1), "wear_end": date(2026, 1, 31)}
 FEBRUARY = {"wear_start": date(2026, 2, 1), "wear_end": date(2026, 2, 28)}

@@ -14,7 +14,7 @@ from models.exposure.pregnancy_ops import declare
 from models.exposure.tables import PregnancyDeclaration
 from models.people.tables import Role
 from tests.conftest import LAB_TODAY
-from tests.models.test_dose_import import report, thousand_rows
+from tests.models.doses.test_dose_import import report, thousand_rows
 
 OFFICER = (Role.SAFETY_OFFICER,)
 

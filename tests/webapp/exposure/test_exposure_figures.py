@@ -7,7 +7,7 @@ from models.doses.record_ops import add_dose_record
 from models.exposure.investigation_ops import review_after_dose_change
 from models.people.tables import Role
 from tests.conftest import LAB_TODAY, PASSWORD, base_config
-from tests.models.test_figures import entry
+from tests.models.exposure.test_figures import entry
 from webapp import create_app
 from webapp.extensions import db
 

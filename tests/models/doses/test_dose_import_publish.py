@@ -17,7 +17,7 @@ from models.doses.import_ops import PRODUCT_LAYOUT, Refused, import_report
 from models.doses.tables import DoseRecord, DoseSource, Dosimeter, ImportBatch, ImportStaging
 from models.people.person_ops import add_person
 from models.people.tables import Person, Role
-from tests.models.test_dose_import import report
+from tests.models.doses.test_dose_import import report
 from webapp.extensions import db
 
 ROWS = [  # six months of one badge, three to a chunk below; the header is line 1
