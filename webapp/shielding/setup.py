@@ -24,7 +24,7 @@ class SetUp:
     target_usv_h: float = 2.5
     margin: float = 1.0
     materials: tuple[str, ...] = field(default_factory=lambda: tuple(MATERIALS))
-    distance_cm: float = 5.0
+    distance_cm: float | None = None  # None when not given: never claimed as a distance
     at_cm: float | None = None
     ma: float | None = None
     planned_ma: float | None = None
@@ -52,13 +52,16 @@ def from_point(point: SurveyPoint) -> SetUp:
 def run(setup: SetUp) -> Result:
     """The rate to shield (reading, scaled to the planned current and distance) and the estimate."""
     reading = to_usv_h(setup.reading, setup.unit, setup.kv)
-    rate, steps = reading, [f"{reading:.3g} µSv/h read at {setup.distance_cm:g} cm"]
+    where = "distance not given" if setup.distance_cm is None else f"read at {setup.distance_cm:g} cm"
+    rate, steps = reading, [f"{reading:.3g} µSv/h, {where}"]
     if setup.planned_ma is not None and not setup.ma:
         raise ValueError("a planned tube current needs the current during the reading")
     if setup.planned_ma is not None:
         rate *= setup.planned_ma / setup.ma
         steps.append(f"× {setup.planned_ma:g} / {setup.ma:g} mA (rate in proportion to the tube current)")
     if setup.at_cm is not None:
+        if setup.distance_cm is None:
+            raise ValueError("another distance needs the distance the reading was taken at")
         rate = inverse_square(rate, setup.distance_cm, setup.at_cm)
         steps.append(f"× ({setup.distance_cm:g} / {setup.at_cm:g} cm)² (inverse square)")
     close = setup.at_cm is not None and min(setup.distance_cm, setup.at_cm) < CLOSE_CM

@@ -121,6 +121,8 @@ def test_cli_json_for_scripts(app):
     for material in (lead, steel):
         assert material["tvl_mm"] < material["added_mm"] < 2 * material["tvl_mm"]
     assert data["assumptions"] and "not a shielding design" in data["caution"]
+    # No --distance: the output does not claim one.
+    assert data["how"] == ["40 µSv/h, distance not given"]
 
 
 @pytest.mark.parametrize(
