@@ -16,8 +16,8 @@ from webapp.extensions import db
 
 pytestmark = pytest.mark.slow
 
-# More than one claim's worth (models.core.outbox.claim takes 100), so the second sender finds
-# messages the first has not claimed while the first is held at its first delivery.
+# Enough that both senders are still claiming (models.core.outbox.claim_next takes one at a time)
+# once the first is let through its first delivery.
 MESSAGES = 250
 
 
