@@ -37,6 +37,8 @@ LEVEL_LABELS = {
     Level.LIMIT_REACHED: "limit reached",
     # A row no rule covers (evaluation.NO_LIMIT): nothing was assessed, so never "below level I".
     "no_limit": "no limit in this set",
+    # A row with no result of a dosimeter it reads in the period (evaluation.NO_RESULT): no dose to grade.
+    "no_result": "no dosimeter result",
 }
 RESULT_LABELS = {
     Result.MEASURED: "measured",

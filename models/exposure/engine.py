@@ -162,6 +162,9 @@ class DoseTotals:
     location: (P, S, T) Location codes (the worst hand can change from one period to the next).
     stand_in: (P, S, T) bool, some days of the window counted the other whole-body quantity
     because the chosen stand-in was not reported for them (lens and fetus only).
+    reported: (P, S, T) bool, the window holds a result (any, a lost one too) of a dosimeter
+    worn that the series reads (for the lens and fetus, a stand-in's too); where not, its zero
+    dose was never assessed.
     """
 
     on: date
@@ -172,6 +175,7 @@ class DoseTotals:
     quantity: np.ndarray
     location: np.ndarray
     stand_in: np.ndarray
+    reported: np.ndarray
 
 
 @dataclass(frozen=True)
@@ -182,7 +186,7 @@ class _Rows:
     first, last: the days the share is taken over; weight: mSv per share unit; lacking: index
     of the rows that are holes; hole: per lacking row, which record of which channel it is
     (a record cut in pieces is still one missing result); other: index of the rows read from
-    the other whole-body quantity.
+    the other whole-body quantity; worn: the row is a record of a dosimeter worn (not a piece).
     """
 
     key: np.ndarray
@@ -192,6 +196,7 @@ class _Rows:
     lacking: np.ndarray
     hole: np.ndarray
     other: np.ndarray
+    worn: np.ndarray
 
 
 def compute_doses(
@@ -221,6 +226,7 @@ def compute_doses(
     raw = np.zeros((size + 1, n_periods))
     holes = np.zeros((size + 1, n_periods))
     other_days = np.zeros((size + 1, n_periods))
+    worn = np.zeros((size + 1, n_periods))
     row_person = rows.key // _N_CHANNELS
 
     def window_of(selected, lo, hi):
@@ -235,9 +241,12 @@ def compute_doses(
         return _share(rows.first[selected], rows.last[selected], *window_of(selected, lo, hi), prorate)
 
     def add(t: int, selected, lo, hi) -> None:
-        """Sum rows `selected`, the holes and the other-quantity days into period kind t over [lo, hi]."""
-        raw[:, t] = np.bincount(rows.key[selected], weights=share(selected, lo, hi) * rows.weight[selected],
-                                minlength=size + 1)
+        """Sum rows `selected`, the holes, the other-quantity days and the records of dosimeters worn
+        into period kind t over [lo, hi]."""
+        shares = share(selected, lo, hi)
+        raw[:, t] = np.bincount(rows.key[selected], weights=shares * rows.weight[selected], minlength=size + 1)
+        worn[:, t] = np.bincount(rows.key[selected], weights=(shares > 0) & rows.worn[selected],
+                                 minlength=size + 1)
         inside = share(rows.lacking, lo, hi) > 0
         _, once = np.unique(rows.hole[inside], return_index=True)
         holes[:, t] = np.bincount(rows.key[rows.lacking[inside][once]], minlength=size + 1)
@@ -264,6 +273,7 @@ def compute_doses(
         return array[:size].reshape(n_people, _N_CHANNELS, n_periods)
 
     raw, holes, other_days = channels(raw), channels(holes).astype(np.int64), channels(other_days)
+    worn = channels(worn)[:, :len(SOURCES)] > 0
     lens_direct = _LENS_SUBSTITUTE[policies.lens_source]
     dose = _series(raw, has, lens_direct, np.maximum(raw[:, _LEFT], raw[:, _RIGHT]), gap=False)
     # Either hand may turn out the worse once its missing results arrive.
@@ -282,6 +292,7 @@ def compute_doses(
         quantity=quantity,
         location=location,
         stand_in=stand_in,
+        reported=_reported(worn),
     )
 
 
@@ -355,6 +366,7 @@ def _rows(records: DoseRecords, n_people: int, on_day: int, policies: Policies,
         lacking=lacking_rows,
         hole=np.concatenate(origins)[lacking_rows],
         other=np.concatenate(others),
+        worn=np.concatenate([worn, np.zeros(offset - len(records), dtype=bool)]),
     )
     return rows, has
 
@@ -452,6 +464,18 @@ def _series(per_channel: np.ndarray, has: np.ndarray, lens_direct: int, worst_ha
     if gap:
         out[:, code(Series.LENS)] += per_channel[:, _LENS_GAP]
         out[:, code(Series.FETUS)] += per_channel[:, _FETUS_GAP]
+    return out
+
+
+def _reported(worn: np.ndarray) -> np.ndarray:
+    """(P, S, T) whether a dosimeter a series reads was worn, from (P, len(SOURCES), T) per channel."""
+    out = np.empty((worn.shape[0], len(Series), worn.shape[2]), dtype=bool)
+    for series, channel in _DIRECT.items():
+        out[:, code(series)] = worn[:, channel]
+    whole_body = worn[:, _HP10_WB] | worn[:, _HP007_WB]
+    out[:, code(Series.LENS)] = worn[:, _HP3] | whole_body
+    out[:, code(Series.WORST_HAND)] = worn[:, _LEFT] | worn[:, _RIGHT]
+    out[:, code(Series.FETUS)] = worn[:, _ABDOMEN] | whole_body
     return out
 
 

@@ -4,7 +4,9 @@ Arrays are (P, S, T) like DoseTotals.dose. Decisions:
 - Level ladder: below_1 < level_1 (dose >= level I) < level_2 (>= level II) < limit_reached
   (>= 100 % of the limit). A row without a limit takes its level from absolute levels only.
 - Fail closed: a row that no rule of the set covers for the person's category is reported with
-  the level `no_limit` ("no limit in this set"), never `below_1`, since nothing was assessed.
+  the level `no_limit` ("no limit in this set"), never `below_1`, since nothing was assessed; a row
+  with no result in the period of a dosimeter it reads (for the lens and fetus, a stand-in's too):
+  none worn or none reported yet, with the level `no_result` and no dose, never 0 mSv.
 - projected_msv = dose / elapsed days * total days of the period. Rolling windows (and an open
   pregnancy) end on the evaluation date, so their projection equals their dose.
 - A person with a pregnancy window also gets the declared_pregnant rules; where two rules cover
@@ -22,6 +24,10 @@ from models.exposure.presets import DECLARATION_ALLOWANCE_CLAUSE, LimitSetSpec
 TOLERANCE_MSV = 1e-9
 # The level reported for a row no rule covers; not a Level, since it is not a place on the ladder.
 NO_LIMIT = "no_limit"
+# The level reported for a row with no result of a dosimeter it reads in the period (none worn,
+# or none reported yet): its zero is not a dose.
+NO_RESULT = "no_result"
+UNASSESSED = (NO_LIMIT, NO_RESULT)
 
 _NON_FETAL = [code(s) for s in Series if s is not Series.FETUS]
 _NON_PREGNANCY = [code(t) for t in PeriodKind if t is not PeriodKind.PREGNANCY]
@@ -147,7 +153,8 @@ def person_rows(evaluation: Evaluation, person: int) -> list[dict]:
     rows = []
     for s, t in zip(*np.nonzero(shown)):
         at = (person, s, t)
-        rule = evaluation.rule[at]
+        level = row_level(evaluation, at)
+        assessed = level not in UNASSESSED
         rows.append(
             {
                 "quantity": str(_member(Quantity, totals.quantity[person, s])),
@@ -155,20 +162,29 @@ def person_rows(evaluation: Evaluation, person: int) -> list[dict]:
                 "period": str(_member(PeriodKind, t)),
                 "start": str(windows.start[person, t]),
                 "end": str(windows.end[person, t]),
-                "dose_msv": float(totals.dose[at]),
+                "dose_msv": float(totals.dose[at]) if totals.reported[at] else None,
                 "limit_msv": _number(evaluation.limit[at]),
-                "fraction": _number(evaluation.fraction[at]),
-                "level": str(_member(Level, evaluation.level[at])) if rule >= 0 else NO_LIMIT,
-                "projected_msv": float(evaluation.projected[at]),
+                "fraction": _number(evaluation.fraction[at]) if assessed else None,
+                "level": level,
+                "projected_msv": float(evaluation.projected[at]) if totals.reported[at] else None,
                 "series": str(_member(Series, s)),
-                "remaining_msv": _number(evaluation.remaining[at]),
-                "projected_level": (str(_member(Level, evaluation.projected_level[at])) if rule >= 0
-                                    else NO_LIMIT),
+                "remaining_msv": _number(evaluation.remaining[at]) if assessed else None,
+                "projected_level": row_level(evaluation, at, projected=True),
                 "clause": _clause(evaluation, at),
                 "stand_in": bool(totals.stand_in[at]),
             }
         )
     return rows
+
+
+def row_level(evaluation: Evaluation, at: tuple, projected: bool = False) -> str:
+    """The level shown for one row: `no_limit` where no rule covers it, `no_result` where the
+    period holds no result of a dosimeter it reads, else its place on the ladder."""
+    if evaluation.rule[at] < 0:
+        return NO_LIMIT
+    if not evaluation.totals.reported[at]:
+        return NO_RESULT
+    return str(_member(Level, (evaluation.projected_level if projected else evaluation.level)[at]))
 
 
 def _clause(evaluation: Evaluation, at: tuple) -> str | None:

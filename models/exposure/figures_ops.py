@@ -55,7 +55,7 @@ LAYOUT = np.dtype([
     ("dose", "<f8", (_S, _T)), ("missing", "<i4", (_S, _T)), ("quantity", "i1", (_S,)),
     ("location", "i1", (_S, _T)), ("stand_in", "?", (_S, _T)), ("rule", "<i2", (_S, _T)),
     ("level1", "<f8", (_S, _T)), ("level2", "<f8", (_S, _T)), ("limit", "<f8", (_S, _T)),
-    ("allowance", "?"),
+    ("allowance", "?"), ("reported", "?", (_S, _T)),
 ])
 
 
@@ -134,7 +134,8 @@ def _pack(lab: LabEvaluation) -> np.ndarray:
     for name, values in (("start", totals.windows.start), ("end", totals.windows.end),
                          ("dose", totals.dose), ("missing", totals.missing),
                          ("quantity", totals.quantity), ("location", totals.location),
-                         ("stand_in", totals.stand_in), ("rule", evaluation.rule),
+                         ("stand_in", totals.stand_in), ("reported", totals.reported),
+                         ("rule", evaluation.rule),
                          ("level1", evaluation.level1), ("level2", evaluation.level2),
                          ("limit", evaluation.limit)):
         packed[name] = values
@@ -172,7 +173,8 @@ def _unpack(packed: np.ndarray, on: date, limit_set: LimitSetSpec, policies):
     """The evaluation held in LAYOUT records, in the engine's own types."""
     windows = Windows(on, packed["start"].copy(), packed["end"].copy())
     totals = DoseTotals(on, policies, windows, packed["dose"].copy(), packed["missing"].astype(np.int64),
-                        packed["quantity"].copy(), packed["location"].copy(), packed["stand_in"].copy())
+                        packed["quantity"].copy(), packed["location"].copy(), packed["stand_in"].copy(),
+                        packed["reported"].copy())
     evaluation = graded(totals, limit_set, packed["rule"].astype(np.int64), packed["level1"].copy(),
                         packed["level2"].copy(), packed["limit"].copy())
     return replace(evaluation, allowance=packed["allowance"].copy())

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from models.core.codes import Level, PeriodKind, Series, code
-from models.exposure.evaluation import Evaluation
+from models.exposure.evaluation import NO_LIMIT, NO_RESULT, UNASSESSED, Evaluation, row_level
 
 MAIN_SERIES = (Series.EFFECTIVE, Series.SKIN, Series.LENS, Series.WORST_HAND)
 OVERVIEW_PERIODS = (PeriodKind.YEAR, PeriodKind.QUARTER)
@@ -19,12 +19,12 @@ SORT_KEYS = ("name", "login", "level", *COLUMNS)
 
 @dataclass(frozen=True)
 class Cell:
-    """One series x period of one person."""
+    """One series x period of one person; no dose where no result of its dosimeter is in the period."""
 
-    dose_msv: float
+    dose_msv: float | None
     limit_msv: float | None
     fraction: float | None
-    level: Level
+    level: str  # a Level, or evaluation.NO_LIMIT / NO_RESULT where nothing was assessed
     missing: int
 
 
@@ -35,8 +35,24 @@ class OverviewRow:
     person_id: int
     login: str
     name: str
-    level: Level
+    level: str
     cells: dict[str, Cell]
+
+
+_UNASSESSED_RANK = {NO_RESULT: -1.0, NO_LIMIT: 0.5}
+
+
+def _rank(level: str) -> float:
+    """Where a level sorts: a missing limit beside level I (it needs the officer), no result first."""
+    return _UNASSESSED_RANK[level] if level in _UNASSESSED_RANK else float(code(Level(level)))
+
+
+def _worst(levels: list[str]) -> str:
+    """The worst assessed level of a line; where none was assessed, why (a missing limit first)."""
+    assessed = [level for level in levels if level not in UNASSESSED]
+    if assessed:
+        return max(assessed, key=_rank)
+    return NO_LIMIT if NO_LIMIT in levels else NO_RESULT
 
 
 def _optional(value: float) -> float | None:
@@ -52,18 +68,18 @@ def overview_rows(evaluation: Evaluation, rows: np.ndarray, people: list[tuple[i
     pick = np.ix_(rows, s, t)
     totals = evaluation.totals
     dose, limit = totals.dose[pick], evaluation.limit[pick]
-    fraction, level, missing = evaluation.fraction[pick], evaluation.level[pick], totals.missing[pick]
-    levels = tuple(Level)
+    fraction, missing = evaluation.fraction[pick], totals.missing[pick]
     lines = []
     for i, (person_id, login, name) in enumerate(people):
-        cells = {
-            f"{series}_{period}": Cell(float(dose[i, a, b]), _optional(limit[i, a, b]),
-                                       _optional(fraction[i, a, b]), levels[level[i, a, b]],
-                                       int(missing[i, a, b]))
-            for a, series in enumerate(MAIN_SERIES)
-            for b, period in enumerate(OVERVIEW_PERIODS)
-        }
-        lines.append(OverviewRow(person_id, login, name, levels[int(level[i].max())], cells))
+        cells = {}
+        for a, series in enumerate(MAIN_SERIES):
+            for b, period in enumerate(OVERVIEW_PERIODS):
+                level = row_level(evaluation, (rows[i], s[a], t[b]))
+                cells[f"{series}_{period}"] = Cell(
+                    float(dose[i, a, b]) if totals.reported[rows[i], s[a], t[b]] else None,
+                    _optional(limit[i, a, b]), None if level == NO_RESULT else _optional(fraction[i, a, b]),
+                    level, int(missing[i, a, b]))
+        lines.append(OverviewRow(person_id, login, name, _worst([c.level for c in cells.values()]), cells))
     return lines
 
 
@@ -78,11 +94,12 @@ def sort_rows(lines: list[OverviewRow], key: str, descending: bool) -> list[Over
         def value(line):
             """Level, then the highest fraction of a limit."""
             worst = max((c.fraction or 0.0 for c in line.cells.values()), default=0.0)
-            return code(line.level), worst
+            return _rank(line.level), worst
     else:
         def value(line):
-            """The column's dose."""
-            return line.cells[key].dose_msv
+            """The column's dose; cells without a result sort below every dose."""
+            dose = line.cells[key].dose_msv
+            return dose is not None, dose or 0.0
     return sorted(by_name, key=value, reverse=descending)
 
 
@@ -102,7 +119,7 @@ def csv_table(lines: list[OverviewRow]) -> list[list]:
         row = [_cell_text(line.login), _cell_text(line.name), str(line.level)]
         for column in COLUMNS:
             cell = line.cells[column]
-            row += [f"{cell.dose_msv:.4f}",
+            row += ["" if cell.dose_msv is None else f"{cell.dose_msv:.4f}",
                     "" if cell.limit_msv is None else f"{cell.limit_msv:g}",
                     "" if cell.fraction is None else f"{100 * cell.fraction:.1f}",
                     str(cell.level), cell.missing]

@@ -23,4 +23,5 @@ LEVEL_CSS = {
     Level.LEVEL_2: "state-bad",
     Level.LIMIT_REACHED: "state-bad",
     "no_limit": "state-warn",
+    "no_result": "",  # the plain badge: a monitoring decision, not a warning
 }

@@ -15,7 +15,7 @@ from models.core.units import from_msv
 from models.doses.tables import DoseRecord
 from models.doses.version_ops import record_versions
 from models.exposure.chart import engine_records, fetal_months, monthly_dose
-from models.exposure.evaluation import NO_LIMIT, person_rows
+from models.exposure.evaluation import UNASSESSED, person_rows
 from models.exposure.figures_ops import lab_evaluation
 from models.exposure.lab_ops import pregnancy_windows
 from models.exposure.overview import COLUMNS, MAIN_SERIES, OVERVIEW_PERIODS, csv_table, overview_rows, sort_rows
@@ -131,7 +131,7 @@ def person(person_id: int):
         rows=rows, chains=chains, fetal=fetal, fetal_row=fetal_row, labels=labels,
         compact=compact_table(rows), chart_choices=chart_series(rows),
         chart_series=_chosen_series(rows),
-        at_level=[r for r in rows if r["level"] not in (Level.BELOW_1, NO_LIMIT)],
+        at_level=[r for r in rows if r["level"] not in (Level.BELOW_1, *UNASSESSED)],
         projected=[r for r in rows if r["clause"] and r["projected_level"] != r["level"]],
         lab=settings(), policies=policies, limit_set_name=lab.evaluation.limit_set.name,
         whole_pregnancy=lab.evaluation.limit_set.whole_pregnancy,
@@ -184,7 +184,7 @@ def gauges(viewer: Person) -> dict:
     for series in GAUGE_SERIES:
         own = [r for r in rows if r["series"] == series]
         year = next((r for r in own if r["period"] == PeriodKind.YEAR), None)
-        assessed = [r for r in own if r["level"] != NO_LIMIT]
+        assessed = [r for r in own if r["level"] not in UNASSESSED]
         worst = max(assessed, key=lambda r: (code(Level(r["level"])), r["fraction"] or 0.0), default=year)
         if year is not None:
             shown.append({"series": series, "year": year, "worst": worst})

@@ -47,3 +47,18 @@ def test_csv_has_a_header_and_defuses_formulas(lines):
     assert table[0][:4] == ["login", "name", "worst_level", "effective_year_dose_msv"]
     assert table[2][0] == "'=bob"
     assert table[2][3] == "2.0000"
+
+
+def test_a_cell_without_a_result_shows_no_dose_and_no_level(lines):
+    ann = lines[0]
+    # Hp(10) only: the skin and the hands had no dosimeter result, so no 0 mSv and no "below level I".
+    for column in ("skin_year", "worst_hand_year", "worst_hand_quarter"):
+        assert (ann.cells[column].dose_msv, ann.cells[column].fraction, ann.cells[column].level) == (
+            None, None, "no_result")
+    assert ann.level == "below_1"  # the worst of what was assessed
+    row = csv_table(lines)[1]
+    header = csv_table(lines)[0]
+    assert row[header.index("worst_hand_year_dose_msv")] == ""
+    assert row[header.index("worst_hand_year_level")] == "no_result"
+    # Sorted by a hand column, the lines without a result come last when descending.
+    assert [line.name for line in sort_rows(lines, "worst_hand_year", True)] == ["Ann", "Bob", "Cy"]

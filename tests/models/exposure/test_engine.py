@@ -257,6 +257,39 @@ def test_hands(on, period, left, right, worst, worst_location):
     assert totals.location[at] == code(worst_location)
 
 
+# Person 0: whole body (both quantities) in January, left ring in February, reported unused in March.
+# Person 1: Hp(10) whole body only, in February. Person 2: nothing. Cases worked by hand.
+REPORTED = make(
+    (0, HP10, WB, D(2024, 1, 1), D(2024, 1, 31), 0.0),
+    (0, HP007, WB, D(2024, 1, 1), D(2024, 1, 31), 0.0),
+    (0, HP007, LEFT, D(2024, 2, 1), D(2024, 2, 29), NAN, Result.LOST, NAN),
+    (0, HP10, WB, D(2024, 3, 1), D(2024, 3, 31), 0.0, Result.UNUSED, NAN),
+    (1, HP10, WB, D(2024, 2, 1), D(2024, 2, 29), NAN, Result.BELOW_MRD, 0.1),
+)
+
+
+@pytest.mark.parametrize(
+    "person, on, period, reported",
+    [
+        # a result of 0 mSv is a result; the hands, the eye and the abdomen wore nothing in January
+        (0, D(2024, 1, 31), PeriodKind.MONTH, {Series.EFFECTIVE, Series.SKIN, Series.LENS, Series.FETUS}),
+        # a lost ring is a result still missing, not a period without a dosimeter
+        (0, D(2024, 2, 29), PeriodKind.MONTH, {Series.LEFT_HAND, Series.WORST_HAND}),
+        (0, D(2024, 2, 29), PeriodKind.YEAR, {Series.EFFECTIVE, Series.SKIN, Series.LENS, Series.FETUS,
+                                              Series.LEFT_HAND, Series.WORST_HAND}),
+        # a dosimeter reported unused was not worn
+        (0, D(2024, 3, 31), PeriodKind.MONTH, set()),
+        # Hp(10) alone stands in for the lens and the fetus, but is no Hp(0.07) result for the skin
+        (1, D(2024, 2, 29), PeriodKind.MONTH, {Series.EFFECTIVE, Series.LENS, Series.FETUS}),
+        (2, D(2024, 2, 29), PeriodKind.YEAR, set()),
+    ],
+)
+def test_a_series_without_a_result_in_the_period_is_not_reported(person, on, period, reported):
+    totals = compute_doses(REPORTED, 3, on)
+    found = {s for s in Series if totals.reported[person, code(s), code(period)]}
+    assert found == reported
+
+
 def test_worst_hand_missing_counts_both_hands():
     totals = compute_doses(HANDS, 1, D(2024, 3, 31))
     at = (0, slice(None), code(PeriodKind.MONTH))

@@ -25,7 +25,7 @@ JANUARY = {"wear_start": date(2026, 1, 1), "wear_end": date(2026, 1, 31)}
 FEBRUARY = {"wear_start": date(2026, 2, 1), "wear_end": date(2026, 2, 28)}
 
 
-def year_dose(lab, person) -> float:
+def year_dose(lab, person) -> float | None:
     """The person's Hp(10) whole-body dose this calendar year, from an evaluation."""
     rows = person_rows(lab.evaluation, lab.row_of(person.id))
     return next(r["dose_msv"] for r in rows if r["series"] == "effective" and r["period"] == "year")
@@ -124,7 +124,8 @@ def test_only_the_changed_person_is_evaluated_again(session, make_person, make_d
     make_dose(bo, value=0.2, **JANUARY)
     lab = lab_evaluation(session, LAB_TODAY)
     assert calls == [([bo.id],)]
-    assert year_dose(lab, bo) == pytest.approx(0.2) and year_dose(lab, ada) == 0.0
+    # Ada has no result: no dose at all, not 0 mSv.
+    assert year_dose(lab, bo) == pytest.approx(0.2) and year_dose(lab, ada) is None
 
 
 def test_a_version_recorded_against_another_wearer_changes_both(session, make_person, make_dose):
@@ -137,7 +138,7 @@ def test_a_version_recorded_against_another_wearer_changes_both(session, make_pe
                            reason="The badge was Bo's."))
     session.commit()
     lab = figures_ops._stored(session, LAB_TODAY)
-    assert year_dose(lab, ada) == 0.0 and year_dose(lab, bo) == pytest.approx(0.42)
+    assert year_dose(lab, ada) is None and year_dose(lab, bo) == pytest.approx(0.42)
 
 
 def test_the_date_rollover_evaluates_everyone_once(session, make_person, make_dose, monkeypatch):
@@ -150,7 +151,7 @@ def test_the_date_rollover_evaluates_everyone_once(session, make_person, make_do
     real = figures_ops.evaluate_lab
     monkeypatch.setattr(figures_ops, "evaluate_lab", lambda *a: calls.append(a[1:]) or real(*a))
     assert year_dose(lab_evaluation(session, tomorrow), ada) == pytest.approx(0.42)
-    assert year_dose(lab_evaluation(session, tomorrow), bo) == 0.0
+    assert year_dose(lab_evaluation(session, tomorrow), bo) is None
     assert calls == [(tomorrow,)]  # everyone at once, and only by the first reader
     assert [(row[0], row[1]) for row in stored_rows(session)] == [(ada.id, tomorrow), (bo.id, tomorrow)]
 

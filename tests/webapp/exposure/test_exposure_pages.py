@@ -184,6 +184,18 @@ def test_operator_home_shows_my_gauges(client, login, lab, make_dose):
     assert "My dose this year" not in client.get("/").data.decode()
 
 
+def test_a_series_without_a_dosimeter_result_shows_no_dose_and_no_level(client, login, lab, make_dose):
+    # A whole-body Hp(10) result only: the hands wore nothing, so neither the home gauges nor the
+    # exposure page may show them as 0 mSv "below level I".
+    make_dose(lab["op"], value=5.0, **_this_month())
+    _as(client, login, lab["op"])
+    for page in (client.get("/").data.decode(), _page(client, lab["op"]).data.decode()):
+        right_hand = page[page.index("Right hand"):]
+        right_hand = right_hand[:right_hand.index("</tr>")]
+        assert "no dosimeter result" in right_hand and "below level I" not in right_hand
+        assert "0.000 mSv" not in right_hand and "—" in right_hand
+
+
 def test_people_overview_is_for_the_safety_officer(client, login, lab, make_dose):
     make_dose(lab["op"], value=2.0, **_this_month())
     make_dose(lab["other"], value=0.5, **_this_month())
@@ -198,3 +210,8 @@ def test_people_overview_is_for_the_safety_officer(client, login, lab, make_dose
     assert set(rows) == {"op", "other"}  # operators and people with records; not the admin
     assert float(rows["op"]["effective_year_dose_msv"]) == pytest.approx(2.0, abs=1e-4)
     assert rows["op"]["effective_year_limit_msv"] == "50"  # ICRP Publication 103, Table 6
+    # Hp(10) only, and no ring: the skin and hand columns give no dose and no level, in the CSV and on
+    # the page (year and quarter of each).
+    assert (rows["op"]["worst_hand_year_dose_msv"], rows["op"]["worst_hand_year_level"]) == ("", "no_result")
+    op_line = page[page.index("Person op"):]
+    assert op_line[:op_line.index("</tr>")].count('<span class="muted">no result</span>') == 4

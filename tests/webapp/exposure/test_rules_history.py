@@ -42,9 +42,9 @@ def test_a_past_date_is_evaluated_with_the_set_in_force_then(app, make_person, m
     assert (then["limit_set"], then["dose_msv"], then["limit_msv"], then["level"]) == (
         EURATOM, 7.0, 6.0, "limit_reached")
     # From 1 June 2026 ICRP 103 applies, whose Table 6 has no row for apprentices: nothing is
-    # assessed and the row says so (the 2026 year has no dose).
+    # assessed and the row says so (the 2026 year has no result, so no dose either).
     now = _year_row(app, "tim", date(2026, 6, 1))
-    assert (now["limit_set"], now["dose_msv"], now["limit_msv"], now["level"]) == (ICRP, 0.0, None, "no_limit")
+    assert (now["limit_set"], now["dose_msv"], now["limit_msv"], now["level"]) == (ICRP, None, None, "no_limit")
     # The day before the change still stands under the old set.
     assert _year_row(app, "tim", date(2026, 5, 31))["limit_set"] == EURATOM
 
