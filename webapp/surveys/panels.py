@@ -98,6 +98,12 @@ def _permit_lines() -> list[Attention]:
     return lines
 
 
+def _sentence(text: str) -> str:
+    """A reason as a sentence, so that several read one after the other."""
+    text = text.strip()
+    return text if text.endswith((".", "!", "?")) else f"{text}."
+
+
 @attention.add(order=32)
 def _survey_lines() -> list[Attention]:
     """Failed latest surveys and surveys asked for."""
@@ -110,7 +116,7 @@ def _survey_lines() -> list[Attention]:
     for task in open_survey_tasks(db.session):
         asked.setdefault(task.instrument_id, []).append(task)
     lines += [Attention(Severity.OVERDUE, f"Survey of {tasks[0].instrument.name} needed: "
-                        + "; ".join(dict.fromkeys(t.reason for t in tasks)),
+                        + " ".join(dict.fromkeys(_sentence(t.reason) for t in tasks)),
                         url_for("surveys.new_survey", instrument_id=instrument_id,
                                 trigger=tasks[0].trigger.value), "survey needed")
               for instrument_id, tasks in asked.items()]
