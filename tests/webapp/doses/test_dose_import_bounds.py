@@ -1,5 +1,4 @@
 """Size bounds of a dosimetry import: the upload limit, a short preview, a bounded read."""
-import io
 import time
 import tracemalloc
 
@@ -10,10 +9,6 @@ from models.doses.import_ops import MAX_ROWS, read_csv
 from models.people.tables import Role
 from tests.models.doses.test_dose_import import HEADER, report
 
-# Werkzeug's test client spools an 11 MB body to a temporary file of its own and leaves it open;
-# the warning surfaces in whichever test runs next, so the whole module ignores it.
-pytestmark = pytest.mark.filterwarnings("ignore::ResourceWarning",
-                                        "ignore::pytest.PytestUnraisableExceptionWarning")
 OFFICER = (Role.SAFETY_OFFICER,)
 ROW = "ghost,,2026-01-01,2026-01-31,Hp(10),whole_body,0.10,mSv,measured,\n"
 
@@ -24,9 +19,20 @@ def app_config(tmp_path):
     return {"DOSE_IMPORT_FOLDER": str(tmp_path / "imports")}
 
 
+BOUNDARY = "report-boundary"
+
+
 def _upload(client, data: bytes):
-    return client.post("/doses/import", data={"file": (io.BytesIO(data), "report.csv"), "layout": ""},
-                       content_type="multipart/form-data", follow_redirects=True)
+    """Post the report as a multipart body built in memory.
+
+    Given a file, werkzeug's test client spools a body over 500 kB to a temporary file that it never
+    closes; its ResourceWarning then fails whichever later test the garbage collector runs in.
+    """
+    body = (f'--{BOUNDARY}\r\nContent-Disposition: form-data; name="layout"\r\n\r\n\r\n'
+            f'--{BOUNDARY}\r\nContent-Disposition: form-data; name="file"; filename="report.csv"\r\n'
+            f"Content-Type: text/csv\r\n\r\n").encode() + data + f"\r\n--{BOUNDARY}--\r\n".encode()
+    return client.post("/doses/import", data=body, content_type=f"multipart/form-data; boundary={BOUNDARY}",
+                       follow_redirects=True)
 
 
 def test_the_import_form_states_the_limits(make_person, login):
